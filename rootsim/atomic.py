@@ -1,0 +1,59 @@
+"""Atomic output: files and directories appear complete or not at all."""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import shutil
+import tempfile
+from pathlib import Path
+from typing import Iterator
+
+from .errors import RootsimError
+
+__all__ = ["atomic_path", "atomic_write_text", "ensure_output_dir"]
+
+
+def ensure_output_dir(path: str | os.PathLike) -> Path:
+    """Create ``path`` (and parents) or raise a one-line :class:`RootsimError`."""
+    out = Path(path)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise RootsimError(f"{out}: cannot create output directory ({exc.strerror or exc})") from None
+    if not os.access(out, os.W_OK):
+        raise RootsimError(f"{out}: output directory is not writable")
+    return out
+
+
+@contextlib.contextmanager
+def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
+    """Yield a temporary path next to ``target``; on success rename it over ``target``.
+
+    If the body raises, the temporary file is removed and ``target`` is left untouched.
+    """
+    target = Path(target)
+    parent = target.parent if str(target.parent) else Path(".")
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part" + target.suffix, dir=parent)
+    except OSError as exc:
+        raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
+    os.close(fd)
+    tmp_path = Path(tmp)
+    try:
+        yield tmp_path
+        os.replace(tmp_path, target)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            if tmp_path.is_dir():
+                shutil.rmtree(tmp_path)
+            else:
+                tmp_path.unlink()
+        raise
+
+
+def atomic_write_text(target: str | os.PathLike, text: str) -> None:
+    """Write ``text`` to ``target`` atomically (UTF-8)."""
+    with atomic_path(target) as tmp:
+        tmp.write_text(text, encoding="utf-8")

@@ -1,0 +1,208 @@
+"""The segment table: column layout, validation, and Parquet input/output.
+
+A root system is stored as one row per straight segment. The layout is fixed (further
+columns may follow these):
+
+========== ======= ===================================================================
+column     dtype   meaning
+========== ======= ===================================================================
+segment_id int64   0 .. n-1, equal to the row number
+parent_id  int64   segment this one continues or branches from; -1 for the first
+                   segment of a root that starts at the plant (seed or shoot)
+plant_id   int64   plant the segment belongs to (0 .. n_plants-1)
+root_id    int64   root (axis) the segment belongs to
+order      int64   0 for roots from the seed or shoot, 1 for their laterals, ...
+root_class string  name of the root class in the parameter file
+x0 y0 z0   float64 start point, cm; z up, soil surface at z = 0, soil below (z < 0)
+x1 y1 z1   float64 end point, cm
+radius_cm  float64 segment radius, cm
+length_cm  float64 segment length, cm
+birth_day  float64 day (since sowing) the segment formed
+========== ======= ===================================================================
+
+Table-level facts (stand layout, ground area, container, run settings) travel as JSON in
+the Parquet key-value metadata under the key ``rootsim``.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import Any, Mapping
+
+import numpy as np
+
+from .atomic import atomic_path
+from .errors import SegmentTableError
+
+__all__ = [
+    "COLUMNS",
+    "FLOAT_COLUMNS",
+    "INT_COLUMNS",
+    "METADATA_KEY",
+    "validate_columns",
+    "read_segments",
+    "write_segments",
+]
+
+INT_COLUMNS = ("segment_id", "parent_id", "plant_id", "root_id", "order")
+FLOAT_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1", "radius_cm", "length_cm", "birth_day")
+COLUMNS = INT_COLUMNS[:5] + ("root_class",) + FLOAT_COLUMNS
+METADATA_KEY = b"rootsim"
+
+
+def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table") -> dict[str, np.ndarray]:
+    """Check a mapping of columns against the segment-table layout.
+
+    Parameters
+    ----------
+    columns : mapping of str to array_like
+        Column name to values (a :class:`pandas.DataFrame` works).
+    source : str
+        Name used in error messages (usually the file path).
+
+    Returns
+    -------
+    dict of str to ndarray
+        The required columns as numpy arrays with canonical dtypes, followed by any extra columns.
+
+    Raises
+    ------
+    SegmentTableError
+        Missing columns, NaN or infinite values, negative radii or lengths, ids out of range,
+        or parents that do not precede their children.
+    """
+    missing = [c for c in COLUMNS if c not in columns]
+    if missing:
+        raise SegmentTableError(
+            f"{source}: missing column(s) {', '.join(missing)} (required: {', '.join(COLUMNS)})"
+        )
+    out: dict[str, np.ndarray] = {}
+    n = None
+    for name in COLUMNS:
+        values = columns[name]
+        values = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
+        if n is None:
+            n = len(values)
+        elif len(values) != n:
+            raise SegmentTableError(f"{source}: column {name} has {len(values)} rows, expected {n}")
+        if name == "root_class":
+            if len(values) and any(v is None or (isinstance(v, float) and np.isnan(v)) for v in values[:1]):
+                raise SegmentTableError(f"{source}: column root_class has missing values")
+            out[name] = np.asarray(values, dtype=object).astype(str)
+            continue
+        if name in INT_COLUMNS:
+            try:
+                arr = np.asarray(values, dtype=np.float64)
+            except (TypeError, ValueError):
+                raise SegmentTableError(f"{source}: column {name} must be integers") from None
+            if not np.all(np.isfinite(arr)):
+                raise SegmentTableError(f"{source}: column {name} has NaN or infinite values")
+            if np.any(arr != np.round(arr)):
+                raise SegmentTableError(f"{source}: column {name} must be integers")
+            out[name] = arr.astype(np.int64)
+        else:
+            try:
+                arr = np.asarray(values, dtype=np.float64)
+            except (TypeError, ValueError):
+                raise SegmentTableError(f"{source}: column {name} must be numbers") from None
+            bad = ~np.isfinite(arr)
+            if bad.any():
+                row = int(np.flatnonzero(bad)[0])
+                raise SegmentTableError(f"{source}: column {name} has NaN or infinite values (first at row {row})")
+            out[name] = arr
+    n = int(n or 0)
+    if np.any(out["radius_cm"] < 0):
+        row = int(np.flatnonzero(out["radius_cm"] < 0)[0])
+        raise SegmentTableError(f"{source}: column radius_cm has negative values (first at row {row}; allowed: >= 0)")
+    if np.any(out["length_cm"] < 0):
+        raise SegmentTableError(f"{source}: column length_cm has negative values (allowed: >= 0)")
+    if np.any(out["order"] < 0):
+        raise SegmentTableError(f"{source}: column order has negative values (allowed: 0, 1, 2, ...)")
+    if not np.array_equal(out["segment_id"], np.arange(n)):
+        raise SegmentTableError(f"{source}: column segment_id must be 0..n-1 in row order")
+    parent = out["parent_id"]
+    if np.any((parent < -1) | (parent >= np.arange(n))):
+        row = int(np.flatnonzero((parent < -1) | (parent >= np.arange(n)))[0])
+        raise SegmentTableError(
+            f"{source}: column parent_id at row {row} must be -1 or the id of an earlier segment"
+        )
+    for name in columns.keys() if hasattr(columns, "keys") else []:
+        if name not in out:
+            values = columns[name]
+            out[name] = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
+    return out
+
+
+def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *, metadata: Mapping | None = None) -> Path:
+    """Write a segment table to Parquet atomically.
+
+    Parameters
+    ----------
+    columns : mapping of str to ndarray
+        Columns in the segment-table layout (extra columns are written after them).
+    path : path-like
+        Target ``.parquet`` file.
+    metadata : mapping, optional
+        JSON-serialisable table facts stored under the ``rootsim`` metadata key.
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    names = list(COLUMNS) + [c for c in columns if c not in COLUMNS]
+    arrays = []
+    for name in names:
+        values = np.asarray(columns[name])
+        if name == "root_class":
+            arrays.append(pa.array(values.astype(str), type=pa.string()).dictionary_encode())
+        else:
+            arrays.append(pa.array(values))
+    table = pa.Table.from_arrays(arrays, names=names)
+    meta = dict(table.schema.metadata or {})
+    meta[METADATA_KEY] = json.dumps(dict(metadata or {}), sort_keys=True).encode()
+    table = table.replace_schema_metadata(meta)
+    path = Path(path)
+    with atomic_path(path) as tmp:
+        pq.write_table(table, tmp, compression="zstd")
+    return path
+
+
+def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]:
+    """Read and validate a segment table from Parquet (or from a directory holding ``segments.parquet``).
+
+    Returns
+    -------
+    columns : dict of str to ndarray
+    metadata : dict
+        Table facts from the ``rootsim`` metadata key (empty if absent).
+
+    Raises
+    ------
+    SegmentTableError
+        If the file is missing, unreadable or does not follow the layout.
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    path = Path(path)
+    if path.is_dir():
+        path = path / "segments.parquet"
+    if not path.exists():
+        raise SegmentTableError(f"{path}: no such file (expected a segments.parquet written by 'rootsim grow' or 'rootsim import-rsml')")
+    try:
+        table = pq.read_table(path)
+    except (OSError, pa.ArrowException) as exc:
+        raise SegmentTableError(f"{path}: not a readable Parquet file ({' '.join(str(exc).split())[:200]})") from None
+    raw_meta = (table.schema.metadata or {}).get(METADATA_KEY)
+    try:
+        metadata = json.loads(raw_meta) if raw_meta else {}
+    except ValueError:
+        metadata = {}
+    cols = {}
+    for name in table.column_names:
+        col = table.column(name)
+        if pa.types.is_dictionary(col.type):
+            col = col.cast(col.type.value_type)
+        cols[name] = col.to_numpy(zero_copy_only=False)
+    return validate_columns(cols, source=str(path)), metadata
