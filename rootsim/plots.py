@@ -1,0 +1,331 @@
+"""2D figures of root systems with matplotlib: RLD profiles by depth and rhizobox-style projections.
+
+Every function returns a :class:`matplotlib.figure.Figure` built on the Agg canvas (no display
+needed); :func:`save_figure` writes it atomically, the format picked by the file suffix
+(``.png``, ``.svg``, ``.pdf``).
+
+* :func:`plot_rld_profile` – root length density (RLD, cm of root per cm³ of soil) against depth,
+  depth increasing downward, for all roots and per root order, for one or several root systems
+  (variants of a trial).
+* :func:`plot_projection` – the segments projected on the vertical x–z plane, the way the glass
+  face of a rhizobox shows them: dark roots on a soil-coloured background, line width from the
+  root radius, cm axes, depth downward.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+from pathlib import Path
+from typing import Any, Mapping, Sequence
+
+import numpy as np
+
+from .atomic import atomic_path
+from .errors import RootsimError
+
+__all__ = [
+    "FIGURE_FORMATS",
+    "plot_rld_profile",
+    "plot_projection",
+    "profile_order_rld",
+    "save_figure",
+]
+
+#: File suffixes :func:`save_figure` accepts, mapped to matplotlib format names.
+FIGURE_FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
+
+# Colours of the projection: a sandy soil and dark roots (chosen to read like a rhizobox photo).
+SOIL_COLOUR = "#d8c3a0"
+ROOT_COLOUR = "#2b1a0e"
+# Thinnest drawn line, points: fine laterals stay visible although thinner than a pixel at true scale.
+MIN_LINE_WIDTH_PT = 0.25
+
+_ORDER_COLUMN = re.compile(r"^root_length_order_(\d+)_cm$")
+
+
+def _new_figure(figsize: tuple[float, float]):
+    """A Figure on the Agg canvas, independent of pyplot state (safe in servers and tests)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def save_figure(fig, path: str | os.PathLike, *, dpi: int = 150) -> Path:
+    """Write a Figure atomically; the suffix (``.png``, ``.svg``, ``.pdf``) picks the format.
+
+    Raises
+    ------
+    RootsimError
+        Unknown suffix, or the path cannot be written.
+    """
+    path = Path(path)
+    fmt = FIGURE_FORMATS.get(path.suffix.lower())
+    if fmt is None:
+        raise RootsimError(f"{path}: unknown figure format {path.suffix or '(no suffix)'!r} (allowed: {', '.join(FIGURE_FORMATS)})")
+    with atomic_path(path) as tmp:
+        try:
+            fig.savefig(tmp, format=fmt, dpi=dpi)
+        except OSError as exc:
+            raise RootsimError(f"{path}: cannot write ({exc.strerror or exc})") from None
+    return path
+
+
+# --------------------------------------------------------------------------------------------
+# RLD profile
+# --------------------------------------------------------------------------------------------
+def profile_order_rld(profile) -> dict[int, np.ndarray]:
+    """RLD of each root order from a layer profile, cm cm⁻³.
+
+    Parameters
+    ----------
+    profile : pandas.DataFrame
+        Output of :func:`rootsim.analysis.layer_profile`: columns ``depth_top_cm``,
+        ``depth_bottom_cm``, ``root_length_cm``, ``rld_cm_per_cm3`` and
+        ``root_length_order_<k>_cm``; ``attrs["ground_area_cm2"]`` the ground area used.
+
+    Returns
+    -------
+    dict of int to ndarray, shape (n_layers,)
+        ``order -> root_length_order_<k>_cm / (layer thickness x ground area)``. Without a ground
+        area in ``attrs`` the soil volume of each layer is recovered as
+        ``root_length_cm / rld_cm_per_cm3`` (layers without roots get RLD 0).
+    """
+    length = np.asarray(profile["root_length_cm"], dtype=float)
+    area = profile.attrs.get("ground_area_cm2") if hasattr(profile, "attrs") else None
+    if area:
+        volume = (np.asarray(profile["depth_bottom_cm"], float) - np.asarray(profile["depth_top_cm"], float)) * float(area)
+    else:
+        rld = np.asarray(profile["rld_cm_per_cm3"], dtype=float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            volume = np.where(rld > 0, length / np.where(rld > 0, rld, 1.0), np.inf)
+    out = {}
+    for name in profile.columns:
+        match = _ORDER_COLUMN.match(str(name))
+        if match:
+            out[int(match.group(1))] = np.asarray(profile[name], dtype=float) / volume
+    return dict(sorted(out.items()))
+
+
+def _as_profiles(data, *, layer_cm: float, area_cm2: float | None, box) -> dict[str, Any]:
+    """Normalise the ``data`` argument of :func:`plot_rld_profile` to ``{label: profile DataFrame}``."""
+    if isinstance(data, Mapping) and not hasattr(data, "columns"):
+        items = list(data.items())
+    elif isinstance(data, (list, tuple)):
+        items = [(f"variant {i + 1}", d) for i, d in enumerate(data)]
+    else:
+        items = [(None, data)]
+    if not items:
+        raise RootsimError("plot_rld_profile: nothing to plot (give a root system, a profile, or a mapping of them)")
+    out = {}
+    for label, item in items:
+        if hasattr(item, "columns") and "rld_cm_per_cm3" in getattr(item, "columns", ()):
+            profile = item
+        else:
+            from .analysis import layer_profile
+
+            profile = layer_profile(item, layer_cm=layer_cm, area_cm2=area_cm2, box=box)
+        out[label] = profile
+    return out
+
+
+def plot_rld_profile(
+    data,
+    *,
+    layer_cm: float = 5.0,
+    area_cm2: float | None = None,
+    box=None,
+    by_order: bool = True,
+    title: str | None = None,
+    figsize: tuple[float, float] | None = None,
+):
+    """Root length density against depth, depth increasing downward.
+
+    Each layer's RLD is drawn at the layer's mid-depth, points joined by lines (common practice
+    for soil-core profiles).
+
+    Parameters
+    ----------
+    data : RootSystem, pandas.DataFrame, sequence or mapping of them
+        A root system (profiled with :func:`rootsim.analysis.layer_profile`), a profile DataFrame
+        already computed, or several of either: a mapping ``{label: item}`` (labels shown in the
+        legend, e.g. variant names) or a list (labelled ``variant 1``, ``variant 2``, ...).
+    layer_cm : float
+        Layer thickness, cm, used when profiling root systems.
+    area_cm2 : float, optional
+        Ground area, cm², passed to the profiler (default: the stand's ground area).
+    box : optional
+        Sampling box passed to the profiler.
+    by_order : bool
+        Also draw the RLD of each root order. With one data set all curves share one panel;
+        with several, the figure gets one panel for all roots and one per order, one line per
+        variant in each (same colour per variant throughout).
+    title : str, optional
+        Figure title.
+    figsize : (float, float), optional
+        Inches; default grows with the number of panels.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Lines carry the data: x = RLD, cm cm⁻³, y = mid-depth, cm; their labels are
+        ``"all roots"`` / ``"order <k>"`` (one data set) or the variant labels (several).
+    """
+    profiles = _as_profiles(data, layer_cm=layer_cm, area_cm2=area_cm2, box=box)
+    single = len(profiles) == 1
+    orders = sorted({k for p in profiles.values() for k in profile_order_rld(p)}) if by_order else []
+    panels = ["all roots"] if single else ["all roots"] + [f"order {k}" for k in orders]
+    if figsize is None:
+        figsize = (4.2 + 2.6 * (len(panels) - 1), 5.0)
+    fig = _new_figure(figsize)
+    axes = fig.subplots(1, len(panels), sharey=True, squeeze=False)[0]
+    colours = _qualitative_colours(max(len(profiles), len(orders) + 1))
+    for v, (label, profile) in enumerate(profiles.items()):
+        mid = 0.5 * (np.asarray(profile["depth_top_cm"], float) + np.asarray(profile["depth_bottom_cm"], float))
+        total = np.asarray(profile["rld_cm_per_cm3"], dtype=float)
+        per_order = profile_order_rld(profile) if by_order else {}
+        if single:
+            ax = axes[0]
+            ax.plot(total, mid, color="black", linewidth=2.0, marker="o", markersize=3.5, label="all roots")
+            for i, k in enumerate(orders):
+                ax.plot(per_order.get(k, np.zeros_like(total)), mid, color=colours[i + 1], linewidth=1.3,
+                        marker="o", markersize=2.5, linestyle="--", label=f"order {k}")
+        else:
+            axes[0].plot(total, mid, color=colours[v], linewidth=1.8, marker="o", markersize=3, label=label)
+            for i, k in enumerate(orders):
+                axes[i + 1].plot(per_order.get(k, np.zeros_like(total)), mid, color=colours[v], linewidth=1.5,
+                                 marker="o", markersize=2.5, label=label)
+    for ax, name in zip(axes, panels):
+        ax.set_xlabel("RLD (cm cm⁻³)")
+        ax.xaxis.set_label_position("top")
+        ax.xaxis.tick_top()
+        ax.set_xlim(left=0)
+        ax.grid(True, color="0.88", linewidth=0.6)
+        if not single:
+            ax.set_title(name, fontsize="medium")
+    axes[0].set_ylabel("depth (cm)")
+    axes[0].set_ylim(bottom=_profile_bottom(profiles), top=0)  # depth increases downward
+    if any(ax.lines for ax in axes):
+        axes[0].legend(fontsize="small", loc="lower right", frameon=False)
+    if title:
+        fig.suptitle(title)
+    return fig
+
+
+def _profile_bottom(profiles: Mapping[str, Any]) -> float:
+    bottoms = [float(np.max(p["depth_bottom_cm"])) for p in profiles.values() if len(p)]
+    return max(bottoms) if bottoms else 1.0
+
+
+def _qualitative_colours(n: int) -> list:
+    """``n`` distinguishable colours (matplotlib's tab10, then tab20)."""
+    import matplotlib
+
+    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
+    return [cmap(i % cmap.N) for i in range(n)]
+
+
+# --------------------------------------------------------------------------------------------
+# Rhizobox-style projection
+# --------------------------------------------------------------------------------------------
+def _projection_extent(system, margin_fraction: float = 0.04) -> tuple[float, float, float]:
+    """(x_min, x_max, depth_max) of the view, cm: the container if known, else the data plus a margin."""
+    container = (system.metadata or {}).get("container", {}) if hasattr(system, "metadata") else {}
+    kind = container.get("kind")
+    half = None
+    if kind == "rhizobox" and container.get("width_cm"):
+        half = 0.5 * float(container["width_cm"])
+    elif kind == "pot" and container.get("diameter_cm"):
+        half = 0.5 * float(container["diameter_cm"])
+    depth = float(container["depth_cm"]) if kind in ("rhizobox", "pot") and container.get("depth_cm") else None
+    x = np.concatenate([np.asarray(system["x0"], float), np.asarray(system["x1"], float)])
+    z = np.concatenate([np.asarray(system["z0"], float), np.asarray(system["z1"], float)])
+    if half is None:
+        if x.size:
+            lo, hi = float(x.min()), float(x.max())
+            pad = max(margin_fraction * (hi - lo), 1.0)
+            x_min, x_max = lo - pad, hi + pad
+        else:
+            x_min, x_max = -10.0, 10.0
+    else:
+        x_min, x_max = -half, half
+    if depth is None:
+        depth = float(-z.min()) * (1 + margin_fraction) + 1.0 if z.size else 20.0
+    return x_min, x_max, max(depth, 1e-6)
+
+
+def plot_projection(
+    system,
+    *,
+    width_scale: float = 1.0,
+    title: str | None = None,
+    figsize: tuple[float, float] | None = None,
+    soil_colour: str = SOIL_COLOUR,
+    root_colour: str = ROOT_COLOUR,
+):
+    """The root system projected on the x–z plane, as the glass face of a rhizobox shows it.
+
+    Every segment is drawn as a straight line from (x0, depth0) to (x1, depth1), depth = -z,
+    in one :class:`matplotlib.collections.LineCollection`. Line width is the segment diameter at
+    the figure's true scale (times ``width_scale``), at least ``MIN_LINE_WIDTH_PT`` points; thick
+    segments are drawn last so they stay on top. The view covers the container (rhizobox width
+    or pot diameter and depth) when the metadata give one, else the roots plus a margin.
+
+    Parameters
+    ----------
+    system : RootSystem or pandas.DataFrame
+        Segment-table columns ``x0 z0 x1 z1 radius_cm``; ``metadata["container"]`` optional.
+    width_scale : float
+        Factor on the true-scale line width (> 0); e.g. 3 to make fine roots easier to see.
+    title : str, optional
+        Axes title.
+    figsize : (float, float), optional
+        Inches; default keeps the aspect ratio of the view, 6 inches on the longer side.
+    soil_colour, root_colour : str
+        Matplotlib colours of the background and of the roots.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        One Axes, x = horizontal position (cm), y = depth (cm, increasing downward), equal
+        aspect; ``ax.collections[0]`` is the LineCollection of the segments.
+    """
+    from matplotlib.collections import LineCollection
+
+    if not width_scale > 0:
+        raise RootsimError(f"plot_projection: width_scale must be > 0 (got {width_scale})")
+    x_min, x_max, depth_max = _projection_extent(system)
+    if figsize is None:
+        span_x, span_z = x_max - x_min, depth_max
+        scale = 6.0 / max(span_x, span_z)
+        figsize = (max(span_x * scale, 2.5) + 1.0, max(span_z * scale, 2.5) + 0.6)
+    fig = _new_figure(figsize)
+    ax = fig.add_subplot(1, 1, 1)
+    ax.set_facecolor(soil_colour)
+    ax.set_xlim(x_min, x_max)
+    ax.set_ylim(depth_max, 0.0)  # depth downward
+    ax.set_aspect("equal", adjustable="box")
+    ax.set_xlabel("x (cm)")
+    ax.set_ylabel("depth (cm)")
+    if title:
+        ax.set_title(title)
+
+    radius = np.asarray(system["radius_cm"], dtype=float)
+    draw = np.argsort(radius, kind="stable")  # thin first, thick on top
+    segs = np.empty((radius.size, 2, 2))
+    segs[:, 0, 0] = np.asarray(system["x0"], float)[draw]
+    segs[:, 0, 1] = -np.asarray(system["z0"], float)[draw]
+    segs[:, 1, 0] = np.asarray(system["x1"], float)[draw]
+    segs[:, 1, 1] = -np.asarray(system["z1"], float)[draw]
+    collection = LineCollection(segs, colors=root_colour, capstyle="round", joinstyle="round")
+    ax.add_collection(collection)
+    # true-scale width: points per cm from the final axes size (after layout and equal aspect)
+    fig.canvas.draw()
+    bbox = ax.get_window_extent()
+    points_per_cm = bbox.width / fig.dpi * 72.0 / (x_max - x_min)
+    widths = np.maximum(2.0 * radius[draw] * points_per_cm * width_scale, MIN_LINE_WIDTH_PT)
+    collection.set_linewidths(widths)
+    return fig
