@@ -1,0 +1,18 @@
+"""Analyzers: measure a root system as a root scientist would.
+
+* :func:`layer_profile` – root length and root length density (RLD) by depth layer,
+  segments clipped exactly at layer boundaries (:mod:`.profile`).
+* :func:`root_traits` – total length, length by order, tips, rooting depth, D50/D95,
+  width, convex-hull volume, interbranch distance, insertion angle, Gale & Grigal β,
+  Fitter's topological indices (:mod:`.traits`, :mod:`.topology`, :mod:`.profile_model`).
+* :func:`rld_voxel_grid` – RLD on a regular 3D grid, clipped exactly per voxel (:mod:`.voxels`).
+
+All accept a :class:`rootsim.RootSystem`, a DataFrame in the segment-table layout or a
+mapping of columns.
+"""
+
+from __future__ import annotations
+
+from .voxels import rld_voxel_grid
+
+__all__ = ["rld_voxel_grid"]
