@@ -13,6 +13,7 @@ mapping of columns.
 
 from __future__ import annotations
 
+from .profile import layer_profile
 from .voxels import rld_voxel_grid
 
-__all__ = ["rld_voxel_grid"]
+__all__ = ["layer_profile", "rld_voxel_grid"]
