@@ -88,9 +88,12 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
         elif len(values) != n:
             raise SegmentTableError(f"{source}: column {name} has {len(values)} rows, expected {n}")
         if name == "root_class":
-            if len(values) and any(v is None or (isinstance(v, float) and np.isnan(v)) for v in values[:1]):
+            import pandas as pd
+
+            arr = np.asarray(values, dtype=object)
+            if len(arr) and pd.isna(arr).any():
                 raise SegmentTableError(f"{source}: column root_class has missing values")
-            out[name] = np.asarray(values, dtype=object).astype(str)
+            out[name] = arr
             continue
         if name in INT_COLUMNS:
             try:

@@ -1,0 +1,499 @@
+"""The growth engine: a time step at a time over all active tips at once.
+
+State is kept as struct-of-arrays: tip state in one float matrix (fields x n tips) and one int
+matrix, root records in growable arrays, and the segments produced by each step as column chunks
+that are concatenated once at the end. Tips stay sorted by plant so that every plant draws its
+random numbers from its own generator (child of the run seed via :class:`numpy.random.SeedSequence`):
+a plant's root system depends on the run seed, its index and the spec alone, never on the other
+plants or on how the work is split.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import SegmentBudgetError
+from ..rootsystem import RootSystem
+from ..spec import Spec
+from .classes import PARAM_NAMES, ClassTable
+from .soil import ContainerWalls, SoilField
+from .tropisms import (
+    combined_sine_law,
+    heading_from_angles,
+    lateral_heading,
+    random_deviation_step,
+    toward_direction_step,
+    vertical_sine_law_step,
+    )
+
+__all__ = ["grow", "plant_positions"]
+
+# Float tip fields (rows of the float state matrix).
+_POS = slice(0, 3)
+_HEAD = slice(3, 6)
+_HEAD0 = slice(6, 9)
+(_LEN, _MAXLEN, _RATE, _TROP, _COSPHI, _SINPHI, _EXO, _SIGMA, _APICAL, _NEXT, _CARRY, _RADIUS, _BIRTH,
+ _DEATH) = range(9, 23)
+_NF = 23
+# Int tip fields.
+_ROOT, _PLANT, _CLASS, _ORDER, _LAST, _COUNT = range(6)
+_NI = 6
+
+_SEGMENT_FIELDS = ("parent_id", "plant_id", "root_id", "order", "class_code",
+                   "x0", "y0", "z0", "x1", "y1", "z1", "radius_cm", "length_cm", "birth_day")
+_SEGMENT_DTYPES = (np.int64, np.int32, np.int32, np.int8, np.int16) + (np.float64,) * 6 + (np.float32, np.float64, np.float32)
+_FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
+_MIN_STEP_CM = 1e-9
+
+
+def plant_positions(spec: Spec) -> np.ndarray:
+    """Seed positions, shape (n_plants, 3), cm: rows along y spaced in x, centred on the origin."""
+    st = spec.stand
+    i, j = np.meshgrid(np.arange(st.rows), np.arange(st.plants_per_row), indexing="ij")
+    x = (i.ravel() - (st.rows - 1) / 2) * st.row_spacing_cm
+    y = (j.ravel() - (st.plants_per_row - 1) / 2) * st.plant_spacing_cm
+    z = np.full(x.shape, -st.sowing_depth_cm)
+    return np.stack([x, y, z], axis=1).astype(np.float64)
+
+
+class _Streams:
+    """One random generator per plant; draws for items sorted by plant."""
+
+    def __init__(self, seed: int, n_plants: int):
+        self.rngs = [np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(n_plants)]
+        self.n_plants = n_plants
+
+    def uniform(self, plant_sorted: np.ndarray, columns: int) -> np.ndarray:
+        counts = np.bincount(plant_sorted, minlength=self.n_plants)
+        blocks = [self.rngs[p].random((c, columns)) for p, c in enumerate(counts) if c]
+        return np.concatenate(blocks) if blocks else np.zeros((0, columns))
+
+    def normal3(self, plant_sorted: np.ndarray) -> np.ndarray:
+        counts = np.bincount(plant_sorted, minlength=self.n_plants)
+        nz = np.flatnonzero(counts)
+        if len(nz) == 1:
+            return self.rngs[nz[0]].standard_normal((3, counts[nz[0]]))
+        blocks = [self.rngs[p].standard_normal((3, counts[p])) for p in nz]
+        return np.concatenate(blocks, axis=1) if blocks else np.zeros((3, 0))
+
+
+class _Growable:
+    """Append-only numpy columns with capacity doubling (for root records)."""
+
+    def __init__(self, **dtypes):
+        self.n = 0
+        self.cap = 64
+        self.data = {k: np.zeros(self.cap, dtype=v) for k, v in dtypes.items()}
+
+    def append(self, **values) -> np.ndarray:
+        m = len(next(iter(values.values())))
+        if self.n + m > self.cap:
+            while self.n + m > self.cap:
+                self.cap *= 2
+            for k, arr in self.data.items():
+                new = np.zeros(self.cap, dtype=arr.dtype)
+                new[: self.n] = arr[: self.n]
+                self.data[k] = new
+        for k, v in values.items():
+            self.data[k][self.n : self.n + m] = v
+        ids = np.arange(self.n, self.n + m)
+        self.n += m
+        return ids
+
+    def __getitem__(self, key):
+        return self.data[key][: self.n]
+
+    def view(self, key):
+        return self.data[key]
+
+
+class _Engine:
+    def __init__(self, spec: Spec, progress=None):
+        self.spec = spec
+        self.classes = ClassTable(spec)
+        self.soil = SoilField(spec.soil)
+        self.walls = ContainerWalls(spec.container)
+        self.positions = plant_positions(spec)
+        self.n_plants = len(self.positions)
+        self.streams = _Streams(spec.run.seed, self.n_plants)
+        self.progress = progress
+        self.f = np.zeros((_NF, 0))
+        self.i = np.zeros((_NI, 0), dtype=np.int64)
+        self.roots = _Growable(plant=np.int32, cls=np.int16, order=np.int8, parent=np.int64,
+                               birth=np.float64, death=np.float64, length=np.float64, length_prev=np.float64,
+                               last_dt=np.float64, growing=bool, dead=bool)
+        self.pending = None  # dict of arrays: branch points waiting for the apical zone to pass
+        self.incoming = []  # new tips (float, int) to add at the start of the next step
+        self.chunks = {k: [] for k in _SEGMENT_FIELDS}
+        self.n_segments = 0
+        self.schedule = self._emergence_schedule()
+        self.has_exotropism = any(not _is_zero(c.exotropism_per_cm) for c in self.classes.classes)
+
+    # -- emergence -------------------------------------------------------------------------------
+    def _emergence_schedule(self):
+        """(time, emergence index, event number, depth) of every emergence event, sorted by time."""
+        events = []
+        for e_idx, em in enumerate(self.spec.emergence):
+            base = self.spec.stand.sowing_depth_cm if em.depth_cm is None else em.depth_cm
+            for k in range(em.event_count):
+                t = em.first_day + k * em.interval_days
+                if t < self.spec.run.duration_days:
+                    events.append((t, e_idx, k, max(0.0, base + k * em.depth_step_cm)))
+        events.sort(key=lambda ev: (ev[0], ev[1], ev[2]))
+        return events
+
+    def _emerge(self, t0: float, t1: float, step: int):
+        due = [ev for ev in self.schedule if t0 <= ev[0] < t1 or (step == 0 and ev[0] < t1)]
+        if not due:
+            return
+        self.schedule = [ev for ev in self.schedule if ev not in due]
+        plants, cls, depth, times, slot, count = [], [], [], [], [], []
+        for t, e_idx, _k, d in due:
+            em = self.spec.emergence[e_idx]
+            m = em.roots_per_event
+            for p in range(self.n_plants):
+                plants.append(np.full(m, p))
+                cls.append(np.full(m, self.classes.index[em.root_class]))
+                depth.append(np.full(m, d))
+                times.append(np.full(m, t))
+                slot.append(np.arange(m))
+                count.append(np.full(m, m))
+        plant = np.concatenate(plants)
+        order = np.argsort(plant, kind="stable")
+        plant, cls_code = plant[order], np.concatenate(cls)[order]
+        depth, times = np.concatenate(depth)[order], np.concatenate(times)[order]
+        slot, count = np.concatenate(slot)[order], np.concatenate(count)[order]
+        jitter = np.radians(np.array([self.spec.emergence[e].azimuth_jitter_deg for _, e, _, _ in due]))
+        # Azimuth: whorl offset (one per event and plant) + even spread + jitter. Per-root uniforms
+        # come from the plant's stream, as do the class parameters.
+        u = self.streams.uniform(plant, 2 + len(PARAM_NAMES))
+        event_of = np.concatenate([np.full(self.spec.emergence[e].roots_per_event * self.n_plants, j)
+                                   for j, (_, e, _, _) in enumerate(due)])[order]
+        first = np.r_[True, (event_of[1:] != event_of[:-1]) | (plant[1:] != plant[:-1])]
+        offset = np.maximum.accumulate(np.where(first, np.arange(len(plant)), 0))
+        whorl_turn = 2 * np.pi * u[offset, 0]
+        azimuth = whorl_turn + 2 * np.pi * slot / count + jitter[event_of] * (2 * u[:, 1] - 1)
+        pos = self.positions[plant].T.copy()
+        pos[2] = -depth
+        pos = self.walls.clamp(pos)
+        params = self.classes.draw(cls_code, u[:, 2:])
+        heading = heading_from_angles(np.radians(params["initial_angle_from_vertical_deg"]), azimuth)
+        self._add_roots(plant, cls_code, np.zeros(len(plant), dtype=np.int64), pos, heading, params,
+                        parent_segment=np.full(len(plant), -1), parent_root=np.full(len(plant), -1),
+                        birth=times, carry=-(times - t0))
+
+    def _add_roots(self, plant, cls_code, order, pos, heading, params, *, parent_segment, parent_root, birth, carry):
+        n = len(plant)
+        death = birth + params["lifespan_days"]
+        ids = self.roots.append(plant=plant, cls=cls_code, order=order, parent=parent_root, birth=birth,
+                                death=death, length=np.zeros(n), length_prev=np.zeros(n), last_dt=np.zeros(n),
+                                growing=np.ones(n, bool), dead=np.zeros(n, bool))
+        f = np.zeros((_NF, n))
+        f[_POS] = pos
+        f[_HEAD] = heading
+        f[_HEAD0] = heading
+        f[_MAXLEN] = params["max_length_cm"]
+        f[_RATE] = params["elongation_rate_cm_per_day"]
+        strength, cphi, sphi = combined_sine_law(params["gravitropism_per_cm"], params["plagiotropism_per_cm"],
+                                                 np.radians(params["preferred_angle_from_vertical_deg"]))
+        f[_TROP], f[_COSPHI], f[_SINPHI] = strength, cphi, sphi
+        f[_EXO] = params["exotropism_per_cm"]
+        f[_SIGMA] = np.radians(params["random_turning_deg_per_sqrt_cm"])
+        f[_APICAL] = params["apical_zone_cm"]
+        f[_NEXT] = params["basal_zone_cm"]
+        f[_CARRY] = carry
+        f[_RADIUS] = params["radius_cm"]
+        f[_BIRTH] = birth
+        f[_DEATH] = death
+        i = np.zeros((_NI, n), dtype=np.int64)
+        i[_ROOT] = ids
+        i[_PLANT] = plant
+        i[_CLASS] = cls_code
+        i[_ORDER] = order
+        i[_LAST] = parent_segment
+        self.incoming.append((f, i))
+
+    def _merge_incoming(self, keep: np.ndarray | None):
+        f, i = self.f, self.i
+        if keep is not None and not keep.all():
+            f, i = f[:, keep], i[:, keep]
+        if self.incoming:
+            f = np.concatenate([f] + [a for a, _ in self.incoming], axis=1)
+            i = np.concatenate([i] + [b for _, b in self.incoming], axis=1)
+            self.incoming = []
+            order = np.argsort(i[_PLANT], kind="stable")
+            if not np.array_equal(order, np.arange(len(order))):
+                f, i = f[:, order], i[:, order]
+        self.f, self.i = f, i
+
+    # -- one step ----------------------------------------------------------------------------------
+    def step(self, t0: float, t1: float, step: int):
+        self._emerge(t0, t1, step)
+        self._merge_incoming(None)
+        f, i = self.f, self.i
+        n = f.shape[1]
+        if n == 0:
+            return
+        dt = (t1 - t0) + f[_CARRY]
+        f[_CARRY] = 0.0
+        start = f[_POS]
+        length = f[_LEN]
+        max_len = f[_MAXLEN]
+        rate = f[_RATE] * self.soil.elongation_factor(-start[2])
+        law_ne = self.classes.law_negexp[i[_CLASS]]
+        grown = np.where(law_ne, max_len - (max_len - length) * np.exp(-rate * dt / max_len),
+                         np.minimum(length + rate * dt, max_len))
+        ds = np.maximum(grown - length, 0.0)
+        h_old = f[_HEAD]
+        h = h_old
+        if np.any(f[_TROP] > 0):
+            h = vertical_sine_law_step(h, ds, f[_TROP], f[_COSPHI], f[_SINPHI])
+        if self.has_exotropism:
+            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], ds, f[_EXO]), h)
+        normals = self.streams.normal3(i[_PLANT])
+        h = random_deviation_step(h, normals, ds, f[_SIGMA])
+        d = h_old + h
+        dn = np.sqrt(np.einsum("ij,ij->j", d, d))
+        d = np.where(dn > 1e-9, d / np.where(dn > 1e-9, dn, 1.0), h)
+        d2 = self.soil.deflect(start, d, ds)
+        end, d3, touched = self.walls.constrain(start, d2, ds, normals)
+        if d2 is not d or touched.any():
+            h = np.where(touched | np.any(d2 != d, axis=0), d3, h)
+        seg = end - start
+        seg_len = np.sqrt(np.einsum("ij,ij->j", seg, seg))
+        made = (ds > _MIN_STEP_CM) & (seg_len > 0)
+        new_length = length + np.where(made, seg_len, 0.0)
+
+        m = int(made.sum())
+        if self.n_segments + m > self.spec.run.max_segments:
+            raise SegmentBudgetError(self.spec.run.max_segments, self.n_segments, t0)
+        idx = np.flatnonzero(made) if m < n else slice(None)
+        seg_ids = np.arange(self.n_segments, self.n_segments + m, dtype=np.int64)
+        birth = t1 - 0.5 * dt
+        values = (i[_LAST, idx], i[_PLANT, idx], i[_ROOT, idx], i[_ORDER, idx], i[_CLASS, idx],
+                  start[0, idx], start[1, idx], start[2, idx], end[0, idx], end[1, idx], end[2, idx],
+                  f[_RADIUS, idx], seg_len[idx], birth[idx])
+        views = isinstance(idx, slice)  # slices of the state would change with it: copy them
+        for name, dtype, v in zip(_SEGMENT_FIELDS, _SEGMENT_DTYPES, values):
+            self.chunks[name].append(v.astype(dtype, copy=views))
+        self.n_segments += m
+
+        if self.classes.any_branching:
+            self._branch_points(f, i, made, length, new_length, start, end, seg_len, seg_ids, idx)
+
+        # Commit tip state.
+        i[_LAST, idx] = seg_ids
+        f[_POS] = np.where(made, end, start)
+        f[_HEAD] = np.where(made, h, h_old)
+        f[_LEN] = new_length
+        roots = i[_ROOT]
+        rl = self.roots.view("length")
+        self.roots.view("length_prev")[roots] = rl[roots]
+        rl[roots] = new_length
+        self.roots.view("last_dt")[roots] = dt
+        finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) | (f[_RATE] <= 0)
+        if self.classes.has_lifespan:
+            finished |= self._dead_tips(t1)
+        self.roots.view("growing")[roots[finished]] = False
+        self._activate_pending(t1)
+        self.f, self.i = f, i
+        if finished.any():
+            self._merge_incoming(~finished)
+
+    def _branch_points(self, f, i, made, length, new_length, start, end, seg_len, seg_ids, idx):
+        seg_of_tip = np.full(f.shape[1], -1, dtype=np.int64)
+        seg_of_tip[idx] = seg_ids
+        nxt = f[_NEXT]
+        can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
+        found = []
+        while can.any():
+            k = np.flatnonzero(can)
+            u = self.streams.uniform(i[_PLANT, k], 3)
+            frac = np.clip((nxt[k] - length[k]) / seg_len[k], 0.0, 1.0)
+            pos = start[:, k] + frac * (end[:, k] - start[:, k])
+            direction = (end[:, k] - start[:, k]) / seg_len[k]
+            cls = i[_CLASS, k]
+            pick = (u[:, 0:1] >= self.classes.successor_cum[cls]).sum(axis=1)
+            child = self.classes.successor_class[cls, np.minimum(pick, self.classes.successor_class.shape[1] - 1)]
+            child = np.where(pick < self.classes.successor_class.shape[1], child, -1)
+            keep = child >= 0
+            if keep.any():
+                kk = k[keep]
+                found.append(dict(pos=pos[:, keep], direction=direction[:, keep], parent_segment=seg_of_tip[kk],
+                                  parent_root=i[_ROOT, kk], plant=i[_PLANT, kk], cls=child[keep],
+                                  order=i[_ORDER, kk] + 1, threshold=nxt[kk] + f[_APICAL, kk],
+                                  spiral=i[_COUNT, kk], parent_cls=cls[keep], azimuth_u=u[keep, 2]))
+            i[_COUNT, k] += 1
+            nxt[k] += self.classes.draw_one("interbranch_distance_cm", cls, u[:, 1])
+            can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
+        if found:
+            new = {key: np.concatenate([b[key] for b in found], axis=-1) for key in found[0]}
+            if self.pending is None:
+                self.pending = new
+            else:
+                self.pending = {key: np.concatenate([self.pending[key], new[key]], axis=-1) for key in new}
+
+    def _dead_tips(self, t: float) -> np.ndarray:
+        roots = self.roots
+        dead = roots.view("dead")
+        dead[: roots.n] |= roots["death"] <= t
+        parent = roots["parent"]
+        has_parent = parent >= 0
+        for _ in range(int(roots["order"].max(initial=0)) + 1):
+            inherited = np.zeros(roots.n, bool)
+            inherited[has_parent] = dead[parent[has_parent]]
+            if not (inherited & ~dead[: roots.n]).any():
+                break
+            dead[: roots.n] |= inherited
+        return dead[self.i[_ROOT]]
+
+    def _activate_pending(self, t1: float):
+        p = self.pending
+        if p is None or p["plant"].size == 0:
+            return
+        rl = self.roots.view("length")[p["parent_root"]]
+        ready = rl >= p["threshold"]
+        if self.classes.has_lifespan:
+            ready &= ~self.roots.view("dead")[p["parent_root"]]
+        growing = self.roots.view("growing")[p["parent_root"]]
+        drop = ~ready & ~growing
+        if ready.any():
+            r = {k: v[..., ready] for k, v in p.items()}
+            order = np.argsort(r["plant"], kind="stable")
+            r = {k: v[..., order] for k, v in r.items()}
+            prev = self.roots.view("length_prev")[r["parent_root"]]
+            new = self.roots.view("length")[r["parent_root"]]
+            last_dt = self.roots.view("last_dt")[r["parent_root"]]
+            grew = new - prev
+            frac_after = np.clip((new - r["threshold"]) / np.where(grew > 0, grew, 1.0), 0.0, 1.0)
+            frac_after = np.where(grew > 0, frac_after, 0.0)
+            carry = frac_after * last_dt
+            u = self.streams.uniform(r["plant"], len(PARAM_NAMES))
+            params = self.classes.draw(r["cls"], u)
+            spiral = self.classes.spiral[r["parent_cls"]]
+            azimuth = np.where(spiral, r["spiral"] * self.classes.spiral_divergence_rad[r["parent_cls"]],
+                               2 * np.pi * r["azimuth_u"])
+            heading = lateral_heading(r["direction"], np.radians(params["insertion_angle_deg"]), azimuth)
+            self._add_roots(r["plant"], r["cls"], r["order"], r["pos"], heading, params,
+                            parent_segment=r["parent_segment"], parent_root=r["parent_root"],
+                            birth=t1 - carry, carry=carry)
+        if ready.any() or drop.any():
+            keep = ~(ready | drop)
+            self.pending = {k: v[..., keep] for k, v in p.items()}
+
+    # -- result ------------------------------------------------------------------------------------
+    def result(self, duration: float) -> RootSystem:
+        cols = {}
+        for name in _SEGMENT_FIELDS:
+            parts = self.chunks.pop(name)
+            cols[name] = np.concatenate(parts) if parts else np.zeros(0, dtype=_SEGMENT_DTYPES[_SEGMENT_FIELDS.index(name)])
+            del parts
+        if self.classes.has_lifespan and self.roots.n:
+            self.i = np.zeros((_NI, 0), dtype=np.int64)
+            dead_roots = self._dead_roots(duration)
+            alive = ~dead_roots[cols["root_id"]]
+            if not alive.all():
+                new_id = np.cumsum(alive) - 1
+                for name in cols:
+                    cols[name] = cols[name][alive]
+                parent = cols["parent_id"]
+                cols["parent_id"] = np.where(parent >= 0, new_id[np.maximum(parent, 0)], -1)
+        n = len(cols["parent_id"])
+        names = np.asarray(self.classes.names, dtype=object)
+        columns = {
+            "segment_id": np.arange(n, dtype=np.int64),
+            "parent_id": cols["parent_id"].astype(np.int64, copy=False),
+            "plant_id": cols["plant_id"].astype(np.int64),
+            "root_id": cols["root_id"].astype(np.int64),
+            "order": cols["order"].astype(np.int64),
+            "root_class": names[cols["class_code"]] if n else np.zeros(0, dtype=object),
+        }
+        for name in ("x0", "y0", "z0", "x1", "y1", "z1"):
+            columns[name] = cols.pop(name)
+        columns["radius_cm"] = cols.pop("radius_cm").astype(np.float64)
+        columns["length_cm"] = cols.pop("length_cm")
+        columns["birth_day"] = cols.pop("birth_day").astype(np.float64)
+        return RootSystem(columns, self.metadata(), validate=False)
+
+    def _dead_roots(self, t: float) -> np.ndarray:
+        roots = self.roots
+        dead = roots["death"] <= t + 1e-12
+        parent = roots["parent"]
+        has_parent = parent >= 0
+        for _ in range(int(roots["order"].max(initial=0)) + 1):
+            inherited = np.zeros(roots.n, bool)
+            inherited[has_parent] = dead[parent[has_parent]]
+            dead |= inherited
+        return dead
+
+    def metadata(self) -> dict:
+        spec = self.spec
+        st = spec.stand
+        c = spec.container
+        if c.kind == "pot":
+            area = math.pi * (c.diameter_cm / 2) ** 2
+        elif c.kind == "rhizobox":
+            area = c.width_cm * c.thickness_cm
+        else:
+            area = st.ground_area_cm2
+        return {
+            "spec_name": spec.name,
+            "spec_file": spec.source,
+            "run": {"duration_days": spec.run.duration_days, "time_step_days": spec.run.time_step_days,
+                    "seed": spec.run.seed},
+            "stand": {"n_plants": st.n_plants, "rows": st.rows, "plants_per_row": st.plants_per_row,
+                      "row_spacing_cm": st.row_spacing_cm, "plant_spacing_cm": st.plant_spacing_cm,
+                      "sowing_depth_cm": st.sowing_depth_cm, "ground_area_cm2": area,
+                      "plant_positions_cm": self.positions.tolist()},
+            "container": c.model_dump(exclude_none=True),
+            "soil_layers": [layer.model_dump() for layer in spec.soil.layers],
+            "root_classes": list(self.classes.names),
+        }
+
+
+def _is_zero(dist) -> bool:
+    from ..distributions import Fixed
+
+    return isinstance(dist, Fixed) and dist.value == 0
+
+
+def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step_days: float | None = None,
+         max_segments: int | None = None, progress: bool | None = None) -> RootSystem:
+    """Grow the root systems of a spec's stand.
+
+    Parameters
+    ----------
+    spec : Spec
+        A validated parameter file (:func:`rootsim.load_spec`).
+    seed, days, step_days, max_segments : optional
+        Override ``run.seed``, ``run.duration_days``, ``run.time_step_days``, ``run.max_segments``.
+    progress : bool, optional
+        Show a progress bar on stderr (default: when stderr is a terminal).
+
+    Returns
+    -------
+    RootSystem
+
+    Raises
+    ------
+    SegmentBudgetError
+        If the run would exceed its segment budget.
+    SpecError
+        If an override is invalid.
+    """
+    from ..progress import progress_bar
+
+    spec = spec.with_overrides(seed=seed, duration_days=days, time_step_days=step_days, max_segments=max_segments)
+    engine = _Engine(spec)
+    duration = spec.run.duration_days
+    dt = spec.run.time_step_days
+    n_steps = max(1, math.ceil(duration / dt - 1e-9))
+    with progress_bar(total=duration, desc="growing", enabled=progress) as bar:
+        for k in range(n_steps):
+            t0 = k * dt
+            t1 = min((k + 1) * dt, duration)
+            engine.step(t0, t1, k)
+            bar.update(t1 - t0)
+    return engine.result(duration)

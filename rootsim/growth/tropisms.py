@@ -1,0 +1,153 @@
+"""Heading updates over one step of arc length: tropisms and random deviation.
+
+Headings are unit vectors stored as arrays of shape (3, n) (x, y, z; z up). All maps are
+exact for their own law over the step, so results converge as the step shrinks.
+
+Gravitropism follows Sachs' sine law: the angle θ from the downward vertical obeys
+dθ/ds = -k_g sin θ, whose solution is tan(θ/2) = tan(θ0/2) exp(-k_g s) (e.g. Bastien et al.
+2013, "Unifying model of shoot gravitropism reveals proprioception as a central feature of
+posture control in plants", PNAS 110:755-760, doi:10.1073/pnas.1214301109, for the sine law).
+Plagiotropism bends toward a preferred angle θ_p by the same law: dθ/ds = -k_p sin(θ - θ_p).
+The two add to a single sine law, -A sin(θ - φ), with A cos φ = k_g + k_p cos θ_p and
+A sin φ = k_p sin θ_p, which is solved exactly per step.
+Exotropism pulls the heading back toward the root's initial heading by the same sine law in the
+plane of the two vectors. Random deviation is a step of spherical Brownian motion: a tangent
+Gaussian with per-axis standard deviation σ √Δs applied through the exponential map, so the
+heading variance grows with arc length, not with the number of steps.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step", "random_deviation_step",
+           "heading_from_angles"]
+
+
+def combined_sine_law(gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad):
+    """Strength A (1/cm) and equilibrium angle φ (rad) of the combined vertical-plane sine law.
+
+    Parameters
+    ----------
+    gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad : array_like, shape (n,)
+
+    Returns
+    -------
+    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
+    """
+    a = np.asarray(gravitropism_per_cm, dtype=np.float64)
+    b = np.asarray(plagiotropism_per_cm, dtype=np.float64)
+    c = a + b * np.cos(preferred_angle_rad)
+    s = b * np.sin(preferred_angle_rad)
+    strength = np.hypot(c, s)
+    safe = np.where(strength > 0, strength, 1.0)
+    cos_phi = np.where(strength > 0, c / safe, 1.0)
+    sin_phi = np.where(strength > 0, s / safe, 0.0)
+    return strength, cos_phi, sin_phi
+
+
+def vertical_sine_law_step(heading, step_cm, strength_per_cm, cos_phi, sin_phi):
+    """Exact step of dθ/ds = -A sin(θ - φ) for the angle θ from the downward vertical; azimuth kept.
+
+    Parameters
+    ----------
+    heading : ndarray, shape (3, n)
+        Unit headings (modified copy returned).
+    step_cm : ndarray, shape (n,)
+        Arc length of the step.
+    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
+        From :func:`combined_sine_law`.
+
+    Returns
+    -------
+    ndarray, shape (3, n)
+    """
+    hx, hy, hz = heading
+    cos_t = np.clip(-hz, -1.0, 1.0)
+    horiz = np.hypot(hx, hy)
+    sin_t = horiz
+    # ψ = θ - φ, solved in the half-angle form tan(ψ/2) -> tan(ψ/2) exp(-A s) without inverse trig.
+    cos_p = cos_t * cos_phi + sin_t * sin_phi
+    sin_p = sin_t * cos_phi - cos_t * sin_phi
+    half = sin_p / np.maximum(1.0 + cos_p, 1e-300)
+    half = half * np.exp(-strength_per_cm * step_cm)
+    h2 = half * half
+    cos_p = (1.0 - h2) / (1.0 + h2)
+    sin_p = 2.0 * half / (1.0 + h2)
+    cos_new = cos_p * cos_phi - sin_p * sin_phi
+    sin_new = sin_p * cos_phi + cos_p * sin_phi
+    sin_new = np.maximum(sin_new, 0.0)
+    has_azimuth = horiz > 1e-12
+    scale = np.where(has_azimuth, sin_new / np.where(has_azimuth, horiz, 1.0), 0.0)
+    out = np.empty_like(heading)
+    out[0] = np.where(has_azimuth, hx * scale, sin_new)  # a vertical root bending away leans toward +x
+    out[1] = hy * scale
+    out[2] = -cos_new
+    return out
+
+
+def toward_direction_step(heading, target, step_cm, strength_per_cm):
+    """Exact sine-law step rotating ``heading`` toward ``target`` in their common plane.
+
+    The angle β between them obeys dβ/ds = -k sin β: tan(β/2) -> tan(β/2) exp(-k s).
+
+    Parameters
+    ----------
+    heading, target : ndarray, shape (3, n)
+        Unit vectors.
+    step_cm, strength_per_cm : ndarray, shape (n,)
+    """
+    cos_b = np.clip(np.einsum("ij,ij->j", heading, target), -1.0, 1.0)
+    perp = heading - cos_b * target
+    sin_b = np.sqrt(np.einsum("ij,ij->j", perp, perp))
+    half = sin_b / np.maximum(1.0 + cos_b, 1e-300) * np.exp(-strength_per_cm * step_cm)
+    h2 = half * half
+    cos_n = (1.0 - h2) / (1.0 + h2)
+    sin_n = 2.0 * half / (1.0 + h2)
+    ok = sin_b > 1e-12
+    unit_perp = perp / np.where(ok, sin_b, 1.0)
+    out = cos_n * target + sin_n * unit_perp
+    return np.where(ok, out, heading)
+
+
+def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
+    """Spherical Brownian step: rotate by a tangent Gaussian of per-axis s.d. σ √Δs (exponential map).
+
+    Parameters
+    ----------
+    heading : ndarray, shape (3, n)
+    normals : ndarray, shape (3, n)
+        Independent standard normal draws.
+    step_cm, sigma_rad_per_sqrt_cm : ndarray, shape (n,)
+    """
+    along = np.einsum("ij,ij->j", normals, heading)
+    tangent = (normals - along * heading) * (sigma_rad_per_sqrt_cm * np.sqrt(step_cm))
+    angle = np.sqrt(np.einsum("ij,ij->j", tangent, tangent))
+    ok = angle > 1e-15
+    sinc = np.where(ok, np.sin(angle) / np.where(ok, angle, 1.0), 1.0)
+    out = np.cos(angle) * heading + sinc * tangent
+    out /= np.sqrt(np.einsum("ij,ij->j", out, out))
+    return out
+
+
+def heading_from_angles(angle_from_vertical_rad, azimuth_rad):
+    """Unit headings, shape (3, n), from the angle to the downward vertical and the azimuth."""
+    s = np.sin(angle_from_vertical_rad)
+    return np.stack([s * np.cos(azimuth_rad), s * np.sin(azimuth_rad), -np.cos(angle_from_vertical_rad)])
+
+
+def lateral_heading(parent_direction, insertion_angle_rad, azimuth_rad):
+    """Headings, shape (3, n), at ``insertion_angle_rad`` from the parent axis, turned by ``azimuth_rad``
+    around it (azimuth 0 points along the horizontal perpendicular to the parent)."""
+    p = parent_direction
+    up = np.zeros_like(p)
+    up[2] = 1.0
+    e1 = np.cross(p, up, axis=0)
+    norm = np.sqrt(np.einsum("ij,ij->j", e1, e1))
+    vertical = norm < 1e-9
+    e1[:, vertical] = np.array([[1.0], [0.0], [0.0]])
+    norm = np.where(vertical, 1.0, norm)
+    e1 /= norm
+    e2 = np.cross(p, e1, axis=0)
+    radial = np.cos(azimuth_rad) * e1 + np.sin(azimuth_rad) * e2
+    return np.cos(insertion_angle_rad) * p + np.sin(insertion_angle_rad) * radial
