@@ -1,0 +1,49 @@
+"""Parsing of sampling geometries given on the command line as comma-separated numbers."""
+
+from __future__ import annotations
+
+import math
+
+from ..errors import SamplingError
+
+__all__ = ["parse_numbers"]
+
+
+def parse_numbers(text: str, *, option: str, names: tuple[str, ...], optional: tuple[str, ...] = ()) -> dict[str, float]:
+    """Split ``"1,2,3"`` into named finite floats.
+
+    Parameters
+    ----------
+    text : str
+        The option value, e.g. ``"0,0,5,60,10"``.
+    option : str
+        Option name for messages, e.g. ``"--core"``.
+    names : tuple of str
+        Names of the required numbers, in order.
+    optional : tuple of str
+        Names of numbers that may follow.
+
+    Returns
+    -------
+    dict of str to float
+        Only the numbers given (optional ones may be missing).
+
+    Raises
+    ------
+    SamplingError
+        Wrong count or a value that is not a finite number (one line naming the option).
+    """
+    form = ",".join(n.upper() for n in names) + "".join(f"[,{n.upper()}]" for n in optional)
+    parts = [p.strip() for p in str(text).split(",")]
+    if not (len(names) <= len(parts) <= len(names) + len(optional)):
+        raise SamplingError(f"{option} {text!r}: expected {form} ({len(parts)} value(s) given)")
+    out = {}
+    for name, part in zip(names + optional, parts):
+        try:
+            value = float(part)
+        except ValueError:
+            raise SamplingError(f"{option} {text!r}: {name.upper()} must be a number, got {part!r} (form: {form})") from None
+        if not math.isfinite(value):
+            raise SamplingError(f"{option} {text!r}: {name.upper()} must be finite, got {part!r}")
+        out[name] = value
+    return out
