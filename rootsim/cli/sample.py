@@ -133,18 +133,16 @@ def _print_summary(tables: dict, out: Path) -> None:
     if "cores.csv" in tables:
         df = tables["cores.csv"]
         g = df.groupby(["depth_top_cm", "depth_bottom_cm"])["rld_cm_per_cm3"].agg(["mean", "min", "max"])
-        say(f"cores ({df['core_id'].nunique()} cores) -> {out / 'cores.csv'}\n")
-        say(f"  {'depth cm':>12}  {'RLD mean':>9}  {'min':>9}  {'max':>9}   (cm/cm3, exact)\n")
-        for (top, bottom), row in g.iterrows():
-            say(f"  {f'{top:g}-{bottom:g}':>12}  {row['mean']:9.4f}  {row['min']:9.4f}  {row['max']:9.4f}\n")
+        _by_depth(say, f"cores ({df['core_id'].nunique()} cores) -> {out / 'cores.csv'}",
+                  f"{'RLD mean':>9}  {'min':>9}  {'max':>9}   (cm/cm3, exact)",
+                  g, lambda row: f"{row['mean']:9.4f}  {row['min']:9.4f}  {row['max']:9.4f}")
     if "wall.csv" in tables:
         df = tables["wall.csv"]
         g = df.groupby(["depth_top_cm", "depth_bottom_cm"]).agg(
             n=("intersections", "sum"), est=("rld_estimate_cm_per_cm3", "mean"), true=("rld_true_cm_per_cm3", "mean"))
-        say(f"wall ({df['wall_id'].nunique()} wall(s)) -> {out / 'wall.csv'}\n")
-        say(f"  {'depth cm':>12}  {'counts':>7}  {'RLD est.':>9}  {'RLD true':>9}   (2 x intersections / area; slab)\n")
-        for (top, bottom), row in g.iterrows():
-            say(f"  {f'{top:g}-{bottom:g}':>12}  {int(row['n']):7d}  {row['est']:9.4f}  {row['true']:9.4f}\n")
+        _by_depth(say, f"wall ({df['wall_id'].nunique()} wall(s)) -> {out / 'wall.csv'}",
+                  f"{'counts':>7}  {'RLD est.':>9}  {'RLD true':>9}   (2 x intersections / area; slab)",
+                  g, lambda row: f"{int(row['n']):7d}  {row['est']:9.4f}  {row['true']:9.4f}")
     if "tube.csv" in tables:
         df = tables["tube.csv"]
         say(f"tube ({df['tube_id'].nunique()} tube(s)) -> {out / 'tube.csv'}\n")
@@ -162,3 +160,10 @@ def _print_summary(tables: dict, out: Path) -> None:
 
 
 __all__ = ["COMMAND", "HELP", "ORDER", "DESCRIPTION", "register", "run"]
+
+
+def _by_depth(say, title: str, header: str, grouped, cells) -> None:
+    """Print one line per depth range of a DataFrame grouped by (depth_top_cm, depth_bottom_cm)."""
+    say(f"{title}\n  {'depth cm':>12}  {header}\n")
+    for (top, bottom), row in grouped.iterrows():
+        say(f"  {f'{top:g}-{bottom:g}':>12}  {cells(row)}\n")
