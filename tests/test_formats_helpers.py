@@ -102,20 +102,25 @@ def random_root_system(*, n_plants: int = 2, primaries: int = 3, laterals: tuple
     return RootSystem(out, meta)
 
 
-def straight_root(*, length_cm: float = 10.0, radius_cm: float = 0.5, n_segments: int = 5, direction=(0, 0, -1)) -> RootSystem:
-    """One straight root from the origin, split into equal segments."""
-    d = np.asarray(direction, dtype=float)
-    d /= np.linalg.norm(d)
-    t = np.linspace(0, length_cm, n_segments + 1)
-    pts = t[:, None] * d
-    n = n_segments
+def root_from_points(points, *, radius_cm: float = 0.1, birth_day=None) -> RootSystem:
+    """One root (order 0, starting at the plant) along the given points, shape (k + 1, 3)."""
+    pts = np.asarray(points, dtype=float)
+    n = len(pts) - 1
     cols = {
         "segment_id": np.arange(n), "parent_id": np.arange(n) - 1, "plant_id": np.zeros(n, int),
         "root_id": np.zeros(n, int), "order": np.zeros(n, int), "root_class": np.full(n, "primary"),
         "x0": pts[:-1, 0], "y0": pts[:-1, 1], "z0": pts[:-1, 2], "x1": pts[1:, 0], "y1": pts[1:, 1], "z1": pts[1:, 2],
-        "radius_cm": np.full(n, radius_cm), "length_cm": np.diff(t), "birth_day": np.arange(n, dtype=float),
+        "radius_cm": np.full(n, radius_cm), "length_cm": np.linalg.norm(np.diff(pts, axis=0), axis=1),
+        "birth_day": np.arange(n, dtype=float) if birth_day is None else np.asarray(birth_day, dtype=float),
     }
     return RootSystem(cols, {"run": {"duration_days": float(n)}})
+
+
+def straight_root(*, length_cm: float = 10.0, radius_cm: float = 0.5, n_segments: int = 5, direction=(0, 0, -1)) -> RootSystem:
+    """One straight root from the origin, split into equal segments."""
+    d = np.asarray(direction, dtype=float)
+    d /= np.linalg.norm(d)
+    return root_from_points(np.linspace(0, length_cm, n_segments + 1)[:, None] * d, radius_cm=radius_cm)
 
 
 def test_generator_is_a_valid_tree():
