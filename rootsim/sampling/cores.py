@@ -6,10 +6,10 @@ increment volume ``π D²/4 × thickness`` (common practice). Here the length is
 segment is clipped against the vertical cylinder (quadratic in the segment parameter, see
 :mod:`rootsim.sampling.cylinder`) and then against each increment's depth range.
 
-Candidate segments per core come from a :class:`scipy.spatial.cKDTree` on segment midpoints
-(x, y) searched within ``core radius + half the longest horizontal segment extent``: any point
-of a segment lies within half its horizontal extent of its midpoint, so no segment that
-reaches the core is missed.
+Candidate segments per core come from a uniform grid over segment midpoints (x, y)
+(:class:`rootsim.sampling.spatial_index.MidpointGrid`) searched within ``core radius + half the
+longest horizontal segment extent``: any point of a segment lies within half its horizontal
+extent of its midpoint, so no segment that reaches the core is missed.
 """
 
 from __future__ import annotations
@@ -23,8 +23,9 @@ import numpy as np
 from ..errors import SamplingError
 from .columns import sampling_inputs
 from .container import check_vertical_cylinder
-from .cylinder import axial_parameters, cylinder_parameters, interval_length
+from .cylinder import cylinder_parameters, interval_length, linear_parameters
 from .geometry_strings import parse_numbers
+from .spatial_index import MidpointGrid
 
 __all__ = ["Core", "parse_core", "sample_cores", "core_increments", "CORE_COLUMNS", "DEFAULT_INCREMENT_CM"]
 
@@ -113,19 +114,12 @@ def _mapping_to_core(item: Any, index: int) -> Any:
 
 
 def _candidate_lists(p0: np.ndarray, p1: np.ndarray, cores: list[Core]) -> list[np.ndarray]:
-    """Indices of segments that may reach each core (cKDTree on midpoints, see module docstring)."""
-    from scipy.spatial import cKDTree
-
+    """Indices of segments that may reach each core (uniform midpoint grid, see module docstring)."""
     if len(p0) == 0:
         return [np.zeros(0, dtype=np.int64) for _ in cores]
-    mid = 0.5 * (p0[:, :2] + p1[:, :2])
-    half_extent = 0.5 * np.hypot(p1[:, 0] - p0[:, 0], p1[:, 1] - p0[:, 1])
-    reach = float(half_extent.max())
-    tree = cKDTree(mid)
-    centres = np.array([[c.x_cm, c.y_cm] for c in cores])
-    radii = np.array([c.radius_cm for c in cores]) * (1 + 1e-12) + reach + 1e-12
-    lists = tree.query_ball_point(centres, radii, return_sorted=False)
-    return [np.asarray(ix, dtype=np.int64) for ix in lists]
+    largest = max(c.radius_cm for c in cores)
+    index = MidpointGrid(p0, p1, cell_cm=largest + 0.5 * float(np.hypot(*(p1[:, :2] - p0[:, :2]).T).max()))
+    return [index.candidates(c.x_cm, c.y_cm, c.radius_cm) for c in cores]
 
 
 def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = True):
@@ -159,23 +153,21 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
         system, [_mapping_to_core(c, i) for i, c in enumerate(cores)], kind=Core, noun="core",
         form="X,Y,DIAMETER,DEPTH[,INCREMENT]", parse=parse_core, validate=validate_core,
         describe=lambda c: f"({c.x_cm:g}, {c.y_cm:g})", check_container=check_container)
-    seg_len = np.linalg.norm(p1 - p0, axis=1)
-    shallow = np.minimum(-p0[:, 2], -p1[:, 2])
-    deep = np.maximum(-p0[:, 2], -p1[:, 2])
     candidates = _candidate_lists(p0, p1, cores)
     rows: dict[str, list] = {name: [] for name in CORE_COLUMNS + ("volume_cm3", "increment_cm", "placement", "plant_id")}
     for core_id, (core, idx) in enumerate(zip(cores, candidates)):
         tops, bottoms = core_increments(core)
-        idx = idx[(deep[idx] >= core.top_cm) & (shallow[idx] <= core.depth_cm)]
         a, b = p0[idx], p1[idx]
-        axis_point = np.array([core.x_cm, core.y_cm, 0.0])
-        r_in, r_out = cylinder_parameters(a, b, axis_point=axis_point, axis_direction=_VERTICAL_DOWN,
-                                          radius_cm=core.radius_cm)
+        # depth = -z along the segment: s0 + t ds
+        s0, ds = -a[:, 2], a[:, 2] - b[:, 2]
+        keep = (np.maximum(s0, s0 + ds) >= core.top_cm) & (np.minimum(s0, s0 + ds) <= core.depth_cm)
+        a, b, s0, ds = a[keep], b[keep], s0[keep], ds[keep]
+        r_in, r_out = cylinder_parameters(a, b, axis_point=np.array([core.x_cm, core.y_cm, 0.0]),
+                                          axis_direction=_VERTICAL_DOWN, radius_cm=core.radius_cm)
         hit = r_out > r_in
-        a, b, r_in, r_out, lengths = a[hit], b[hit], r_in[hit], r_out[hit], seg_len[idx][hit]
-        z_in, z_out = axial_parameters(a[:, None, :], b[:, None, :], axis_point=axis_point,
-                                       axis_direction=_VERTICAL_DOWN, axial_min_cm=tops[None, :],
-                                       axial_max_cm=bottoms[None, :])
+        r_in, r_out, s0, ds = r_in[hit], r_out[hit], s0[hit], ds[hit]
+        lengths = np.linalg.norm(b[hit] - a[hit], axis=1)
+        z_in, z_out = linear_parameters(s0[:, None], ds[:, None], tops[None, :], bottoms[None, :])
         inside = interval_length(np.maximum(r_in[:, None], z_in), np.minimum(r_out[:, None], z_out), lengths[:, None])
         length_per_increment = inside.sum(axis=0)
         volume = math.pi * core.radius_cm ** 2 * (bottoms - tops)

@@ -18,6 +18,7 @@ import numpy as np
 __all__ = [
     "cylinder_parameters",
     "axial_parameters",
+    "linear_parameters",
     "interval_length",
     "segment_cylinder_length",
 ]
@@ -103,8 +104,19 @@ def axial_parameters(p0: np.ndarray, p1: np.ndarray, *, axis_point, axis_directi
     u = _as_unit(axis_direction)
     s0 = np.sum((p0 - np.asarray(axis_point, dtype=np.float64)) * u, axis=-1)
     ds = np.sum((np.asarray(p1, dtype=np.float64) - p0) * u, axis=-1)
-    smin = np.asarray(axial_min_cm, dtype=np.float64)
-    smax = np.asarray(axial_max_cm, dtype=np.float64)
+    return linear_parameters(s0, ds, axial_min_cm, axial_max_cm)
+
+
+def linear_parameters(s0: np.ndarray, ds: np.ndarray, s_min, s_max) -> tuple[np.ndarray, np.ndarray]:
+    """Parameter interval where ``s_min <= s0 + t ds <= s_max``, clipped to [0, 1] (arrays broadcast).
+
+    Returns
+    -------
+    t_enter, t_exit : ndarray
+        Empty intervals have ``t_exit <= t_enter``.
+    """
+    smin = np.asarray(s_min, dtype=np.float64)
+    smax = np.asarray(s_max, dtype=np.float64)
     with np.errstate(divide="ignore", invalid="ignore"):
         ta = (smin - s0) / ds
         tb = (smax - s0) / ds
