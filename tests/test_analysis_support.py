@@ -70,3 +70,33 @@ def random_walk_system(n_roots: int, n_steps: int, *, seed: int, step_cm: float 
     start = np.column_stack([rng.uniform(-5, 5, n_roots), rng.uniform(-5, 5, n_roots), np.zeros(n_roots)])
     pts = start[:, None, :] + np.concatenate([np.zeros((n_roots, 1, 3)), np.cumsum(steps, axis=1)], axis=1)
     return branched_system([{"points": p} for p in pts])
+
+
+def dichotomous_system(levels: int, *, link_cm: float = 1.0, plant: int = 0) -> RootSystem:
+    """A perfectly dichotomous tree: a base link, then ``levels`` levels of two-way branching.
+
+    Each link is one straight segment; at each branch point the root continues into one child
+    link and a new lateral root (starting at the end of the bearing segment) forms the other.
+    """
+    roots = []
+    queue = [(np.zeros(3), np.array([0.0, 0.0, -1.0]), 0, None, None, 0)]  # start, direction, level, parent, seg, order
+    while queue:
+        start, direction, level, parent, on_segment, order = queue.pop(0)
+        index = len(roots)
+        points = [start]
+        point, d = start, direction
+        for depth in range(level, levels + 1):
+            point = point + link_cm * d
+            points.append(point)
+            if depth < levels:
+                angle = np.radians(25.0)
+                side = np.array([np.sin(angle), 0.0, 0.0]) * (1 if depth % 2 else -1)
+                lateral = d + side
+                queue.append((point, lateral / np.linalg.norm(lateral), depth + 1, index, len(points) - 2, order + 1))
+                d = d - side
+                d = d / np.linalg.norm(d)
+        root = {"points": points, "order": order, "plant": plant}
+        if parent is not None:
+            root.update(parent=parent, on_segment=on_segment)
+        roots.append(root)
+    return branched_system(roots)

@@ -14,6 +14,8 @@ mapping of columns.
 from __future__ import annotations
 
 from .profile import layer_profile
+from .profile_model import fit_gale_grigal, gale_grigal_fraction
+from .traits import root_traits
 from .voxels import rld_voxel_grid
 
-__all__ = ["layer_profile", "rld_voxel_grid"]
+__all__ = ["layer_profile", "root_traits", "rld_voxel_grid", "fit_gale_grigal", "gale_grigal_fraction"]

@@ -12,9 +12,9 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import SegmentTableError
+from ..errors import RootsimError, SegmentTableError
 
-__all__ = ["float_column", "int_column", "system_metadata", "ground_area_from_metadata", "n_rows"]
+__all__ = ["float_column", "int_column", "system_metadata", "ground_area_from_metadata", "n_rows", "positive_number"]
 
 
 def _column(system: Any, name: str) -> np.ndarray:
@@ -81,3 +81,14 @@ def ground_area_from_metadata(metadata: dict) -> float | None:
     except (TypeError, ValueError):
         return None
     return area if np.isfinite(area) and area > 0 else None
+
+
+def positive_number(value, what: str, *, unit: str = "cm") -> float:
+    """``value`` as a finite float > 0, or a one-line :class:`RootsimError` naming ``what`` and ``unit``."""
+    try:
+        out = float(value)
+    except (TypeError, ValueError):
+        out = float("nan")
+    if not (np.isfinite(out) and out > 0):
+        raise RootsimError(f"{what} {value!r}: must be a number > 0 ({unit})")
+    return out

@@ -20,7 +20,7 @@ import pandas as pd
 
 from ..errors import RootsimError
 from ..geometry import segment_box_parameters
-from .inputs import float_column, ground_area_from_metadata, int_column, system_metadata
+from .inputs import float_column, ground_area_from_metadata, int_column, positive_number, system_metadata
 
 __all__ = ["layer_profile", "depth_layer_lengths", "profile_area", "check_box"]
 
@@ -148,22 +148,12 @@ def profile_area(system: Any, *, area_cm2=None, box=None) -> float:
         xmin, xmax, ymin, ymax = check_box(box)
         return (xmax - xmin) * (ymax - ymin)
     if area_cm2 is not None:
-        return _positive(area_cm2, "ground area", unit="cm²")
+        return positive_number(area_cm2, "ground area", unit="cm²")
     area = ground_area_from_metadata(system_metadata(system))
     if area is None:
         raise RootsimError("no ground area known for this root system (no stand metadata): "
                            "pass --area-cm2 A (cm²) or --box xmin,xmax,ymin,ymax (cm)")
     return area
-
-
-def _positive(value, what: str, *, unit: str = "cm") -> float:
-    try:
-        out = float(value)
-    except (TypeError, ValueError):
-        out = float("nan")
-    if not (np.isfinite(out) and out > 0):
-        raise RootsimError(f"{what} {value!r}: must be a number > 0 ({unit})")
-    return out
 
 
 def layer_profile(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = None, box=None,
@@ -201,8 +191,8 @@ def layer_profile(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None 
     RootsimError
         Bad ``layer_cm``, ``max_depth_cm``, ``area_cm2`` or ``box``, both of the last two, or no area known.
     """
-    h = _positive(layer_cm, "layer thickness")
-    bottom = None if max_depth_cm is None else _positive(max_depth_cm, "maximum depth")
+    h = positive_number(layer_cm, "layer thickness")
+    bottom = None if max_depth_cm is None else positive_number(max_depth_cm, "maximum depth")
     area = profile_area(system, area_cm2=area_cm2, box=box)
     z0 = float_column(system, "z0")
     z1 = float_column(system, "z1")
