@@ -1,0 +1,60 @@
+"""``rootsim render``: a 3D picture of a grown root system, rendered offscreen to PNG."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from ..errors import RootsimError
+
+COMMAND = "render"
+HELP = "render a 3D picture of a root system to PNG (no display needed)"
+ORDER = 61
+DESCRIPTION = """\
+Render a 3D picture of a root system to a PNG file, offscreen (works on servers
+without a display).
+
+The picture shows every root as a line (thicker for lower orders) coloured by
+--color-by, the soil surface as a translucent plane at depth 0, a depth ruler in
+cm, a legend (or a colour bar for age) and an optional title.
+
+  --color-by order       root order: 0 = roots from the seed or shoot, 1 = their laterals, ...
+  --color-by root_class  root class names from the parameter file
+  --color-by plant       one colour per plant of the stand
+  --color-by age         days since the segment formed (colour bar)
+  --view side|top|iso    looking horizontally, straight down, or obliquely from above
+
+DIR is a results directory written by 'rootsim grow' (holding segments.parquet) or a
+segments.parquet file. A root system without segments renders as an empty scene
+(surface and ruler only) with a warning.
+
+Examples:
+  rootsim render results/demo --png results/demo/roots.png
+  rootsim render results/demo --png side.png --view side --color-by age --size 1600x1200 --title "Trial 7, day 40"
+"""
+
+
+def register(parser: argparse.ArgumentParser) -> None:
+    from ..render import COLOR_BY, VIEWS
+
+    parser.add_argument("dir", metavar="DIR", help="results directory (or segments.parquet) to render")
+    parser.add_argument("--png", metavar="FILE", required=True, help="PNG file to write")
+    parser.add_argument("--color-by", choices=COLOR_BY, default="order", help="colouring (default order)")
+    parser.add_argument("--view", choices=VIEWS, default="iso", help="viewpoint (default iso)")
+    parser.add_argument("--size", metavar="WxH", default="1200x900", help="image size in pixels (default 1200x900)")
+    parser.add_argument("--title", metavar="T", default=None, help="title at the top of the picture")
+
+
+def run(args: argparse.Namespace) -> int:
+    from ..render import parse_size, render_png
+    from ..rootsystem import RootSystem
+
+    size = parse_size(args.size)
+    if not str(args.png).lower().endswith(".png"):
+        raise RootsimError(f"--png {args.png}: the file name must end in .png")
+    system = RootSystem.read(args.dir)
+    if len(system) == 0:
+        print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
+    path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title)
+    print(path)
+    return 0

@@ -1,0 +1,330 @@
+"""Offscreen 3D pictures of root systems with pyvista/VTK (no display needed).
+
+:func:`render_image` returns an RGB array (for notebooks: ``plt.imshow(system.render())``, or
+``PIL.Image.fromarray(...)``); :func:`render_png` writes the same picture to a PNG file atomically.
+
+The scene: one polyline per root (geometry from :func:`rootsim.formats.vtk.polydata_from_segments`),
+drawn as lines, thicker for lower root orders, coloured by root order, root class, plant
+(categorical legend) or age (scalar bar, days); a translucent soil-surface plane at z = 0; a
+labelled depth ruler in cm from the surface down to (a round number past) the deepest root; an
+optional title. An empty root system gives the empty scene (surface plane and ruler), no error.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from .atomic import atomic_path
+from .errors import RootsimError
+
+__all__ = ["COLOR_BY", "VIEWS", "render_image", "render_png", "parse_size"]
+
+#: Allowed ``color_by`` values.
+COLOR_BY = ("order", "age", "root_class", "plant")
+#: Allowed ``view`` values: side (looking along +y at the x–z plane), top (looking down), iso.
+VIEWS = ("side", "top", "iso")
+
+BACKGROUND = "white"
+TEXT_COLOUR = "black"
+SURFACE_COLOUR = "#a0794f"  # soil brown
+SURFACE_OPACITY = 0.3
+AGE_COLOURMAP = "viridis"
+#: Line width (pixels at 1200 x 900) of order 0, 1, 2 and higher roots.
+ORDER_LINE_WIDTH_PX = (4.0, 3.0, 2.0)
+#: Thinnest line drawn, pixels (VTK blends the edges of lines, so thinner lines lose their colour).
+MIN_LINE_WIDTH_PX = 2.0
+#: Most entries a categorical legend lists (the rest are summarised in one line).
+MAX_LEGEND_ENTRIES = 12
+MAX_SIZE_PX = 8192
+
+
+def _check_options(color_by: str, view: str, size) -> tuple[int, int]:
+    if color_by not in COLOR_BY:
+        raise RootsimError(f"unknown colouring {color_by!r} (allowed: {', '.join(COLOR_BY)})")
+    if view not in VIEWS:
+        raise RootsimError(f"unknown view {view!r} (allowed: {', '.join(VIEWS)})")
+    try:
+        width, height = (int(v) for v in size)
+        ok = all(float(v) == int(v) for v in size)
+    except (TypeError, ValueError):
+        ok = False
+    if not ok or not (16 <= width <= MAX_SIZE_PX and 16 <= height <= MAX_SIZE_PX):
+        raise RootsimError(f"image size {size!r} not allowed (need (width, height) in pixels, each 16..{MAX_SIZE_PX})")
+    return width, height
+
+
+def parse_size(text: str) -> tuple[int, int]:
+    """Parse ``"WIDTHxHEIGHT"`` (pixels, e.g. ``"1200x900"``) into ``(width, height)``.
+
+    Raises
+    ------
+    RootsimError
+        Not two positive integers joined by ``x``, or outside 16..8192.
+    """
+    parts = str(text).lower().replace("×", "x").split("x")
+    if len(parts) != 2 or not all(p.strip().isdigit() for p in parts):
+        raise RootsimError(f"image size {text!r} not understood (allowed: WIDTHxHEIGHT in pixels, e.g. 1200x900)")
+    size = (int(parts[0]), int(parts[1]))
+    _check_options("order", "iso", size)
+    return size
+
+
+def _prepare_offscreen() -> None:
+    """Choose VTK's EGL window when there is no X display, unless the user chose a window class.
+
+    VTK otherwise tries X first and warns before falling back. EGL needs libEGL (Mesa provides a
+    software one); without it VTK's own fallback is kept.
+    """
+    if os.environ.get("DISPLAY") or os.environ.get("VTK_DEFAULT_OPENGL_WINDOW"):
+        return
+    import ctypes.util
+
+    if ctypes.util.find_library("EGL"):
+        os.environ["VTK_DEFAULT_OPENGL_WINDOW"] = "vtkEGLRenderWindow"
+
+
+def _nice_step(value: float, *, up: bool = True) -> float:
+    """The 1, 2 or 5 x 10^k nearest ``value`` (> 0) from above (``up``) or from below."""
+    if value <= 0:
+        return 1.0
+    exp = 10.0 ** math.floor(math.log10(value))
+    candidates = [m * exp for m in (0.5, 1.0, 2.0, 5.0, 10.0)]
+    if up:
+        return min(c for c in candidates if c >= value * (1 - 1e-12))
+    return max(c for c in candidates if c <= value * (1 + 1e-12))
+
+
+def ruler_ticks(extent_cm: float, *, n_steps: int = 5) -> tuple[float, int]:
+    """Length (cm) and number of labels of a ruler covering ``extent_cm`` in round steps.
+
+    The step is the 1-2-5 number at least ``extent_cm / n_steps``; the length is the first
+    multiple of the step reaching ``extent_cm``.
+    """
+    extent = max(float(extent_cm), 1e-6)
+    step = _nice_step(extent / n_steps)
+    count = max(1, math.ceil(extent / step - 1e-9))
+    return count * step, count + 1
+
+
+def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str]]:
+    """Category index per polyline, shape (p,), and the legend label of each category."""
+    if color_by == "order":
+        values = np.asarray(poly.cell_data["order"])
+        kinds = np.unique(values)
+        labels = [f"order {k}" for k in kinds]
+    elif color_by == "plant":
+        values = np.asarray(poly.cell_data["plant_id"])
+        kinds = np.unique(values)
+        labels = [f"plant {k}" for k in kinds]
+    else:
+        values = np.asarray(poly.cell_data["root_class_code"])
+        names = [str(s) for s in np.asarray(poly.field_data["root_class_names"])]
+        kinds = np.unique(values)
+        labels = [names[k] if 0 <= k < len(names) else str(k) for k in kinds]
+    return np.searchsorted(kinds, values), labels
+
+
+def _palette(n: int) -> np.ndarray:
+    """``n`` distinguishable RGB colours, floats in [0, 1], shape (n, 3) (matplotlib's tab10 / tab20)."""
+    import matplotlib
+
+    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
+    return np.array([cmap(i % cmap.N)[:3] for i in range(n)])
+
+
+def _scene_bounds(system) -> np.ndarray:
+    """Bounding box of the roots, cm: ``[x_min, x_max, y_min, y_max, z_min, z_max]``, shape (6,).
+
+    ``z_max`` is at least 0 (the soil surface), ``z_min`` at most -1 cm; an empty system gets a
+    20 cm x 20 cm x 10 cm box under the surface.
+    """
+    if len(system) == 0:
+        return np.array([-10.0, 10.0, -10.0, 10.0, -10.0, 0.0])
+    box = []
+    for axis in "xyz":
+        lo = np.minimum(np.asarray(system[f"{axis}0"], float), np.asarray(system[f"{axis}1"], float))
+        hi = np.maximum(np.asarray(system[f"{axis}0"], float), np.asarray(system[f"{axis}1"], float))
+        box += [float(lo.min()), float(hi.max())]
+    box[4], box[5] = min(box[4], -1.0), max(box[5], 0.0)
+    return np.array(box)
+
+
+def render_image(system, *, color_by: str = "order", view: str = "iso", size=(1200, 900),
+                 title: str | None = None) -> np.ndarray:
+    """Render a root system offscreen and return the picture.
+
+    Parameters
+    ----------
+    system : RootSystem
+        Segment table with metadata (``run.duration_days`` sets ages if present).
+    color_by : {"order", "age", "root_class", "plant"}
+        Categorical colours with a legend (order, root class, plant), or age in days
+        (run duration minus birth day) with a scalar bar.
+    view : {"side", "top", "iso"}
+        ``side`` looks horizontally along +y at the x–z plane (parallel projection), ``top``
+        looks straight down (parallel projection), ``iso`` is an oblique perspective view.
+    size : (int, int)
+        Image width and height in pixels (16..8192 each).
+    title : str, optional
+        Text at the top edge.
+
+    Returns
+    -------
+    ndarray of uint8, shape (height, width, 3)
+        RGB picture.
+
+    Raises
+    ------
+    RootsimError
+        Unknown ``color_by`` or ``view``, or a bad ``size``.
+    """
+    width, height = _check_options(color_by, view, size)
+    _prepare_offscreen()
+    import pyvista as pv
+
+    from .formats.vtk import polydata_from_segments
+
+    box = _scene_bounds(system)
+    margin = 0.06 * float(np.max(box[1::2] - box[0::2]))
+    x_lo, x_hi, y_lo, y_hi = box[0] - margin, box[1] + margin, box[2] - margin, box[3] + margin
+    scale = math.sqrt(width * height / (1200 * 900))  # line widths follow the image size
+
+    plotter = pv.Plotter(off_screen=True, window_size=(width, height))
+    try:
+        plotter.set_background(BACKGROUND)
+        if len(system):
+            _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale)
+        plane = pv.Plane(center=(0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi), 0.0), direction=(0, 0, 1),
+                         i_size=x_hi - x_lo, j_size=y_hi - y_lo, i_resolution=1, j_resolution=1)
+        plotter.add_mesh(plane, color=SURFACE_COLOUR, opacity=SURFACE_OPACITY, lighting=False)
+        # front edge of the surface, so the surface shows as a line in the side view too
+        plotter.add_mesh(pv.Line((x_lo, y_lo, 0.0), (x_hi, y_lo, 0.0)), color=SURFACE_COLOUR,
+                         line_width=2.0 * scale, lighting=False)
+        ruler_end = _add_ruler(plotter, view=view, corner=(x_lo, y_lo), x_span=x_hi - x_lo, depth=-box[4])
+        if title:
+            plotter.add_text(str(title), position="upper_edge", font_size=max(8, int(14 * scale)), color=TEXT_COLOUR)
+        frame = np.array([x_lo, max(x_hi, ruler_end[0]), y_lo, y_hi, min(box[4], ruler_end[2]), box[5]])
+        _set_camera(plotter, view, frame=frame, aspect=width / height)
+        image = plotter.screenshot(return_img=True)
+    finally:
+        plotter.close()
+    image = np.ascontiguousarray(np.asarray(image)[..., :3], dtype=np.uint8)
+    if image.shape != (height, width, 3):  # pragma: no cover - VTK returned another size
+        raise RootsimError(f"renderer returned an image of shape {image.shape}, expected {(height, width, 3)}")
+    return image
+
+
+def _add_roots(plotter, poly, *, color_by: str, scale: float) -> None:
+    """Add the roots, one line actor per root-order group (order 0, 1, >= 2: widths differ), and
+    their legend (categorical colourings) or scalar bar (age)."""
+    if color_by == "age":
+        age = np.asarray(poly.point_data["age_days"], dtype=float)
+        style = {"scalars": "age_days", "cmap": AGE_COLOURMAP, "show_scalar_bar": False,
+                 "clim": (float(age.min()), float(max(age.max(), age.min() + 1e-9)))}
+    else:
+        category, labels = _categories(color_by, poly)
+        colours = _palette(len(labels))
+        poly.cell_data["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
+        style = {"scalars": "colour_rgb", "rgb": True, "preference": "cell"}
+    order = np.asarray(poly.cell_data["order"])
+    for width, mask in zip(ORDER_LINE_WIDTH_PX, (order == 0, order == 1, order >= 2)):
+        if mask.any():
+            plotter.add_mesh(poly.extract_cells(np.flatnonzero(mask)), line_width=max(MIN_LINE_WIDTH_PX, width * scale),
+                             lighting=False, **style)
+    if color_by == "age":
+        plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
+                               position_x=0.86, position_y=0.2, width=0.08, height=0.6, unique_bar=True)
+    else:
+        _add_legend(plotter, [[label, colours[i]] for i, label in enumerate(labels)])
+
+
+def _add_legend(plotter, entries: list) -> None:
+    """A categorical legend ``[[label, rgb], ...]`` at the upper right, at most MAX_LEGEND_ENTRIES lines."""
+    if len(entries) > MAX_LEGEND_ENTRIES:
+        entries = entries[:MAX_LEGEND_ENTRIES] + [[f"... {len(entries) - MAX_LEGEND_ENTRIES} more", "gray"]]
+    height = min(0.045 * len(entries) + 0.02, 0.6)
+    legend = plotter.add_legend(labels=entries, bcolor=BACKGROUND, face="rectangle", size=(0.18, height))
+    # place the box explicitly (normalised viewport), right edge inside the picture, below the title
+    for coordinate, value in ((legend.GetPositionCoordinate(), (0.80, 0.92 - height)),
+                              (legend.GetPosition2Coordinate(), (0.18, height))):
+        coordinate.SetCoordinateSystemToNormalizedViewport()
+        coordinate.SetValue(*value)
+
+
+def _add_ruler(plotter, *, view: str, corner: tuple[float, float], x_span: float, depth: float) -> tuple:
+    """Add a ruler in cm at the front-left corner of the surface; return its far end (x, y, z).
+
+    Side and iso views get a vertical depth ruler from the surface (0) down past the deepest
+    root in round steps; the top view, where depth is not visible, a horizontal one along x.
+    """
+    x_lo, y_lo = corner
+    if view == "top":
+        step = _nice_step(0.5 * x_span / 5, up=False)
+        length, labels = 5 * step, 6
+        a, b, title = (x_lo, y_lo, 0.0), (x_lo + length, y_lo, 0.0), "cm"
+    else:
+        length, labels = ruler_ticks(depth)
+        a, b, title = (x_lo, y_lo, 0.0), (x_lo, y_lo, -length), "depth (cm)"
+    ruler = plotter.add_ruler(a, b, title=title, number_labels=labels,
+                              label_format="%.0f" if length / (labels - 1) >= 1 else "%g",
+                              label_color=TEXT_COLOUR, tick_color=TEXT_COLOUR, font_size_factor=0.7)
+    ruler.SetTitlePosition(1.0)  # title at the far end, clear of the labels
+    return b
+
+
+def _set_camera(plotter, view: str, *, frame: np.ndarray, aspect: float) -> None:
+    """Point the camera at ``frame`` ``[x_lo, x_hi, y_lo, y_hi, z_lo, z_hi]`` (cm) for the view."""
+    frame = np.array(frame, dtype=float)
+    if view in ("side", "top"):
+        frame[1] += 0.25 * (frame[1] - frame[0])  # keep the right edge free for the legend or scalar bar
+    centre = 0.5 * (frame[0::2] + frame[1::2])
+    half = 0.5 * (frame[1::2] - frame[0::2])
+    distance = 4.0 * float(np.linalg.norm(half)) + 1.0
+    room = 1.18  # space for title, legend and ruler labels
+    if view == "side":  # camera on -y looking along +y: x to the right, z up
+        plotter.camera_position = [tuple(centre - (0.0, distance, 0.0)), tuple(centre), (0.0, 0.0, 1.0)]
+        plotter.enable_parallel_projection()
+        plotter.camera.parallel_scale = room * max(half[2], half[0] / aspect)
+    elif view == "top":  # camera above looking down: x to the right, y up
+        plotter.camera_position = [tuple(centre + (0.0, 0.0, distance)), tuple(centre), (0.0, 1.0, 0.0)]
+        plotter.enable_parallel_projection()
+        plotter.camera.parallel_scale = room * max(half[1], half[0] / aspect)
+    else:
+        direction = np.array([1.0, -1.6, 0.9])
+        plotter.camera_position = [tuple(centre + direction), tuple(centre), (0.0, 0.0, 1.0)]
+        plotter.reset_camera(bounds=tuple(frame))
+        plotter.camera.zoom(1.05)
+    plotter.reset_camera_clipping_range()
+
+
+def render_png(system, path: str | os.PathLike, **options) -> Path:
+    """Render like :func:`render_image` and write the picture as a PNG file, atomically.
+
+    Parameters
+    ----------
+    system : RootSystem
+    path : path-like
+        Target ``.png`` file.
+    **options
+        ``color_by``, ``view``, ``size``, ``title`` as for :func:`render_image`.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    from PIL import Image
+
+    path = Path(path)
+    if path.suffix.lower() != ".png":
+        raise RootsimError(f"{path}: render output must be a .png file (got {path.suffix or 'no suffix'!r})")
+    image = render_image(system, **options)
+    with atomic_path(path) as tmp:
+        try:
+            Image.fromarray(image, mode="RGB").save(tmp, format="PNG")
+        except OSError as exc:
+            raise RootsimError(f"{path}: cannot write ({exc.strerror or exc})") from None
+    return path
