@@ -35,7 +35,7 @@ from ..atomic import atomic_path
 from ..errors import FormatError
 from .polylines import polylines_from_segments
 
-__all__ = ["TubeMesh", "tube_mesh_arrays", "tube_mesh", "write_mesh", "SUFFIXES", "prism_volume_factor"]
+__all__ = ["TubeMesh", "check_mesh_options", "tube_mesh_arrays", "tube_mesh", "write_mesh", "SUFFIXES", "prism_volume_factor"]
 
 SUFFIXES = (".stl", ".ply", ".obj", ".glb")
 
@@ -78,7 +78,8 @@ def prism_volume_factor(sides: int) -> float:
     return 0.5 * sides * np.sin(2 * np.pi / sides)
 
 
-def _check_options(sides, merge_short_cm, sharp_turn_deg) -> tuple[int, float, float]:
+def check_mesh_options(sides, merge_short_cm, sharp_turn_deg) -> tuple[int, float, float]:
+    """Validated ``(sides, merge_short_cm, sharp_turn_deg)``; :class:`FormatError` naming the bad option."""
     try:
         n = int(sides)
     except (TypeError, ValueError):
@@ -175,7 +176,7 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     -------
     TubeMesh
     """
-    n_sides, merge, sharp = _check_options(sides, merge_short_cm, sharp_turn_deg)
+    n_sides, merge, sharp = check_mesh_options(sides, merge_short_cm, sharp_turn_deg)
     lines = polylines_from_segments(system)
     radius_col = np.asarray(system["radius_cm"], dtype=np.float64)
     edge_radius = np.maximum(radius_col[lines.segment_order], MIN_RADIUS_CM)
