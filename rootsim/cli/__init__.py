@@ -67,7 +67,10 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``rootsim`` console script; returns the exit code."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help, --version and usage errors: return the code instead of exiting
+        return exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
     if not hasattr(args, "handler"):
         parser.print_help(sys.stderr)
         return 2
