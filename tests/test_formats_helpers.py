@@ -18,7 +18,7 @@ def random_root_system(*, n_plants: int = 2, primaries: int = 3, laterals: tuple
 
     Primaries (order 0, parent -1) start at plant positions and walk downwards; each further
     order's laterals branch from a random segment of a random root of the previous order, at a
-    random point of that segment (exactly its end point with probability ``joint_fraction``).
+    random point of that segment (exactly its start or end point with probability ``joint_fraction``).
     Radius is constant per root. Vectorized over roots (one loop step per position in a root).
     """
     rng = np.random.default_rng(rng)
@@ -47,7 +47,9 @@ def random_root_system(*, n_plants: int = 2, primaries: int = 3, laterals: tuple
             pick = rng.integers(0, np.asarray(seg_count)[proots])
             parent_seg = np.asarray(seg_start)[proots] + pick
             plant = np.asarray(root_plant)[proots]
-            frac = np.where(rng.random(count) < joint_fraction, 1.0, rng.uniform(0.1, 0.9, count))
+            # At a joint: the start (0) or the end (1) of the parent segment, which are shared points.
+            frac = np.where(rng.random(count) < joint_fraction, rng.integers(0, 2, count).astype(float),
+                            rng.uniform(0.1, 0.9, count))
             origin = all_start[parent_seg] + frac[:, None] * (all_end[parent_seg] - all_start[parent_seg])
             d = rng.normal(size=(count, 3))
             d[:, 2] = -np.abs(d[:, 2]) * 0.5
