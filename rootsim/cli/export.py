@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -88,7 +89,22 @@ def _plan(args) -> list[tuple[str, Path, str, dict]]:
     paths = [p.resolve() for _, p, _, _ in plan]
     if len(set(paths)) != len(paths):
         raise RootsimError("two outputs name the same file")
+    for option, path, _, _ in plan:
+        _check_writable(option, path)
     return plan
+
+
+def _check_writable(option: str, path: Path) -> None:
+    """Fail before anything is written if ``path`` cannot be created (its nearest existing ancestor)."""
+    if path.is_dir():
+        raise RootsimError(f"{option} {path}: is a directory, expected a file name")
+    ancestor = path.absolute().parent
+    while not ancestor.exists() and ancestor != ancestor.parent:
+        ancestor = ancestor.parent
+    if not ancestor.is_dir():
+        raise RootsimError(f"{option} {path}: cannot write ({ancestor} is not a directory)")
+    if not os.access(ancestor, os.W_OK | os.X_OK):
+        raise RootsimError(f"{option} {path}: cannot write ({ancestor} is not writable)")
 
 
 def run(args: argparse.Namespace) -> int:

@@ -165,19 +165,20 @@ def write_vti(system, path: str | os.PathLike, *, voxel_cm: float, bounds=None,
     ----------
     system : RootSystem
     path : path-like
-    voxel_cm : float
-        Voxel edge length, cm (> 0).
+    voxel_cm : float or sequence of 3 floats
+        Voxel edge length(s), cm (> 0).
     bounds : optional
         Passed to :func:`rootsim.analysis.rld_voxel_grid`.
     compression : {None, "zlib", "lz4"}
     """
     path = Path(path)
     try:
-        voxel = float(voxel_cm)
+        voxel = np.asarray(voxel_cm, dtype=np.float64)
     except (TypeError, ValueError):
-        voxel = float("nan")
-    if not np.isfinite(voxel) or voxel <= 0:
-        raise FormatError(f"{path}: voxel size {voxel_cm!r} cm is not allowed (need a number > 0)")
+        voxel = np.full(1, np.nan)
+    if voxel.shape not in ((), (3,)) or not np.all(np.isfinite(voxel)) or np.any(voxel <= 0):
+        raise FormatError(f"{path}: voxel size {voxel_cm!r} cm is not allowed (need a number > 0, or three)")
+    voxel = float(voxel) if voxel.shape == () else tuple(voxel.tolist())
     try:
         from ..analysis import rld_voxel_grid
     except ImportError:
