@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import sys
 from pathlib import Path
 
@@ -74,7 +75,6 @@ def _requests(args):
     """Parse every geometry before any reading or writing; returns the keyword arguments per method."""
     from ..sampling import parse_core, parse_core_grid, parse_tube, parse_wall
     from ..sampling.minirhizotron import DEFAULT_REFERENCE_CM, DEFAULT_WINDOW_CM
-    from ..sampling.wall import Wall
 
     cores = [parse_core(text) for text in args.core]
     grid = parse_core_grid(args.core_grid) if args.core_grid is not None else None
@@ -82,7 +82,7 @@ def _requests(args):
     if args.wall_slab_cm is not None:
         if not args.wall_slab_cm > 0:
             raise SamplingError(f"--wall-slab-cm must be > 0 cm, got {args.wall_slab_cm:g}")
-        walls = [Wall(**{**w.__dict__, "slab_thickness_cm": args.wall_slab_cm}) for w in walls]
+        walls = [dataclasses.replace(w, slab_thickness_cm=args.wall_slab_cm) for w in walls]
     window = DEFAULT_WINDOW_CM if args.tube_window_cm is None else args.tube_window_cm
     reference = DEFAULT_REFERENCE_CM if args.tube_reference_cm is None else args.tube_reference_cm
     for name, value in (("--tube-window-cm", window), ("--tube-reference-cm", reference)):
