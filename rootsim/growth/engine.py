@@ -41,9 +41,14 @@ _NF = 23
 _ROOT, _PLANT, _CLASS, _ORDER, _LAST, _COUNT = range(6)
 _NI = 6
 
+# Pending branch point fields.
+_PEND_FLOAT = {"pos": slice(0, 3), "direction": slice(3, 6), "threshold": 6, "azimuth_u": 7}
+_PEND_INT = {"parent_segment": 0, "parent_root": 1, "plant": 2, "cls": 3, "order": 4, "spiral": 5, "parent_cls": 6}
+_PEND_NF, _PEND_NI = 8, 7
+
 _SEGMENT_FIELDS = ("parent_id", "plant_id", "root_id", "order", "class_code",
                    "x0", "y0", "z0", "x1", "y1", "z1", "radius_cm", "length_cm", "birth_day")
-_SEGMENT_DTYPES = (np.int64, np.int32, np.int32, np.int8, np.int16) + (np.float64,) * 6 + (np.float32, np.float64, np.float32)
+_SEGMENT_DTYPES = (np.int64, np.int64, np.int64, np.int64, np.int16) + (np.float64,) * 6 + (np.float32, np.float64, np.float32)
 _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
 _MIN_STEP_CM = 1e-9
 
@@ -59,24 +64,43 @@ def plant_positions(spec: Spec) -> np.ndarray:
 
 
 class _Streams:
-    """One random generator per plant; draws for items sorted by plant."""
+    """One random generator per plant.
+
+    Draws are requested for a list of items (tips, branch points, new roots) in any order: item j of
+    plant p receives the next draw of plant p's generator in the order the items of plant p appear.
+    Since the engine keeps each plant's items in creation order, a plant's draws depend on that plant
+    alone.
+    """
 
     def __init__(self, seed: int, n_plants: int):
         self.rngs = [np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(n_plants)]
         self.n_plants = n_plants
 
-    def uniform(self, plant_sorted: np.ndarray, columns: int) -> np.ndarray:
-        counts = np.bincount(plant_sorted, minlength=self.n_plants)
-        blocks = [self.rngs[p].random((c, columns)) for p, c in enumerate(counts) if c]
-        return np.concatenate(blocks) if blocks else np.zeros((0, columns))
+    def _grouped(self, plant: np.ndarray, draw, rows_first: bool):
+        n = len(plant)
+        if self.n_plants == 1:
+            return draw(self.rngs[0], n)
+        key = plant.astype(np.int16) if self.n_plants < 32768 else plant  # radix sort for small ints
+        order = np.argsort(key, kind="stable")
+        counts = np.bincount(plant, minlength=self.n_plants)
+        blocks = [draw(self.rngs[p], c) for p, c in enumerate(counts) if c]
+        if not blocks:
+            return draw(self.rngs[0], 0)
+        grouped = np.concatenate(blocks, axis=1 if rows_first else 0)
+        out = np.empty_like(grouped)
+        if rows_first:
+            out[:, order] = grouped
+        else:
+            out[order] = grouped
+        return out
 
-    def normal3(self, plant_sorted: np.ndarray) -> np.ndarray:
-        counts = np.bincount(plant_sorted, minlength=self.n_plants)
-        nz = np.flatnonzero(counts)
-        if len(nz) == 1:
-            return self.rngs[nz[0]].standard_normal((3, counts[nz[0]]))
-        blocks = [self.rngs[p].standard_normal((3, counts[p])) for p in nz]
-        return np.concatenate(blocks, axis=1) if blocks else np.zeros((3, 0))
+    def uniform(self, plant: np.ndarray, columns: int) -> np.ndarray:
+        """U(0, 1) draws, shape (len(plant), columns)."""
+        return self._grouped(plant, lambda g, c: g.random((c, columns)), rows_first=False)
+
+    def normal3(self, plant: np.ndarray) -> np.ndarray:
+        """Standard normal draws, shape (3, len(plant))."""
+        return self._grouped(plant, lambda g, c: g.standard_normal((3, c)), rows_first=True)
 
 
 class _Growable:
@@ -109,6 +133,34 @@ class _Growable:
         return self.data[key]
 
 
+class _Store:
+    """Columns of a 2D state matrix (fields x items) with spare capacity: appends are O(new items)."""
+
+    def __init__(self, rows: int, dtype, capacity: int = 256):
+        self.data = np.zeros((rows, capacity), dtype=dtype)
+        self.n = 0
+
+    @property
+    def view(self) -> np.ndarray:
+        return self.data[:, : self.n]
+
+    def append(self, block: np.ndarray) -> None:
+        m = block.shape[1]
+        if self.n + m > self.data.shape[1]:
+            cap = max(2 * self.data.shape[1], self.n + m)
+            new = np.zeros((self.data.shape[0], cap), dtype=self.data.dtype)
+            new[:, : self.n] = self.data[:, : self.n]
+            self.data = new
+        self.data[:, self.n : self.n + m] = block
+        self.n += m
+
+    def keep(self, mask: np.ndarray) -> None:
+        """Drop the items where ``mask`` is False, keeping the order of the rest."""
+        kept = self.data[:, : self.n][:, mask]
+        self.data[:, : kept.shape[1]] = kept
+        self.n = kept.shape[1]
+
+
 class _Engine:
     def __init__(self, spec: Spec, progress=None):
         self.spec = spec
@@ -119,12 +171,15 @@ class _Engine:
         self.n_plants = len(self.positions)
         self.streams = _Streams(spec.run.seed, self.n_plants)
         self.progress = progress
-        self.f = np.zeros((_NF, 0))
-        self.i = np.zeros((_NI, 0), dtype=np.int64)
+        self.tip_float = _Store(_NF, np.float64)
+        self.tip_int = _Store(_NI, np.int64)
+        self.tip_active = _Store(1, bool)
+        # Branch points waiting for the parent's apical zone to pass them.
+        self.pend_float = _Store(_PEND_NF, np.float64)
+        self.pend_int = _Store(_PEND_NI, np.int64)
         self.roots = _Growable(plant=np.int32, cls=np.int16, order=np.int8, parent=np.int64,
                                birth=np.float64, death=np.float64, length=np.float64, length_prev=np.float64,
                                last_dt=np.float64, growing=bool, dead=bool)
-        self.pending = None  # dict of arrays: branch points waiting for the apical zone to pass
         self.incoming = []  # new tips (float, int) to add at the start of the next step
         self.chunks = {k: [] for k in _SEGMENT_FIELDS}
         self.n_segments = 0
@@ -215,27 +270,32 @@ class _Engine:
         i[_LAST] = parent_segment
         self.incoming.append((f, i))
 
-    def _merge_incoming(self, keep: np.ndarray | None):
-        f, i = self.f, self.i
-        if keep is not None and not keep.all():
-            f, i = f[:, keep], i[:, keep]
-        if self.incoming:
-            f = np.concatenate([f] + [a for a, _ in self.incoming], axis=1)
-            i = np.concatenate([i] + [b for _, b in self.incoming], axis=1)
-            self.incoming = []
-            order = np.argsort(i[_PLANT], kind="stable")
-            if not np.array_equal(order, np.arange(len(order))):
-                f, i = f[:, order], i[:, order]
-        self.f, self.i = f, i
+    def _merge_incoming(self):
+        """Append new tips; drop inactive ones once they make up a large share (order kept, so each
+        plant's tips stay in creation order)."""
+        active = self.tip_active.view[0]
+        inactive = active.size - int(np.count_nonzero(active))
+        if inactive > 0.25 * active.size:
+            mask = active.copy()
+            self.tip_float.keep(mask)
+            self.tip_int.keep(mask)
+            self.tip_active.keep(mask)
+        for f, i in self.incoming:
+            self.tip_float.append(f)
+            self.tip_int.append(i)
+            self.tip_active.append(np.ones((1, f.shape[1]), bool))
+        self.incoming = []
 
     # -- one step ----------------------------------------------------------------------------------
     def step(self, t0: float, t1: float, step: int):
         self._emerge(t0, t1, step)
-        self._merge_incoming(None)
-        f, i = self.f, self.i
+        if self.incoming:
+            self._merge_incoming()
+        f, i, active = self.tip_float.view, self.tip_int.view, self.tip_active.view[0]
         n = f.shape[1]
         if n == 0:
             return
+        all_active = bool(active.all())
         dt = (t1 - t0) + f[_CARRY]
         f[_CARRY] = 0.0
         start = f[_POS]
@@ -252,7 +312,12 @@ class _Engine:
             h = vertical_sine_law_step(h, ds, f[_TROP], f[_COSPHI], f[_SINPHI])
         if self.has_exotropism:
             h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], ds, f[_EXO]), h)
-        normals = self.streams.normal3(i[_PLANT])
+        if all_active:
+            normals = self.streams.normal3(i[_PLANT])
+        else:
+            act = np.flatnonzero(active)
+            normals = np.zeros((3, n))
+            normals[:, act] = self.streams.normal3(i[_PLANT, act])
         h = random_deviation_step(h, normals, ds, f[_SIGMA])
         d = h_old + h
         dn = np.sqrt(np.einsum("ij,ij->j", d, d))
@@ -263,7 +328,7 @@ class _Engine:
             h = np.where(touched | np.any(d2 != d, axis=0), d3, h)
         seg = end - start
         seg_len = np.sqrt(np.einsum("ij,ij->j", seg, seg))
-        made = (ds > _MIN_STEP_CM) & (seg_len > 0)
+        made = (ds > _MIN_STEP_CM) & (seg_len > 0) & active
         new_length = length + np.where(made, seg_len, 0.0)
 
         m = int(made.sum())
@@ -293,21 +358,21 @@ class _Engine:
         self.roots.view("length_prev")[roots] = rl[roots]
         rl[roots] = new_length
         self.roots.view("last_dt")[roots] = dt
-        finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) | (f[_RATE] <= 0)
+        finished = active & ((max_len - new_length <= _FINISH_TOLERANCE * max_len) | (f[_RATE] <= 0))
         if self.classes.has_lifespan:
-            finished |= self._dead_tips(t1)
-        self.roots.view("growing")[roots[finished]] = False
-        self._activate_pending(t1)
-        self.f, self.i = f, i
+            finished |= active & self._dead_tips(t1)
         if finished.any():
-            self._merge_incoming(~finished)
+            self.roots.view("growing")[roots[finished]] = False
+            active &= ~finished
+        self._activate_pending(t1)
+        if self.incoming or active.size - np.count_nonzero(active) > 0.25 * active.size:
+            self._merge_incoming()
 
     def _branch_points(self, f, i, made, length, new_length, start, end, seg_len, seg_ids, idx):
         seg_of_tip = np.full(f.shape[1], -1, dtype=np.int64)
         seg_of_tip[idx] = seg_ids
         nxt = f[_NEXT]
         can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
-        found = []
         while can.any():
             k = np.flatnonzero(can)
             u = self.streams.uniform(i[_PLANT, k], 3)
@@ -321,19 +386,18 @@ class _Engine:
             keep = child >= 0
             if keep.any():
                 kk = k[keep]
-                found.append(dict(pos=pos[:, keep], direction=direction[:, keep], parent_segment=seg_of_tip[kk],
-                                  parent_root=i[_ROOT, kk], plant=i[_PLANT, kk], cls=child[keep],
-                                  order=i[_ORDER, kk] + 1, threshold=nxt[kk] + f[_APICAL, kk],
-                                  spiral=i[_COUNT, kk], parent_cls=cls[keep], azimuth_u=u[keep, 2]))
+                pf = np.empty((_PEND_NF, kk.size))
+                pf[0:3] = pos[:, keep]
+                pf[3:6] = direction[:, keep]
+                pf[6] = nxt[kk] + f[_APICAL, kk]
+                pf[7] = u[keep, 2]
+                pi = np.stack([seg_of_tip[kk], i[_ROOT, kk], i[_PLANT, kk], child[keep], i[_ORDER, kk] + 1,
+                               i[_COUNT, kk], cls[keep]])
+                self.pend_float.append(pf)
+                self.pend_int.append(pi)
             i[_COUNT, k] += 1
             nxt[k] += self.classes.draw_one("interbranch_distance_cm", cls, u[:, 1])
             can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
-        if found:
-            new = {key: np.concatenate([b[key] for b in found], axis=-1) for key in found[0]}
-            if self.pending is None:
-                self.pending = new
-            else:
-                self.pending = {key: np.concatenate([self.pending[key], new[key]], axis=-1) for key in new}
 
     def _dead_tips(self, t: float) -> np.ndarray:
         roots = self.roots
@@ -347,41 +411,41 @@ class _Engine:
             if not (inherited & ~dead[: roots.n]).any():
                 break
             dead[: roots.n] |= inherited
-        return dead[self.i[_ROOT]]
+        return dead[self.tip_int.view[_ROOT]]
 
     def _activate_pending(self, t1: float):
-        p = self.pending
-        if p is None or p["plant"].size == 0:
+        if self.pend_int.n == 0:
             return
-        rl = self.roots.view("length")[p["parent_root"]]
-        ready = rl >= p["threshold"]
+        pf, pi = self.pend_float.view, self.pend_int.view
+        parent_root = pi[_PEND_INT["parent_root"]]
+        ready = self.roots.view("length")[parent_root] >= pf[_PEND_FLOAT["threshold"]]
         if self.classes.has_lifespan:
-            ready &= ~self.roots.view("dead")[p["parent_root"]]
-        growing = self.roots.view("growing")[p["parent_root"]]
+            ready &= ~self.roots.view("dead")[parent_root]
+        growing = self.roots.view("growing")[parent_root]
         drop = ~ready & ~growing
         if ready.any():
-            r = {k: v[..., ready] for k, v in p.items()}
-            order = np.argsort(r["plant"], kind="stable")
-            r = {k: v[..., order] for k, v in r.items()}
-            prev = self.roots.view("length_prev")[r["parent_root"]]
-            new = self.roots.view("length")[r["parent_root"]]
-            last_dt = self.roots.view("last_dt")[r["parent_root"]]
+            rf, ri = pf[:, ready], pi[:, ready]
+            parents = ri[_PEND_INT["parent_root"]]
+            plant, cls, parent_cls = ri[_PEND_INT["plant"]], ri[_PEND_INT["cls"]], ri[_PEND_INT["parent_cls"]]
+            prev = self.roots.view("length_prev")[parents]
+            new = self.roots.view("length")[parents]
             grew = new - prev
-            frac_after = np.clip((new - r["threshold"]) / np.where(grew > 0, grew, 1.0), 0.0, 1.0)
-            frac_after = np.where(grew > 0, frac_after, 0.0)
-            carry = frac_after * last_dt
-            u = self.streams.uniform(r["plant"], len(PARAM_NAMES))
-            params = self.classes.draw(r["cls"], u)
-            spiral = self.classes.spiral[r["parent_cls"]]
-            azimuth = np.where(spiral, r["spiral"] * self.classes.spiral_divergence_rad[r["parent_cls"]],
-                               2 * np.pi * r["azimuth_u"])
-            heading = lateral_heading(r["direction"], np.radians(params["insertion_angle_deg"]), azimuth)
-            self._add_roots(r["plant"], r["cls"], r["order"], r["pos"], heading, params,
-                            parent_segment=r["parent_segment"], parent_root=r["parent_root"],
+            frac_after = np.clip((new - rf[_PEND_FLOAT["threshold"]]) / np.where(grew > 0, grew, 1.0), 0.0, 1.0)
+            carry = np.where(grew > 0, frac_after, 0.0) * self.roots.view("last_dt")[parents]
+            u = self.streams.uniform(plant, len(PARAM_NAMES))
+            params = self.classes.draw(cls, u)
+            spiral = self.classes.spiral[parent_cls]
+            azimuth = np.where(spiral, ri[_PEND_INT["spiral"]] * self.classes.spiral_divergence_rad[parent_cls],
+                               2 * np.pi * rf[_PEND_FLOAT["azimuth_u"]])
+            heading = lateral_heading(rf[_PEND_FLOAT["direction"]], np.radians(params["insertion_angle_deg"]), azimuth)
+            self._add_roots(plant, cls, ri[_PEND_INT["order"]], rf[_PEND_FLOAT["pos"]], heading, params,
+                            parent_segment=ri[_PEND_INT["parent_segment"]], parent_root=parents,
                             birth=t1 - carry, carry=carry)
-        if ready.any() or drop.any():
-            keep = ~(ready | drop)
-            self.pending = {k: v[..., keep] for k, v in p.items()}
+        done = ready | drop
+        if done.any():
+            keep = ~done
+            self.pend_float.keep(keep)
+            self.pend_int.keep(keep)
 
     # -- result ------------------------------------------------------------------------------------
     def result(self, duration: float) -> RootSystem:
@@ -391,7 +455,6 @@ class _Engine:
             cols[name] = np.concatenate(parts) if parts else np.zeros(0, dtype=_SEGMENT_DTYPES[_SEGMENT_FIELDS.index(name)])
             del parts
         if self.classes.has_lifespan and self.roots.n:
-            self.i = np.zeros((_NI, 0), dtype=np.int64)
             dead_roots = self._dead_roots(duration)
             alive = ~dead_roots[cols["root_id"]]
             if not alive.all():
@@ -405,9 +468,9 @@ class _Engine:
         columns = {
             "segment_id": np.arange(n, dtype=np.int64),
             "parent_id": cols["parent_id"].astype(np.int64, copy=False),
-            "plant_id": cols["plant_id"].astype(np.int64),
-            "root_id": cols["root_id"].astype(np.int64),
-            "order": cols["order"].astype(np.int64),
+            "plant_id": cols["plant_id"],
+            "root_id": cols["root_id"],
+            "order": cols["order"],
             "root_class": names[cols["class_code"]] if n else np.zeros(0, dtype=object),
         }
         for name in ("x0", "y0", "z0", "x1", "y1", "z1"):
