@@ -92,3 +92,61 @@ def cumulative_depth(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray)
     total = float(length.sum())
     return CumulativeDepth(depth_cm=depth, length_cm=np.minimum(cumulative, total) if depth.size else cumulative,
                            slope=slope, total_cm=total)
+
+
+def quantile_depths(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray, fractions, *,
+                    n_bins: int = 1024) -> list[float]:
+    """Exact depths above which each fraction of the root length lies, cm (NaN if there is no root length).
+
+    Same result as :meth:`CumulativeDepth.quantile_depth` of :func:`cumulative_depth`, but without
+    sorting all segments: the exact layer lengths of ``n_bins`` thin layers locate the layer holding
+    each quantile, and only the segments reaching into that layer are sorted.
+
+    Parameters
+    ----------
+    depth0, depth1, length : ndarray, shape (n,)
+        Segment end depths (cm, positive downward) and lengths (cm).
+    fractions : sequence of float
+        Fractions of the root length, 0-1.
+    n_bins : int
+        Number of thin layers of the first pass.
+    """
+    from .profile import depth_layer_lengths
+
+    total = float(length.sum())
+    if not length.size or total <= 0:
+        return [float("nan") for _ in fractions]
+    shallowest = float(min(depth0.min(), depth1.min()))
+    span = float(max(depth0.max(), depth1.max())) - shallowest
+    if span <= 0:
+        return [shallowest for _ in fractions]
+    h = span / n_bins
+    s0 = depth0 - shallowest
+    s1 = depth1 - shallowest
+    layers = depth_layer_lengths(s0, s1, length, layer_cm=h, n_layers=n_bins, bottom_cm=span)[:, 0]
+    cum = np.cumsum(layers)
+    top = np.minimum(s0, s1)
+    base = np.maximum(s0, s1)
+    out = []
+    for fraction in fractions:
+        target = float(fraction) * cum[-1]
+        k = min(int(np.searchsorted(cum, target, side="left")), n_bins - 1)
+        above = float(cum[k - 1]) if k > 0 else 0.0
+        a, b = k * h, (span if k == n_bins - 1 else (k + 1) * h)
+        near = np.flatnonzero((top <= b) & (base >= a))
+        t, u, w = top[near], base[near], length[near]
+        steep = u > t
+        with np.errstate(divide="ignore", invalid="ignore"):
+            density = np.where(steep, w / np.where(steep, u - t, 1.0), 0.0)
+        lo, hi = np.maximum(t, a), np.minimum(u, b)
+        # Horizontal segments belong to the layer their depth falls in (as in depth_layer_lengths).
+        flat_here = ~steep & (np.minimum(np.floor(t / h), n_bins - 1) == k)
+        piece = np.where(steep, np.clip(hi - lo, 0.0, None) * density, np.where(flat_here, w, 0.0))
+        keep = piece > 0
+        sub = cumulative_depth(lo[keep], np.where(steep, hi, lo)[keep], piece[keep])
+        if sub.total_cm <= 0:
+            out.append(shallowest + a)
+            continue
+        remaining = min(max((target - above) / sub.total_cm, 0.0), 1.0)
+        out.append(shallowest + sub.quantile_depth(remaining))
+    return out

@@ -30,7 +30,8 @@ from typing import Any
 import numpy as np
 
 from ..rootsystem import tip_mask
-from .depth_distribution import cumulative_depth
+from .depth_distribution import quantile_depths
+from .profile import depth_layer_lengths
 from .inputs import float_column, ground_area_from_metadata, int_column, positive_number, system_metadata
 from .profile import profile_area
 from .profile_model import fit_gale_grigal
@@ -119,12 +120,14 @@ def root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = 
     tips = tip_mask(parent, root_id)
     total = float(length.sum())
 
-    cumulative = cumulative_depth(depth0, depth1, length)
+    d50, d95 = quantile_depths(depth0, depth1, length, (0.5, 0.95))
     max_depth = float(max(depth0.max(), depth1.max())) if n else 0.0
     n_layers = max(1, int(np.ceil(max_depth / h))) if max_depth > 0 else 0
-    bottoms = np.arange(1, n_layers + 1) * h
-    beta, rms = (fit_gale_grigal(bottoms, cumulative.at(bottoms) / total) if total > 0 and n_layers
-                 else (float("nan"), float("nan")))
+    beta, rms = float("nan"), float("nan")
+    if total > 0 and n_layers:
+        layers = depth_layer_lengths(depth0, depth1, length, layer_cm=h, n_layers=n_layers)[:, 0]
+        below = layers.sum() - np.cumsum(layers)  # root length below each layer bottom
+        beta, rms = fit_gale_grigal(np.arange(1, n_layers + 1) * h, 1.0 - below / total)
 
     chains = root_chains(system)
     branches = branch_points(system, chains)
@@ -162,8 +165,8 @@ def root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = 
         "length_by_order_cm": {str(k): float(v) for k, v in enumerate(by_order)},
         "n_tips": int(tips.sum()),
         "max_depth_cm": max_depth,
-        "d50_depth_cm": cumulative.quantile_depth(0.5),
-        "d95_depth_cm": cumulative.quantile_depth(0.95),
+        "d50_depth_cm": d50,
+        "d95_depth_cm": d95,
         "width_cm": float(np.mean([q["width_cm"] for q in plants])) if plants else 0.0,
         "convex_hull_volume_cm3": float(np.mean([q["convex_hull_volume_cm3"] for q in plants])) if plants else 0.0,
         "mean_interbranch_distance_cm": mean_by_key(gaps, gap_order),

@@ -1,0 +1,141 @@
+"""``rootsim analyze``: RLD profile by depth layer and root traits of a grown or imported root system."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import re
+from pathlib import Path
+
+from ..errors import RootsimError
+
+COMMAND = "analyze"
+HELP = "RLD profile by depth and root traits (rooting depth, D50/D95, branching, topology) -> profile.csv, traits.json"
+ORDER = 30
+DESCRIPTION = """\
+Measure a root system as in the field and the lab. Reads DIR/segments.parquet (written by
+'rootsim grow' or 'rootsim import-rsml'; DIR may also be the file itself) and writes:
+
+  profile.csv   one row per soil layer from the surface down to the deepest root:
+                depth_top_cm, depth_bottom_cm, root_length_cm, rld_cm_per_cm3 (root
+                length density, cm root per cm3 soil = layer length / (layer thickness x
+                ground area)) and root_length_order_<k>_cm for each root order. Roots
+                crossing a layer boundary are split exactly at it.
+  traits.json   total length and length by order, tips, maximum rooting depth, D50/D95
+                (depths above which 50 % / 95 % of the root length lie), root system width,
+                convex hull volume, interbranch distance and insertion angle by lateral
+                order, Gale & Grigal beta (cumulative fraction 1 - beta^depth), Fitter's
+                topological indices per plant, and the ground area used.
+
+The ground area is the stand's (plant spacing x row spacing x plants, stored by
+'rootsim grow'). For imported data without a stand, give --area-cm2, or --box to count
+only the roots inside a vertical column (like a monolith; the area is then the box's).
+
+Examples:
+  rootsim analyze results/demo
+  rootsim analyze results/demo --layer-cm 10 --max-depth-cm 120
+  rootsim analyze imported/plant7 --box -10,10,-5,5
+"""
+
+
+def register(parser: argparse.ArgumentParser) -> None:
+    # Let box corners like "-10,10,-5,5" be values, not unknown options (argparse only knows "-10").
+    if hasattr(parser, "_negative_number_matcher"):
+        parser._negative_number_matcher = re.compile(r"^-\d[\d.,eE+-]*$|^-\.\d[\d.,eE+-]*$")
+    parser.add_argument("dir", metavar="DIR", help="results directory holding segments.parquet (or the file itself)")
+    parser.add_argument("--layer-cm", metavar="CM", default="5", help="soil layer thickness, cm (default 5)")
+    parser.add_argument("--area-cm2", metavar="A", default=None,
+                        help="ground area the roots belong to, cm² (default: from the stand layout)")
+    parser.add_argument("--box", metavar="XMIN,XMAX,YMIN,YMAX", default=None,
+                        help="count only roots inside this vertical column, cm; RLD uses its area "
+                             "(--box=-10,10,-5,5 also works)")
+    parser.add_argument("--max-depth-cm", metavar="D", default=None,
+                        help="bottom of the profile, cm (default: the deepest root, rounded up to a layer)")
+    parser.add_argument("--out-dir", metavar="DIR", default=None, help="where the two files go (default: DIR)")
+
+
+def _number(text, option: str, unit: str) -> float | None:
+    if text is None:
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not (math.isfinite(value) and value > 0):
+        raise RootsimError(f"{option} {text!r}: must be a number > 0 ({unit})")
+    return value
+
+
+def _box(text: str | None):
+    if text is None:
+        return None
+    parts = [p.strip() for p in text.split(",")]
+    try:
+        values = [float(p) for p in parts]
+    except ValueError:
+        values = []
+    if len(values) != 4 or not all(math.isfinite(v) for v in values):
+        raise RootsimError(f"--box {text!r}: give four numbers XMIN,XMAX,YMIN,YMAX in cm, e.g. --box -10,10,-5,5")
+    if not (values[1] > values[0] and values[3] > values[2]):
+        raise RootsimError(f"--box {text!r}: need XMIN < XMAX and YMIN < YMAX")
+    return tuple(values)
+
+
+def _out_dir(path: str) -> Path:
+    p = Path(path)
+    return p.parent if p.suffix == ".parquet" else p
+
+
+def run(args: argparse.Namespace) -> int:
+    from ..analysis import layer_profile, root_traits
+    from ..atomic import atomic_path, ensure_output_dir
+    from ..rootsystem import RootSystem
+
+    layer = _number(args.layer_cm, "--layer-cm", "cm")
+    area = _number(args.area_cm2, "--area-cm2", "cm²")
+    max_depth = _number(args.max_depth_cm, "--max-depth-cm", "cm")
+    box = _box(args.box)
+    if area is not None and box is not None:
+        raise RootsimError("give either --area-cm2 or --box, not both (with --box the area is the box's)")
+    system = RootSystem.read(args.dir)
+    profile = layer_profile(system, layer_cm=layer, area_cm2=area, box=box, max_depth_cm=max_depth)
+    traits = root_traits(system, layer_cm=layer, area_cm2=area, box=box)
+    traits["profile"] = {
+        "layer_cm": layer,
+        "max_depth_cm": float(profile["depth_bottom_cm"].iloc[-1]),
+        "box_cm": None if box is None else list(box),
+        "ground_area_cm2": profile.attrs["ground_area_cm2"],
+        "root_length_counted_cm": profile.attrs["root_length_counted_cm"],
+        "root_length_outside_profile_cm": profile.attrs["root_length_outside_profile_cm"],
+    }
+    traits["source"] = str(args.dir)
+    out = ensure_output_dir(args.out_dir if args.out_dir is not None else _out_dir(args.dir))
+    csv_path, json_path = out / "profile.csv", out / "traits.json"
+    with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json:
+        profile.to_csv(tmp_csv, index=False, float_format="%.10g")
+        tmp_json.write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+    print(summary_text(str(args.dir), traits, profile))
+    print(f"wrote {csv_path} and {json_path}")
+    return 0
+
+
+def _fmt(value, spec: str = ".1f", unit: str = "") -> str:
+    return "n/a" if value is None else f"{value:{spec}}{unit}"
+
+
+def summary_text(source: str, traits: dict, profile) -> str:
+    """A short human summary of the traits and the top of the profile."""
+    by_order = ", ".join(f"order {k}: {v:,.1f}" for k, v in traits["length_by_order_cm"].items())
+    lines = [
+        f"{source}: {traits['n_plants']} plant(s), {traits['n_segments']:,} segments, {traits['n_tips']:,} tips",
+        f"  root length {traits['total_length_cm']:,.1f} cm ({by_order})",
+        f"  rooting depth: max {traits['max_depth_cm']:.1f} cm, D50 {_fmt(traits['d50_depth_cm'], unit=' cm')}, "
+        f"D95 {_fmt(traits['d95_depth_cm'], unit=' cm')}; Gale & Grigal beta {_fmt(traits['gale_grigal_beta'], '.4f')}",
+        f"  width {traits['width_cm']:.1f} cm, convex hull {traits['convex_hull_volume_cm3']:,.0f} cm3 (mean per plant); "
+        f"topological index {_fmt(traits['mean_topological_index'], '.3f')}",
+    ]
+    rows = [f"{r.depth_top_cm:g}-{r.depth_bottom_cm:g} cm: {r.rld_cm_per_cm3:.3g}" for r in profile.head(6).itertuples()]
+    more = " ..." if len(profile) > 6 else ""
+    lines.append(f"  RLD, cm/cm3 (ground area {profile.attrs['ground_area_cm2']:,.0f} cm2): " + "; ".join(rows) + more)
+    return "\n".join(lines)
