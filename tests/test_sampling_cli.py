@@ -43,6 +43,12 @@ def test_cores_and_wall_written_with_analytic_values(results, capsys):
     assert hit[["x_left_cm", "depth_top_cm", "intersections"]].values.tolist() == [[0, 10, 1]]
     out = capsys.readouterr().out
     assert "cores" in out and "wall" in out and "RLD" in out
+    # Analytic: a 2 cm slab (|y| <= 1) holds the vertical root's top 20 cm and the part of the horizontal
+    # root (run (60, 10, 0), length 10 sqrt(37)) with |y| <= 1, a fifth of it: 2 sqrt(37).
+    assert main(["sample", str(results), "--wall", "0,-20,20,20,10", "--wall-slab-cm", "2"]) == 0
+    wall = pd.read_csv(results / "wall.csv")
+    assert (wall["slab_thickness_cm"] == 2).all()
+    assert wall["slab_root_length_cm"].sum() == pytest.approx(20 + 2 * math.sqrt(37), rel=1e-5)
 
 
 def test_core_grid_tube_and_projection(results):

@@ -149,15 +149,22 @@ def sample_projection(system: Any, *, grid_cm: float, plane: str = "xz", band_cm
     u_origin = left + grid_cm / 2
     v_origin = top + grid_cm / 2
     n_vertical_lines = _lines_in(left, right, u_origin, grid_cm)
-    seg3d = np.linalg.norm(p1 - p0, axis=1)
+    in_frame = np.flatnonzero((np.maximum(q0[:, 0], q1[:, 0]) >= left) & (np.minimum(q0[:, 0], q1[:, 0]) <= right)
+                              & (np.maximum(q0[:, 1], q1[:, 1]) >= top) & (np.minimum(q0[:, 1], q1[:, 1]) <= bottom))
+    q0, q1 = q0[in_frame], q1[in_frame]
+    seg3d = np.linalg.norm(p1[in_frame] - p0[in_frame], axis=1)
+    v_min = np.minimum(q0[:, 1], q1[:, 1])
+    v_max = np.maximum(q0[:, 1], q1[:, 1])
     zeros = np.zeros((len(q0), 1))
     a3 = np.hstack([q0, zeros])
     b3 = np.hstack([q1, zeros])
     rows = []
     for band_id, (v_lo, v_hi) in enumerate(zip(edges[:-1], edges[1:])):
-        t_in, t_out = segment_box_parameters(a3, b3, np.array([left, v_lo, -1.0]), np.array([right, v_hi, 1.0]))
-        keep = np.flatnonzero(t_out > t_in)
-        ti, to = t_in[keep], t_out[keep]
+        near = np.flatnonzero((v_max >= v_lo) & (v_min <= v_hi))
+        t_in, t_out = segment_box_parameters(a3[near], b3[near], np.array([left, v_lo, -1.0]), np.array([right, v_hi, 1.0]))
+        hit = t_out > t_in
+        keep = near[hit]
+        ti, to = t_in[hit], t_out[hit]
         d = q1[keep] - q0[keep]
         ca = q0[keep] + ti[:, None] * d
         cb = q0[keep] + to[:, None] * d
