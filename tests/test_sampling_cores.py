@@ -176,3 +176,11 @@ def test_core_grid_without_layout_is_an_error():
         core_grid(lines_system([[0, 0, 0]], [[0, 0, -1]]), diameter_cm=4, depth_cm=60)
     with pytest.raises(SamplingError, match="row_spacing_cm"):
         core_grid(lines_system([[0, 0, 0]], [[0, 0, -1]], metadata=_stand([(0, 0), (20, 0)])), diameter_cm=4, depth_cm=60)
+
+
+def test_root_lying_on_an_increment_boundary_is_counted_once():
+    # Additivity over a partition: a horizontal root exactly at 10 cm deep belongs to one increment
+    # (the deeper one, half-open increments); its chord through the axis is the diameter, 5 cm.
+    system = lines_system([[-10.0, 0.0, -10.0]], [[10.0, 0.0, -10.0]])
+    df = sample_cores(system, cores=["0,0,5,30,10"])
+    assert df["root_length_cm"].tolist() == pytest.approx([0.0, 5.0, 0.0])

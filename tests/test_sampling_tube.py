@@ -105,3 +105,11 @@ def test_tube_leaving_a_pot_is_refused():
         sample_tube(system, tubes=["0,0,0,45,5.6,0.2"])
     with pytest.raises(SamplingError, match="outside the pot"):
         sample_tube(system, tubes=["0,0,45,30,5.6,0.2"])  # end point 21 cm from the axis
+
+
+def test_root_on_a_window_boundary_is_counted_once():
+    # A horizontal root exactly at 10 cm along a vertical tube, passing at 2.9 cm from the axis:
+    # the annulus chord 2 sqrt(3^2 - 2.9^2) appears in one window only (half-open windows).
+    df = sample_tube(lines_system([[-10.0, 2.9, -10.0]], [[10.0, 2.9, -10.0]]), tubes=[vertical_tube()])
+    assert df["visible_length_cm"].sum() == pytest.approx(annulus_chord(2.9, R, R + F))
+    assert (df["visible_length_cm"] > 0).sum() == 1

@@ -113,3 +113,13 @@ def test_wall_outside_a_rhizobox_is_refused():
         sample_wall(system, walls=["0,-20,15,50,5"])
     with pytest.raises(SamplingError, match="below the rhizobox bottom"):
         sample_wall(system, walls=["0,-15,15,60,5"])
+
+
+def test_roots_on_cell_edges_are_counted_once():
+    # Additivity over a partition: a vertical root on the edge x = 0 between two cells and a root
+    # along x exactly at the 10 cm row boundary each count once in the slab totals (20 cm and 40 cm).
+    system = lines_system([[0.0, 0.1, 0.0], [-20.0, 0.1, -10.0]], [[0.0, 0.1, -20.0], [20.0, 0.1, -10.0]])
+    df = sample_wall(system, walls=["0,-20,20,20,10"])
+    assert df["slab_root_length_cm"].sum() == pytest.approx(60.0)
+    vertical = df[(df["x_left_cm"] == 0)]
+    assert vertical["slab_root_length_cm"].tolist() == pytest.approx([10.0, 20.0])

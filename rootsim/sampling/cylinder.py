@@ -110,6 +110,10 @@ def axial_parameters(p0: np.ndarray, p1: np.ndarray, *, axis_point, axis_directi
 def linear_parameters(s0: np.ndarray, ds: np.ndarray, s_min, s_max) -> tuple[np.ndarray, np.ndarray]:
     """Parameter interval where ``s_min <= s0 + t ds <= s_max``, clipped to [0, 1] (arrays broadcast).
 
+    A segment with ``ds == 0`` (lying in a plane ``s = const``) counts as inside for
+    ``s_min <= s0 < s_max``: half-open, so a root lying exactly on the boundary between two
+    adjacent ranges (core increments, tube windows) is counted in one of them, the deeper one.
+
     Returns
     -------
     t_enter, t_exit : ndarray
@@ -121,7 +125,7 @@ def linear_parameters(s0: np.ndarray, ds: np.ndarray, s_min, s_max) -> tuple[np.
         ta = (smin - s0) / ds
         tb = (smax - s0) / ds
     flat = ds == 0.0
-    inside = (s0 >= smin) & (s0 <= smax)
+    inside = (s0 >= smin) & (s0 < smax)
     lo = np.where(flat, np.where(inside, 0.0, np.inf), np.minimum(ta, tb))
     hi = np.where(flat, np.where(inside, 1.0, -np.inf), np.maximum(ta, tb))
     return np.maximum(lo, 0.0), np.minimum(hi, 1.0)

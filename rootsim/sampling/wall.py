@@ -8,7 +8,8 @@ sectioning", Trans. AIME 197:81-87). Root systems are not isotropic, so the esti
 biased by orientation: roots parallel to the face are never counted, roots normal to it
 give ``Q_A = L_V`` (estimate twice the truth). The true RLD of the slab
 ``|y - Y| <= thickness/2`` behind each cell is reported beside the estimate, by exact
-segment/box clipping (:func:`rootsim.geometry.segment_box_length`).
+segment/box clipping (:func:`rootsim.geometry.segment_box_length`); a root lying exactly in the
+plane between two cells is given to one of them (half-open cells).
 
 A segment is counted as crossing when its end points lie on different sides of the plane
 under the half-open rule ``y < Y`` versus ``y >= Y``, so a root made of several segments that
@@ -197,8 +198,18 @@ def _slab_lengths(p0: np.ndarray, p1: np.ndarray, wall: Wall, x_edges: np.ndarra
         if sel.size == 0:
             continue
         lo[:, 2], hi[:, 2] = -bottom, -top
+        # Roots lying exactly in a plane between two cells belong to one of them (half-open cells,
+        # as for the intersection counts): drop flat segments from rows and columns they only touch.
+        flat_z = a[sel, 2] == b[sel, 2]
+        sel = sel[~flat_z | (_bin(-a[sel, 2], d_edges) == row)]
         chunk = max(1, _BROADCAST_ELEMENTS // nx)
         for start in range(0, sel.size, chunk):
             part = sel[start:start + chunk]
-            out[row] += segment_box_length(a[part, None, :], b[part, None, :], lo[None], hi[None]).sum(axis=0)
+            lengths = segment_box_length(a[part, None, :], b[part, None, :], lo[None], hi[None])
+            flat_x = np.flatnonzero(a[part, 0] == b[part, 0])
+            owner = _bin(a[part[flat_x], 0], x_edges)
+            keep = np.zeros((flat_x.size, nx), dtype=bool)
+            keep[np.flatnonzero(owner >= 0), owner[owner >= 0]] = True
+            lengths[flat_x] *= keep
+            out[row] += lengths.sum(axis=0)
     return out
