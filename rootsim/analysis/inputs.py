@@ -25,9 +25,20 @@ def _column(system: Any, name: str) -> np.ndarray:
     return values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
 
 
+def _validated(system: Any) -> bool:
+    from ..rootsystem import RootSystem
+
+    return isinstance(system, RootSystem)  # columns were validated when it was built or read
+
+
 def float_column(system: Any, name: str) -> np.ndarray:
-    """Column ``name`` as a float64 array, shape (n,); raises on missing columns or NaN/inf values."""
+    """Column ``name`` as a float64 array, shape (n,); raises on missing columns or NaN/inf values.
+
+    Columns of a :class:`rootsim.RootSystem` are already validated and are returned as stored.
+    """
     values = _column(system, name)
+    if _validated(system) and values.dtype == np.float64:
+        return values
     try:
         arr = np.asarray(values, dtype=np.float64)
     except (TypeError, ValueError):

@@ -30,13 +30,16 @@ def _spacing(voxel_cm) -> np.ndarray:
     return spacing
 
 
-def _grid(p0: np.ndarray, p1: np.ndarray, spacing: np.ndarray, bounds) -> tuple[np.ndarray, np.ndarray]:
-    """Grid origin (3,) and voxel counts (3,) for the given bounds, or aligned to the data if None."""
+def _grid(start: list, end: list, spacing: np.ndarray, bounds) -> tuple[np.ndarray, np.ndarray]:
+    """Grid origin (3,) and voxel counts (3,) for the given bounds, or aligned to the data if None.
+
+    ``start`` and ``end`` are the x, y, z columns of the segment end points.
+    """
     if bounds is None:
-        if len(p0) == 0:
+        if len(start[0]) == 0:
             return np.zeros(3), np.ones(3, dtype=np.int64)
-        lo = np.minimum(p0.min(axis=0), p1.min(axis=0))
-        hi = np.maximum(p0.max(axis=0), p1.max(axis=0))
+        lo = np.array([min(a.min(), b.min()) for a, b in zip(start, end)])
+        hi = np.array([max(a.max(), b.max()) for a, b in zip(start, end)])
         origin = np.floor(lo / spacing) * spacing
         top = np.ceil(hi / spacing) * spacing
         counts = np.maximum(np.round((top - origin) / spacing).astype(np.int64), 1)
@@ -135,23 +138,35 @@ def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None) -> tuple[np.ndarray, n
     inside the grid.
     """
     spacing = _spacing(voxel_cm)
-    p0 = np.column_stack([float_column(system, c) for c in ("x0", "y0", "z0")])
-    p1 = np.column_stack([float_column(system, c) for c in ("x1", "y1", "z1")])
+    start = [float_column(system, c) for c in ("x0", "y0", "z0")]
+    end = [float_column(system, c) for c in ("x1", "y1", "z1")]
     length = float_column(system, "length_cm")
-    origin, counts = _grid(p0, p1, spacing, bounds)
+    origin, counts = _grid(start, end, spacing, bounds)
     nx, ny, nz = (int(c) for c in counts)
-    total = np.zeros(nx * ny * nz)
-    if len(p0):
-        t_enter, t_exit = segment_box_parameters(p0, p1, origin, origin + counts * spacing)
+    size = nx * ny * nz
+    total = np.zeros(size)
+    if len(length):
+        # Fast path: both end points in the same voxel (the usual case) -> the whole length goes there.
+        same = np.ones(len(length), dtype=bool)
+        flat = np.zeros(len(length))
+        for a in range(3):
+            c0 = np.floor((start[a] - origin[a]) / spacing[a])
+            c1 = np.floor((end[a] - origin[a]) / spacing[a])
+            same &= (c0 == c1) & (c0 >= 0) & (c0 < counts[a])
+            flat = flat * counts[a] + c0
+        total = np.bincount(np.where(same, flat, size).astype(np.int64), weights=length, minlength=size + 1)[:size]
+        rows = np.flatnonzero(~same)
+        q0 = np.column_stack([c[rows] for c in start])
+        q1 = np.column_stack([c[rows] for c in end])
+        t_enter, t_exit = segment_box_parameters(q0, q1, origin, origin + counts * spacing)
         inside = t_exit >= t_enter
-        rows = np.flatnonzero(inside)
-        q0, q1, te, tx = p0[rows], p1[rows], t_enter[rows], t_exit[rows]
+        rows, q0, q1, te, tx = rows[inside], q0[inside], q1[inside], t_enter[inside], t_exit[inside]
         owner, ta, tb = grid_crossing_pieces(q0, q1, te, tx, origin, spacing)
         mid = 0.5 * (ta + tb)
         point = q0[owner] + mid[:, None] * (q1[owner] - q0[owner])
         cell = np.floor((point - origin) / spacing).astype(np.int64)
         np.clip(cell, 0, counts - 1, out=cell)
-        flat = (cell[:, 0] * ny + cell[:, 1]) * nz + cell[:, 2]
-        total = np.bincount(flat, weights=(tb - ta) * length[rows][owner], minlength=nx * ny * nz)
+        piece_flat = (cell[:, 0] * ny + cell[:, 1]) * nz + cell[:, 2]
+        total += np.bincount(piece_flat, weights=(tb - ta) * length[rows][owner], minlength=size)
     rld = total.reshape(nx, ny, nz) / float(np.prod(spacing))
     return rld, origin.astype(np.float64), spacing
