@@ -5,6 +5,8 @@ import re
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from rootsim.errors import SamplingError
 from rootsim.sampling import Core, core_grid, parse_core, sample_cores
@@ -184,3 +186,19 @@ def test_root_lying_on_an_increment_boundary_is_counted_once():
     system = lines_system([[-10.0, 0.0, -10.0]], [[10.0, 0.0, -10.0]])
     df = sample_cores(system, cores=["0,0,5,30,10"])
     assert df["root_length_cm"].tolist() == pytest.approx([0.0, 5.0, 0.0])
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(0, 60), long_share=st.floats(0, 1),
+       x=st.floats(-20, 20), y=st.floats(-20, 20), diameter=st.floats(0.5, 15), increment=st.floats(1, 40))
+def test_index_never_misses_a_segment(seed, n, long_share, x, y, diameter, increment):
+    # Brute force over all segments (no index) on random short and long segments, any core position.
+    rng = np.random.default_rng(seed)
+    p0 = rng.uniform([-25, -25, -60], [25, 25, 0], (n, 3))
+    scale = np.where(rng.random(n) < long_share, 40.0, 2.0)[:, None]
+    p1 = p0 + rng.normal(0, 1, (n, 3)) * scale
+    core = Core(x_cm=x, y_cm=y, diameter_cm=diameter, depth_cm=50, increment_cm=increment)
+    df = sample_cores(lines_system(p0, p1), cores=[core])
+    brute = segment_cylinder_length(p0, p1, axis_point=[x, y, 0], axis_direction=[0, 0, -1], radius_cm=diameter / 2,
+                                    axial_min_cm=0.0, axial_max_cm=50.0).sum()
+    assert df["root_length_cm"].sum() == pytest.approx(brute, rel=1e-9, abs=1e-9)
