@@ -93,3 +93,29 @@ def length_below(df: pd.DataFrame, depth_cm: float) -> float:
     frac = np.where(span > 0, np.clip((plane - lo) / np.where(span > 0, span, 1.0), 0.0, 1.0),
                     (lo < plane).astype(float))
     return float(np.sum(length * frac))
+
+
+def first_segments(df: pd.DataFrame) -> pd.DataFrame:
+    """The first segment of every root (its parent is on another root, or it starts at the plant),
+    with the parent segment's chord direction in columns ``parent_dx, parent_dy, parent_dz``."""
+    ids = df["segment_id"].to_numpy()
+    assert np.array_equal(ids, np.arange(len(df))), "segment ids must be 0..n-1 in row order"
+    parent = df["parent_id"].to_numpy()
+    root = df["root_id"].to_numpy()
+    has_parent = parent >= 0
+    first = ~has_parent
+    first[has_parent] = root[parent[has_parent]] != root[has_parent]
+    out = df[first].copy()
+    d = directions(df)
+    p = out["parent_id"].to_numpy()
+    pd_ = np.where((p >= 0)[:, None], d[np.maximum(p, 0)], np.nan)
+    out["parent_dx"], out["parent_dy"], out["parent_dz"] = pd_.T
+    return out
+
+
+def insertion_angles_deg(df: pd.DataFrame, firsts: pd.DataFrame) -> np.ndarray:
+    """Angle (deg) between each lateral's first segment and its parent segment (common practice)."""
+    d = directions(firsts)
+    p = firsts[["parent_dx", "parent_dy", "parent_dz"]].to_numpy()
+    cross = np.linalg.norm(np.cross(d, p), axis=1)
+    return np.degrees(np.arctan2(cross, np.sum(d * p, axis=1)))
