@@ -28,6 +28,7 @@ __all__ = [
     "FIGURE_FORMATS",
     "plot_rld_profile",
     "plot_projection",
+    "projection_paths",
     "profile_order_rld",
     "save_figure",
 ]
@@ -257,6 +258,76 @@ def _projection_extent(system, margin_fraction: float = 0.04) -> tuple[float, fl
     return x_min, x_max, max(depth, 1e-6)
 
 
+def projection_paths(system, *, width_ratio: float = 1.1, max_vertices: int = 200_000) -> tuple[list, np.ndarray]:
+    """Segments in the x–depth plane as a few long NaN-separated polylines, one radius each.
+
+    Drawing millions of separate two-point lines is slow in matplotlib (one path each), so the
+    segments are regrouped: roots as chains of shared points
+    (:func:`rootsim.formats.polylines.polylines_from_segments`), cut where the radius moves to
+    another bin of relative width ``width_ratio``, and the pieces of one radius bin joined into
+    one vertex array with a NaN row between pieces (matplotlib breaks a line at NaN vertices).
+    Arrays longer than ``max_vertices`` are split at piece boundaries.
+
+    Parameters
+    ----------
+    system : RootSystem or pandas.DataFrame
+        Columns ``segment_id parent_id root_id x0 y0 z0 x1 y1 z1 radius_cm length_cm``.
+    width_ratio : float
+        Ratio between consecutive radius bins (> 1).
+    max_vertices : int
+        Most vertices per array.
+
+    Returns
+    -------
+    paths : list of ndarray, shape (m_i, 2)
+        Vertices (x cm, depth cm), NaN rows between pieces; thinnest bin first.
+    radius_cm : ndarray, shape (len(paths),)
+        Length-weighted mean radius of the segments in each array's bin, cm.
+    """
+    from .formats.polylines import polylines_from_segments
+
+    n = len(np.asarray(system["radius_cm"]))
+    if n == 0:
+        return [], np.zeros(0)
+    lines = polylines_from_segments(system)
+    xy = np.column_stack([lines.points[:, 0], -lines.points[:, 2]])
+    seg = lines.segment_order  # segment rows in polyline order
+    radius = np.asarray(system["radius_cm"], dtype=float)[seg]
+    weight = np.asarray(system["length_cm"], dtype=float)[seg] + 1e-12
+    size_bin = np.floor(np.log(np.maximum(radius, 1e-9)) / np.log(width_ratio)).astype(np.int64)
+    begins_line = np.zeros(n, dtype=bool)
+    begins_line[lines.segment_offsets[:-1]] = True
+    begins_piece = begins_line.copy()
+    begins_piece[1:] |= size_bin[1:] != size_bin[:-1]
+    # sorted segment k runs from point k + c_k - 1 to point k + c_k (c_k: polylines begun up to k)
+    end_point = np.arange(n) + np.cumsum(begins_line)
+    first = np.flatnonzero(begins_piece)
+    last = np.append(first[1:], n) - 1
+    piece_bin = size_bin[first]
+    by_bin = np.argsort(piece_bin, kind="stable")
+    first_point = end_point[first][by_bin] - 1
+    n_vertices = end_point[last][by_bin] - first_point + 1
+    piece_bin = piece_bin[by_bin]
+    # gather the vertices of all pieces, bin by bin, each piece followed by one NaN row
+    rows = n_vertices + 1
+    out_start = np.cumsum(rows) - rows
+    within = np.arange(int(rows.sum())) - np.repeat(out_start, rows)
+    index = np.repeat(first_point, rows) + within
+    vertices = xy[np.minimum(index, len(xy) - 1)]
+    vertices[within == np.repeat(n_vertices, rows)] = np.nan
+    # cut into arrays: a new one where the bin changes or the current one would pass max_vertices
+    bins, bin_rank = np.unique(piece_bin, return_inverse=True)
+    bin_first = np.searchsorted(piece_bin, bins)
+    within_bin = out_start - out_start[bin_first][bin_rank]
+    key = bin_rank * (int(rows.sum()) + 1) + within_bin // max(int(max_vertices), 1)
+    cut = np.flatnonzero(np.diff(key)) + 1
+    paths = np.split(vertices, out_start[cut])
+    bin_radius = np.bincount(size_bin - bins[0], weights=radius * weight) / np.maximum(
+        np.bincount(size_bin - bins[0], weights=weight), 1e-300)
+    path_bin = np.append(piece_bin[0], piece_bin[cut])
+    return paths, bin_radius[path_bin - bins[0]]
+
+
 def plot_projection(
     system,
     *,
@@ -269,9 +340,10 @@ def plot_projection(
     """The root system projected on the x–z plane, as the glass face of a rhizobox shows it.
 
     Every segment is drawn as a straight line from (x0, depth0) to (x1, depth1), depth = -z,
-    in one :class:`matplotlib.collections.LineCollection`. Line width is the segment diameter at
-    the figure's true scale (times ``width_scale``), at least ``MIN_LINE_WIDTH_PT`` points; thick
-    segments are drawn last so they stay on top. The view covers the container (rhizobox width
+    in one :class:`matplotlib.collections.LineCollection` (segments joined into few long
+    polylines, see :func:`projection_paths`). Line width is the segment diameter at the
+    figure's true scale (times ``width_scale``; radii binned in 10 % steps), at least
+    ``MIN_LINE_WIDTH_PT`` points; thick roots are drawn last so they stay on top. The view covers the container (rhizobox width
     or pot diameter and depth) when the metadata give one, else the roots plus a margin.
 
     Parameters
@@ -291,7 +363,7 @@ def plot_projection(
     -------
     matplotlib.figure.Figure
         One Axes, x = horizontal position (cm), y = depth (cm, increasing downward), equal
-        aspect; ``ax.collections[0]`` is the LineCollection of the segments.
+        aspect; ``ax.collections[0]`` is the LineCollection of the roots.
     """
     from matplotlib.collections import LineCollection
 
@@ -313,19 +385,12 @@ def plot_projection(
     if title:
         ax.set_title(title)
 
-    radius = np.asarray(system["radius_cm"], dtype=float)
-    draw = np.argsort(radius, kind="stable")  # thin first, thick on top
-    segs = np.empty((radius.size, 2, 2))
-    segs[:, 0, 0] = np.asarray(system["x0"], float)[draw]
-    segs[:, 0, 1] = -np.asarray(system["z0"], float)[draw]
-    segs[:, 1, 0] = np.asarray(system["x1"], float)[draw]
-    segs[:, 1, 1] = -np.asarray(system["z1"], float)[draw]
-    collection = LineCollection(segs, colors=root_colour, capstyle="round", joinstyle="round")
-    ax.add_collection(collection)
-    # true-scale width: points per cm from the final axes size (after layout and equal aspect)
+    # true-scale width: points per cm from the final axes size (layout and equal aspect done
+    # before the roots are added, so the draw is cheap and the roots do not change the layout)
     fig.canvas.draw()
-    bbox = ax.get_window_extent()
-    points_per_cm = bbox.width / fig.dpi * 72.0 / (x_max - x_min)
-    widths = np.maximum(2.0 * radius[draw] * points_per_cm * width_scale, MIN_LINE_WIDTH_PT)
-    collection.set_linewidths(widths)
+    points_per_cm = ax.get_window_extent().width / fig.dpi * 72.0 / (x_max - x_min)
+    paths, radius = projection_paths(system)
+    widths = np.maximum(2.0 * radius * points_per_cm * width_scale, MIN_LINE_WIDTH_PT)
+    ax.add_collection(LineCollection(paths, colors=root_colour, linewidths=widths, capstyle="round",
+                                     joinstyle="round"))
     return fig

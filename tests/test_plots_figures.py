@@ -166,18 +166,53 @@ def test_projection_darkens_pixels_on_the_root_only(tmp_path):
     assert dark == pytest.approx(expected, rel=0.15)
 
 
-def test_projection_line_width_is_true_scale_and_roots_in_one_collection():
+def drawn_segments(collection) -> np.ndarray:
+    """Every straight piece the collection draws, rows (x_a, y_a, x_b, y_b), NaN breaks skipped."""
+    pieces = []
+    for path in collection.get_paths():
+        v = path.vertices
+        pair = np.hstack([v[:-1], v[1:]])
+        pieces.append(pair[np.all(np.isfinite(pair), axis=1)])
+    return np.vstack(pieces) if pieces else np.zeros((0, 4))
+
+
+def canonical(rows: np.ndarray) -> np.ndarray:
+    """Segments as sorted rows with the two end points in lexicographic order (direction-free)."""
+    a, b = rows[:, :2], rows[:, 2:]
+    swap = (a[:, 0] > b[:, 0]) | ((a[:, 0] == b[:, 0]) & (a[:, 1] > b[:, 1]))
+    out = np.where(swap[:, None], np.hstack([b, a]), rows).round(9)
+    return out[np.lexsort(out.T[::-1])]
+
+
+def test_projection_line_width_is_true_scale():
     system = vertical_root_with_lateral(radius_cm=0.5, lateral_length_cm=10.0,
                                         metadata={"container": {"kind": "pot", "diameter_cm": 30.0, "depth_cm": 30.0}})
     fig = plot_projection(system)
     ax = fig.axes[0]
     (collection,) = ax.collections
-    assert len(collection.get_segments()) == len(system)
     # width in points = diameter (cm) * points per cm of the axes (72 points per inch, definition)
     points_per_cm = ax.get_window_extent().width / fig.dpi * 72 / 30.0
-    widths = np.sort(collection.get_linewidths())
-    np.testing.assert_allclose(widths[-1], 1.0 * points_per_cm, rtol=1e-6)
-    np.testing.assert_allclose(widths[0], 0.5 * points_per_cm, rtol=1e-6)
+    widths = collection.get_linewidths()
+    np.testing.assert_allclose(widths, [0.5 * points_per_cm, 1.0 * points_per_cm], rtol=1e-9)  # thin drawn first
+
+
+def test_projection_draws_exactly_the_segments_projected():
+    # random tapering roots: the drawn pieces are the segments' (x, -z) end points, each once
+    rng = np.random.default_rng(3)
+    base = vertical_root_with_lateral(n_main=40, depth_cm=30.0, lateral_length_cm=12.0)
+    cols = {c: np.array(base[c], copy=True) for c in base.columns}
+    n = len(base)
+    jitter = rng.normal(scale=0.3, size=n)
+    cols["x1"] = cols["x1"] + jitter
+    cols["x0"][1:] = np.where(cols["parent_id"][1:] == np.arange(n - 1), cols["x1"][:-1], cols["x0"][1:])
+    cols["x0"][-1] = cols["x1"][cols["parent_id"][-1]]  # the lateral still starts at its parent segment
+    cols["radius_cm"] = rng.uniform(0.01, 0.2, size=n)  # many radius bins: roots cut into pieces
+    system = RootSystem(cols, {})
+    (collection,) = plot_projection(system).axes[0].collections
+    expected = np.column_stack([cols["x0"], -cols["z0"], cols["x1"], -cols["z1"]])
+    np.testing.assert_allclose(canonical(drawn_segments(collection)), canonical(expected), atol=1e-9)
+    # thin first, thick on top (drawing order follows the radius)
+    assert np.all(np.diff(collection.get_linewidths()) >= 0)
 
 
 def test_projection_of_empty_system_is_plain_soil():
