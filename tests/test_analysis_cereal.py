@@ -1,0 +1,45 @@
+"""The shipped cereal-like architecture gives a crop-like vertical root distribution."""
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import rootsim
+from rootsim.analysis import layer_profile, root_traits
+
+SPEC = Path(__file__).resolve().parents[1] / "params" / "cereal_fibrous.toml"
+
+
+@pytest.fixture(scope="module")
+def cereal_plant():
+    spec = rootsim.load_spec(SPEC)
+    try:  # one plant of the stand keeps the test quick; the architecture is unchanged
+        spec = spec.model_copy(update={"stand": spec.stand.model_copy(update={"rows": 1, "plants_per_row": 1})})
+    except AttributeError:
+        pass
+    return rootsim.grow(spec, progress=False)
+
+
+def test_gale_grigal_beta_is_crop_like(cereal_plant):
+    # Jackson et al. 1996 (Oecologia 108:389-411, doi:10.1007/BF00333714) give beta of about 0.961 for crops,
+    # with biome values between about 0.91 (tundra) and 0.98 (deserts, temperate coniferous forest); values
+    # from memory. A 60-day cereal stand should lie in the crop/grassland part of that range.
+    traits = root_traits(cereal_plant)
+    assert 0.94 < traits["gale_grigal_beta"] < 0.98
+    assert traits["d50_depth_cm"] < traits["d95_depth_cm"] < traits["max_depth_cm"]
+
+
+def test_profile_of_grown_plant_conserves_length(cereal_plant):
+    # Exact clipping: the layers (surface down to the deepest root) hold all root length below the surface;
+    # the length above it (if any) comes independently from Liang-Barsky clipping (rootsim.geometry).
+    from rootsim.geometry import segment_box_length
+
+    profile = layer_profile(cereal_plant, layer_cm=10)
+    p0 = np.column_stack([cereal_plant[f"{a}0"] for a in "xyz"])
+    p1 = np.column_stack([cereal_plant[f"{a}1"] for a in "xyz"])
+    big = 1e7
+    above = segment_box_length(p0, p1, np.array([-big, -big, 0.0]), np.array([big, big, big])).sum()
+    total = cereal_plant["length_cm"].sum()
+    assert profile["root_length_cm"].sum() == pytest.approx(total - above, rel=1e-9)
+    assert np.all(profile["rld_cm_per_cm3"] >= 0)
