@@ -78,6 +78,7 @@ def test_core_grid_tube_and_projection(results):
     (["--wall", "0,10,-10,20,5"], "XMIN (10) must be less than XMAX (-10)"),
     (["--wall", "0,-10,10,20,x"], "CELL must be a number"),
     (["--tube", "0,0,95,30,2,0.5"], "ANGLE_FROM_VERTICAL"),
+    (["--tube", "0,0,30,30,2,0.5", "--tube-view-deg", "0"], "view angle"),
     (["--projection-grid-cm", "0"], "--projection-grid-cm must be > 0"),
     (["--projection-grid-cm", "2", "--projection-band-cm", "3"], "whole multiple"),
     ([], "nothing to sample"),

@@ -113,3 +113,49 @@ def test_root_on_a_window_boundary_is_counted_once():
     df = sample_tube(lines_system([[-10.0, 2.9, -10.0]], [[10.0, 2.9, -10.0]]), tubes=[vertical_tube()])
     assert df["visible_length_cm"].sum() == pytest.approx(annulus_chord(2.9, R, R + F))
     assert (df["visible_length_cm"] > 0).sum() == 1
+
+
+@pytest.mark.parametrize("view, seen", [(120.0, {0, 30, 59, -45}), (240.0, {0, 30, 59, 100, -45}),
+                                         (360.0, {0, 30, 59, 100, 170, -45})])
+def test_view_sector_of_a_vertical_tube(view, seen):
+    # Analytic: vertical roots at 2.9 cm from the axis, at angles phi around it from the +x side, are
+    # seen over the whole window exactly when |phi| <= view / 2.
+    angles = [0, 30, 59, 100, 170, -45]
+    phi = np.radians(angles)
+    xy = 2.9 * np.column_stack([np.cos(phi), np.sin(phi)])
+    p0 = np.column_stack([xy, np.zeros(len(phi))])
+    p1 = np.column_stack([xy, np.full(len(phi), -50.0)])
+    df = sample_tube(lines_system(p0, p1), tubes=[vertical_tube(view_angle_deg=view)])
+    assert df["visible_length_cm"].to_numpy() == pytest.approx(5.0 * len(seen))
+    assert df["window_area_cm2"].to_numpy() == pytest.approx(view / 360 * math.pi * 2 * R * 5)
+    assert df["rld_estimate_cm_per_cm3"].to_numpy() == pytest.approx(5.0 * len(seen) / (view / 360 * math.pi * 2 * R * 5 * F))
+
+
+def test_half_view_cuts_a_chord_in_half():
+    # Analytic: with the +x half in view (180 degrees), a root along x through y = 1.5 shows only the
+    # x >= 0 half of its annulus chord; a root along y at x = 1.5 shows all of it.
+    tube = vertical_tube(view_angle_deg=180.0)
+    along_x = sample_tube(lines_system([[-10.0, 1.5, -12.0]], [[10.0, 1.5, -12.0]]), tubes=[tube])
+    along_y = sample_tube(lines_system([[1.5, -10.0, -12.0]], [[1.5, 10.0, -12.0]]), tubes=[tube])
+    assert along_x["visible_length_cm"].sum() == pytest.approx(annulus_chord(1.5, R, R + F) / 2)
+    assert along_y["visible_length_cm"].sum() == pytest.approx(annulus_chord(1.5, R, R + F))
+
+
+def test_upper_side_of_an_inclined_tube():
+    # A root parallel to a 45-degree tube, 2.9 cm off the axis on its upper side, is seen in a 90-degree
+    # view; the same root on the lower side is not.
+    a = math.radians(45)
+    axis = np.array([math.sin(a), 0.0, -math.cos(a)])
+    up = np.array([math.cos(a), 0.0, math.sin(a)])
+    tube = Tube(x_cm=0, y_cm=0, angle_from_vertical_deg=45, length_cm=40, outer_diameter_cm=2 * R,
+                depth_of_field_cm=F, window_cm=10, view_angle_deg=90)
+    for side, expected in ((1.0, 10.0), (-1.0, 0.0)):
+        p0, p1 = 10 * axis + side * 2.9 * up, 30 * axis + side * 2.9 * up
+        df = sample_tube(lines_system([p0], [p1]), tubes=[tube])
+        assert df["visible_length_cm"].tolist() == pytest.approx([0.0, expected, expected, 0.0])
+
+
+@pytest.mark.parametrize("view", [0.0, -10.0, 361.0])
+def test_bad_view_angle(view):
+    with pytest.raises(SamplingError, match="view angle"):
+        parse_tube("0,0,30,50,5.6,0.2", view_angle_deg=view)

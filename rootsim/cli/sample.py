@@ -30,7 +30,8 @@ All lengths in cm; x, y horizontal; depth positive downward from the soil surfac
   --tube X,Y,ANGLE,LENGTH,OUTER_DIAMETER,DEPTH_OF_FIELD
                                             a minirhizotron tube entering at (X, Y), ANGLE degrees
                                             from vertical (tilted toward +x) -> tube.csv; windows of
-                                            --tube-window-cm along the tube; estimate visible length
+                                            --tube-window-cm along the tube (--tube-view-deg: part
+                                            of the circumference seen); estimate visible length
                                             / (window area x depth of field)
   --projection-grid-cm G                    line-intersect count of the roots projected on a face
                                             (x-z by default) with a G-cm grid -> projection.csv;
@@ -60,6 +61,8 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="a minirhizotron tube, cm and degrees from vertical (repeatable)")
     parser.add_argument("--tube-window-cm", metavar="CM", type=float, default=None,
                         help="length of the viewing windows along the tube (default 5)")
+    parser.add_argument("--tube-view-deg", metavar="DEG", type=float, default=360.0,
+                        help="part of the tube circumference seen, centred on the upper side (default 360 = all)")
     parser.add_argument("--tube-reference-cm", metavar="CM", type=float, default=None,
                         help="thickness of the soil shell around the tube for the true RLD (default 2)")
     parser.add_argument("--projection-grid-cm", metavar="G", type=float, default=None,
@@ -88,7 +91,8 @@ def _requests(args):
     for name, value in (("--tube-window-cm", window), ("--tube-reference-cm", reference)):
         if not value > 0:
             raise SamplingError(f"{name} must be > 0 cm, got {value:g}")
-    tubes = [parse_tube(text, window_cm=window, reference_cm=reference) for text in args.tube]
+    tubes = [parse_tube(text, window_cm=window, reference_cm=reference, view_angle_deg=args.tube_view_deg)
+             for text in args.tube]
     grid_cm = args.projection_grid_cm
     if grid_cm is not None and not grid_cm > 0:
         raise SamplingError(f"--projection-grid-cm must be > 0 cm, got {grid_cm:g}")

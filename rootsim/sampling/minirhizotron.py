@@ -4,15 +4,20 @@ A tube of outer radius ``R`` runs from the surface point (X, Y) downward at an a
 vertical in the x-z plane. A camera sees roots in the soil shell between the tube wall and
 ``R + depth of field``; here that visible length is exact, as the length inside the cylinder
 of radius ``R + depth of field`` minus the length inside the cylinder of radius ``R``, both
-clipped to the window's axial range (:mod:`rootsim.sampling.cylinder`). The whole
-circumference of the tube is taken as seen (a camera rotated through all view angles).
+clipped to the window's axial range (:mod:`rootsim.sampling.cylinder`). By default the whole
+circumference is seen (a camera turned through all view directions); ``view_angle_deg`` below
+360 restricts the view to a sector centred on the upper side of the tube (for a vertical tube:
+the +x side). A sector up to 180° is the intersection of two half-spaces bounded by planes
+through the axis, a wider one their union (length = both minus the overlap), so the visible
+length stays exact.
 
 The depth-of-field conversion to RLD divides the visible length by the observed soil volume
-taken as window area × depth of field, with window area = tube circumference × window length
+taken as window area × depth of field, with window area = seen arc of the tube circumference
+× window length
 (common practice; e.g. Itoh 1985, "In situ measurement of rooting density by
 micro-rhizotron", Soil Sci. Plant Nutr. 31:653-656, from memory). Beside it are the exact RLD
-of the visible shell itself (its volume is ``π((R + f)² - R²) × window length``, a little more
-than area × depth of field) and the true RLD of a thicker coaxial reference shell around the
+of the visible shell itself (its volume is ``π((R + f)² - R²) × window length`` times the seen
+fraction of the circumference, a little more than area × depth of field) and the true RLD of a thicker coaxial reference shell around the
 window, i.e. what a core taken around the tube would show.
 """
 
@@ -27,7 +32,7 @@ import numpy as np
 from ..errors import SamplingError
 from .columns import sampling_inputs
 from .container import check_point_in_soil
-from .cylinder import axial_parameters, cylinder_parameters, interval_length
+from .cylinder import axial_parameters, cylinder_parameters, interval_length, linear_parameters
 from .geometry_strings import parse_numbers
 from .wall import cell_edges
 
@@ -58,6 +63,10 @@ class Tube:
         Length of each viewing window along the tube, cm (> 0); the last one is shorter if needed.
     reference_cm : float
         Thickness of the coaxial reference shell for the true RLD, cm (> 0).
+    view_angle_deg : float
+        Angle of the tube circumference the camera sees, degrees (0 < angle <= 360), centred
+        on the upper side of the tube (the +x side for a vertical tube); the reference shell
+        uses the same sector.
     """
 
     x_cm: float
@@ -68,6 +77,7 @@ class Tube:
     depth_of_field_cm: float
     window_cm: float = DEFAULT_WINDOW_CM
     reference_cm: float = DEFAULT_REFERENCE_CM
+    view_angle_deg: float = 360.0
 
     @property
     def radius_cm(self) -> float:
@@ -80,19 +90,30 @@ class Tube:
         return np.array([math.sin(a), 0.0, -math.cos(a)])
 
     @property
+    def upper_side(self) -> np.ndarray:
+        """Unit vector normal to the axis toward the upper side of the tube (+x when vertical), shape (3,)."""
+        a = math.radians(self.angle_from_vertical_deg)
+        return np.array([math.cos(a), 0.0, math.sin(a)])
+
+    @property
+    def seen_fraction(self) -> float:
+        """Fraction of the circumference in view."""
+        return self.view_angle_deg / 360.0
+
+    @property
     def start(self) -> np.ndarray:
         """Entry point at the soil surface, shape (3,), cm."""
         return np.array([self.x_cm, self.y_cm, 0.0])
 
 
 def parse_tube(text: str, *, option: str = "--tube", window_cm: float = DEFAULT_WINDOW_CM,
-               reference_cm: float = DEFAULT_REFERENCE_CM) -> Tube:
+               reference_cm: float = DEFAULT_REFERENCE_CM, view_angle_deg: float = 360.0) -> Tube:
     """Parse ``"X,Y,ANGLE_FROM_VERTICAL,LENGTH,OUTER_DIAMETER,DEPTH_OF_FIELD"`` (cm, degrees) into a checked :class:`Tube`."""
     v = parse_numbers(text, option=option,
                       names=("x", "y", "angle_from_vertical", "length", "outer_diameter", "depth_of_field"))
     tube = Tube(x_cm=v["x"], y_cm=v["y"], angle_from_vertical_deg=v["angle_from_vertical"], length_cm=v["length"],
                 outer_diameter_cm=v["outer_diameter"], depth_of_field_cm=v["depth_of_field"], window_cm=window_cm,
-                reference_cm=reference_cm)
+                reference_cm=reference_cm, view_angle_deg=view_angle_deg)
     validate_tube(tube, label=f"{option} {text}")
     return tube
 
@@ -106,6 +127,8 @@ def validate_tube(tube: Tube, *, label: str, metadata=None) -> None:
                         ("reference shell thickness", tube.reference_cm)):
         if not value > 0:
             raise SamplingError(f"{label}: {name} must be > 0 cm, got {value:g}")
+    if not 0.0 < tube.view_angle_deg <= 360.0:
+        raise SamplingError(f"{label}: view angle must be above 0 and at most 360 degrees, got {tube.view_angle_deg:g}")
     if metadata is not None:
         end = tube.start + tube.length_cm * tube.direction
         for point in (tube.start, end):
@@ -140,7 +163,7 @@ def sample_tube(system: Any, *, tubes: Iterable[Any], check_container: bool = Tr
     pandas.DataFrame
         One row per window: ``tube_id, window_id, along_tube_start_cm, along_tube_end_cm,
         depth_top_cm, depth_bottom_cm`` (depth of the tube axis at the window ends),
-        ``visible_length_cm``, ``window_area_cm2`` (circumference × window length),
+        ``visible_length_cm``, ``window_area_cm2`` (seen arc × window length),
         ``depth_of_field_cm``, ``rld_estimate_cm_per_cm3`` (visible length / (window area ×
         depth of field)), ``rld_shell_true_cm_per_cm3`` (visible length / exact shell volume),
         ``reference_length_cm``, ``reference_thickness_cm``, ``rld_true_cm_per_cm3`` (exact RLD of
@@ -160,20 +183,14 @@ def sample_tube(system: Any, *, tubes: Iterable[Any], check_container: bool = Tr
         a, b = p0[idx], p1[idx]
         seg_len = np.linalg.norm(b - a, axis=1)
         edges = cell_edges(0.0, tube.length_cm, tube.window_cm)
-        # radial intervals, shape (m, 3): tube wall, visible shell outer surface, reference shell outer surface
-        r_in, r_out = cylinder_parameters(a[:, None, :], b[:, None, :], axis_point=tube.start,
-                                          axis_direction=tube.direction, radius_cm=radii[None, :])
-        s_in, s_out = axial_parameters(a[:, None, :], b[:, None, :], axis_point=tube.start, axis_direction=tube.direction,
-                                       axial_min_cm=edges[None, :-1], axial_max_cm=edges[None, 1:])
-        # lengths inside each cylinder within each window, shape (m, windows, 3) summed over segments
-        inside = interval_length(np.maximum(r_in[:, None, :], s_in[:, :, None]),
-                                 np.minimum(r_out[:, None, :], s_out[:, :, None]), seg_len[:, None, None]).sum(axis=0)
+        inside = _window_lengths(a, b, seg_len, tube, radii, edges)
         visible = inside[:, 1] - inside[:, 0]
         reference = inside[:, 2] - inside[:, 0]
         w = np.diff(edges)
-        area = math.pi * tube.outer_diameter_cm * w
-        shell_volume = math.pi * ((r + tube.depth_of_field_cm) ** 2 - r ** 2) * w
-        ref_volume = math.pi * ((r + tube.reference_cm) ** 2 - r ** 2) * w
+        seen = tube.seen_fraction
+        area = math.pi * tube.outer_diameter_cm * w * seen
+        shell_volume = math.pi * ((r + tube.depth_of_field_cm) ** 2 - r ** 2) * w * seen
+        ref_volume = math.pi * ((r + tube.reference_cm) ** 2 - r ** 2) * w * seen
         cos_a = -tube.direction[2]
         k = len(w)
         frames.append(pd.DataFrame({
@@ -191,5 +208,51 @@ def sample_tube(system: Any, *, tubes: Iterable[Any], check_container: bool = Tr
             "reference_length_cm": np.maximum(reference, 0.0),
             "reference_thickness_cm": np.full(k, tube.reference_cm),
             "rld_true_cm_per_cm3": np.maximum(reference, 0.0) / ref_volume,
+            "view_angle_deg": np.full(k, tube.view_angle_deg),
         }))
     return pd.concat(frames, ignore_index=True)
+
+
+def _window_lengths(a: np.ndarray, b: np.ndarray, seg_len: np.ndarray, tube: Tube, radii: np.ndarray,
+                    edges: np.ndarray) -> np.ndarray:
+    """Root length inside each coaxial cylinder within each window and the seen sector, cm.
+
+    Parameters
+    ----------
+    a, b : ndarray, shape (m, 3)
+        Candidate segment end points, cm.
+    seg_len : ndarray, shape (m,)
+    tube : Tube
+    radii : ndarray, shape (c,)
+        Cylinder radii, cm.
+    edges : ndarray, shape (k + 1,)
+        Window edges along the tube, cm.
+
+    Returns
+    -------
+    ndarray, shape (k, c)
+    """
+    r_in, r_out = cylinder_parameters(a[:, None, :], b[:, None, :], axis_point=tube.start,
+                                      axis_direction=tube.direction, radius_cm=radii[None, :])
+    s_in, s_out = axial_parameters(a[:, None, :], b[:, None, :], axis_point=tube.start, axis_direction=tube.direction,
+                                   axial_min_cm=edges[None, :-1], axial_max_cm=edges[None, 1:])
+    # (m, windows, cylinders) interval of cylinder x window
+    lo = np.maximum(r_in[:, None, :], s_in[:, :, None])
+    hi = np.minimum(r_out[:, None, :], s_out[:, :, None])
+    if tube.view_angle_deg >= 360.0:
+        return interval_length(lo, hi, seg_len[:, None, None]).sum(axis=0)
+    half = math.radians(tube.view_angle_deg / 2)
+    n, m = tube.upper_side, np.cross(tube.direction, tube.upper_side)
+    halves = []
+    for k in (math.sin(half) * n - math.cos(half) * m, math.sin(half) * n + math.cos(half) * m):
+        # half-space (p - start) . k >= 0, bounded by a plane through the axis
+        t_in, t_out = linear_parameters((a - tube.start) @ k, (b - a) @ k, 0.0, np.inf)
+        halves.append((t_in[:, None, None], t_out[:, None, None]))
+    (in1, out1), (in2, out2) = halves
+    both = interval_length(np.maximum(lo, np.maximum(in1, in2)), np.minimum(hi, np.minimum(out1, out2)),
+                           seg_len[:, None, None]).sum(axis=0)
+    if tube.view_angle_deg <= 180.0:
+        return both
+    first = interval_length(np.maximum(lo, in1), np.minimum(hi, out1), seg_len[:, None, None]).sum(axis=0)
+    second = interval_length(np.maximum(lo, in2), np.minimum(hi, out2), seg_len[:, None, None]).sum(axis=0)
+    return first + second - both
