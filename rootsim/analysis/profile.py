@@ -73,7 +73,7 @@ def depth_layer_lengths(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarr
     fast = (q0 == q1) & (layer.view(np.uint64) < n_full)  # negative layers wrap to huge values
     key = layer * n_groups + group if n_groups > 1 else layer
     key = np.where(fast, key, size)
-    out = np.bincount(key, weights=length, minlength=size + 1)[:size]
+    out = np.bincount(key, weights=length, minlength=size + 1)[:size].astype(np.float64, copy=False)
 
     slow = np.flatnonzero(~fast)
     if slow.size:
