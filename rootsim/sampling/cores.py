@@ -117,8 +117,7 @@ def _candidate_lists(p0: np.ndarray, p1: np.ndarray, cores: list[Core]) -> list[
     """Indices of segments that may reach each core (uniform midpoint grid, see module docstring)."""
     if len(p0) == 0:
         return [np.zeros(0, dtype=np.int64) for _ in cores]
-    largest = max(c.radius_cm for c in cores)
-    index = MidpointGrid(p0, p1, cell_cm=largest + 0.5 * float(np.hypot(*(p1[:, :2] - p0[:, :2]).T).max()))
+    index = MidpointGrid(p0, p1, query_radius_cm=max(c.radius_cm for c in cores))
     return [index.candidates(c.x_cm, c.y_cm, c.radius_cm) for c in cores]
 
 

@@ -17,6 +17,7 @@ import numpy as np
 __all__ = ["MidpointGrid"]
 
 _MAX_CELLS = 4_000_000
+_SHORT_QUANTILE = 0.999  # segments longer than this quantile of horizontal extent are checked directly
 
 
 class MidpointGrid:
@@ -26,32 +27,38 @@ class MidpointGrid:
     ----------
     p0, p1 : ndarray, shape (n, 3)
         Segment end points, cm.
-    cell_cm : float
-        Preferred cell side, cm (widened if the grid would exceed a few million cells).
+    query_radius_cm : float
+        Largest radius that will be queried, cm; the cell side is this plus the search reach
+        (widened if the grid would exceed a few million cells).
     """
 
-    def __init__(self, p0: np.ndarray, p1: np.ndarray, *, cell_cm: float):
+    def __init__(self, p0: np.ndarray, p1: np.ndarray, *, query_radius_cm: float):
         self.mid = 0.5 * (p0[:, :2] + p1[:, :2])
         self.half_extent = 0.5 * np.hypot(p1[:, 0] - p0[:, 0], p1[:, 1] - p0[:, 1])
-        self.reach = float(self.half_extent.max()) if len(p0) else 0.0
         if len(p0) == 0:
+            self.reach = 0.0
+            self.long = np.zeros(0, dtype=np.int64)
             self.lo = np.zeros(2)
-            self.cell = float(cell_cm)
+            self.cell = max(float(query_radius_cm), 1e-6)
             self.shape = (1, 1)
             self.order = np.zeros(0, dtype=np.int64)
             self.keys = np.zeros(0, dtype=np.int64)
             return
+        self.reach = float(np.quantile(self.half_extent, _SHORT_QUANTILE))
+        self.long = np.flatnonzero(self.half_extent > self.reach)
+        short = np.flatnonzero(self.half_extent <= self.reach)
         self.lo = self.mid.min(axis=0)
         span = np.maximum(self.mid.max(axis=0) - self.lo, 1e-9)
-        cell = max(float(cell_cm), 1e-6)
+        cell = max(float(query_radius_cm) + self.reach, 1e-6)
         if (span[0] / cell + 1) * (span[1] / cell + 1) > _MAX_CELLS:
             cell = math.sqrt(span[0] * span[1] / _MAX_CELLS) + max(span) / _MAX_CELLS
         self.cell = cell
         self.shape = (int(span[0] // cell) + 1, int(span[1] // cell) + 1)
-        ij = np.minimum(((self.mid - self.lo) // cell).astype(np.int64), np.array(self.shape) - 1)
+        ij = np.minimum(((self.mid[short] - self.lo) // cell).astype(np.int64), np.array(self.shape) - 1)
         keys = ij[:, 0] * self.shape[1] + ij[:, 1]
-        self.order = np.argsort(keys, kind="stable")
-        self.keys = keys[self.order]
+        order = np.argsort(keys, kind="stable")
+        self.order = short[order]
+        self.keys = keys[order]
 
     def candidates(self, x_cm: float, y_cm: float, radius_cm: float) -> np.ndarray:
         """Indices of segments that may come within ``radius_cm`` of the vertical line through (x, y), sorted."""
@@ -60,11 +67,12 @@ class MidpointGrid:
         i_hi, j_hi = np.floor((np.array([x_cm, y_cm]) + search - self.lo) / self.cell).astype(np.int64)
         i_lo, i_hi = max(i_lo, 0), min(i_hi, self.shape[0] - 1)
         j_lo, j_hi = max(j_lo, 0), min(j_hi, self.shape[1] - 1)
-        if i_lo > i_hi or j_lo > j_hi:
-            return np.zeros(0, dtype=np.int64)
-        rows = np.arange(i_lo, i_hi + 1) * self.shape[1]
-        starts = np.searchsorted(self.keys, rows + j_lo, side="left")
-        stops = np.searchsorted(self.keys, rows + j_hi, side="right")
-        idx = np.concatenate([self.order[a:b] for a, b in zip(starts, stops)]) if len(rows) else np.zeros(0, np.int64)
+        pieces = [self.long]
+        if i_lo <= i_hi and j_lo <= j_hi:
+            columns = np.arange(i_lo, i_hi + 1) * self.shape[1]
+            starts = np.searchsorted(self.keys, columns + j_lo, side="left")
+            stops = np.searchsorted(self.keys, columns + j_hi, side="right")
+            pieces += [self.order[a:b] for a, b in zip(starts, stops)]
+        idx = np.concatenate(pieces)
         d = np.hypot(self.mid[idx, 0] - x_cm, self.mid[idx, 1] - y_cm)
         return np.sort(idx[d <= radius_cm + self.half_extent[idx] + 1e-9 * (1 + radius_cm)])
