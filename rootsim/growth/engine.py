@@ -177,6 +177,7 @@ class _Engine:
         # Branch points waiting for the parent's apical zone to pass them.
         self.pend_float = _Store(_PEND_NF, np.float64)
         self.pend_int = _Store(_PEND_NI, np.int64)
+        self.pend_retired = 0
         self.roots = _Growable(plant=np.int32, cls=np.int16, order=np.int8, parent=np.int64,
                                birth=np.float64, death=np.float64, length=np.float64, length_prev=np.float64,
                                last_dt=np.float64, growing=bool, dead=bool)
@@ -422,7 +423,7 @@ class _Engine:
         if self.classes.has_lifespan:
             ready &= ~self.roots.view("dead")[parent_root]
         growing = self.roots.view("growing")[parent_root]
-        drop = ~ready & ~growing
+        drop = ~ready & ~growing & np.isfinite(pf[_PEND_FLOAT["threshold"]])
         if ready.any():
             rf, ri = pf[:, ready], pi[:, ready]
             parents = ri[_PEND_INT["parent_root"]]
@@ -443,9 +444,15 @@ class _Engine:
                             birth=t1 - carry, carry=carry)
         done = ready | drop
         if done.any():
-            keep = ~done
-            self.pend_float.keep(keep)
-            self.pend_int.keep(keep)
+            # Retire handled branch points at once (an infinite threshold is never reached) and compact
+            # the store only when they make up a large share of it.
+            pf[_PEND_FLOAT["threshold"], done] = np.inf
+            self.pend_retired += int(done.sum())
+            if self.pend_retired > 0.25 * self.pend_int.n:
+                keep = np.isfinite(pf[_PEND_FLOAT["threshold"]])
+                self.pend_float.keep(keep)
+                self.pend_int.keep(keep)
+                self.pend_retired = 0
 
     # -- result ------------------------------------------------------------------------------------
     def result(self, duration: float) -> RootSystem:
