@@ -14,7 +14,7 @@ import numpy as np
 
 from ..errors import RootsimError, SegmentTableError
 
-__all__ = ["float_column", "int_column", "system_metadata", "ground_area_from_metadata", "n_rows", "positive_number"]
+__all__ = ["float_column", "int_column", "system_metadata", "ground_area_from_metadata", "positive_number"]
 
 
 def _column(system: Any, name: str) -> np.ndarray:
@@ -57,11 +57,6 @@ def int_column(system: Any, name: str) -> np.ndarray:
     if np.any(arr != np.round(arr)):
         raise SegmentTableError(f"segment table: column {name} must be integers")
     return arr.astype(np.int64)
-
-
-def n_rows(system: Any) -> int:
-    """Number of segments."""
-    return len(_column(system, "length_cm"))
 
 
 def system_metadata(system: Any) -> dict:
