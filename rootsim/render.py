@@ -98,16 +98,25 @@ def _nice_step(value: float, *, up: bool = True) -> float:
     return max(c for c in candidates if c <= value * (1 + 1e-12))
 
 
-def ruler_ticks(extent_cm: float, *, n_steps: int = 5) -> tuple[float, int]:
+def ruler_ticks(extent_cm: float, *, min_steps: int = 3, max_steps: int = 8) -> tuple[float, int]:
     """Length (cm) and number of labels of a ruler covering ``extent_cm`` in round steps.
 
-    The step is the 1-2-5 number at least ``extent_cm / n_steps``; the length is the first
-    multiple of the step reaching ``extent_cm``.
+    Among steps of 1, 2 or 5 x 10^k giving ``min_steps``..``max_steps`` steps, the one whose
+    whole number of steps ends closest past ``extent_cm`` (fewer steps on a tie).
     """
     extent = max(float(extent_cm), 1e-6)
-    step = _nice_step(extent / n_steps)
-    count = max(1, math.ceil(extent / step - 1e-9))
-    return count * step, count + 1
+    exp = math.floor(math.log10(extent))
+    best = None
+    for k in range(exp - 2, exp + 1):
+        for mantissa in (1.0, 2.0, 5.0):
+            step = mantissa * 10.0**k
+            count = max(1, math.ceil(extent / step - 1e-9))
+            if min_steps <= count <= max_steps:
+                candidate = (round(count * step, 12), count)
+                best = candidate if best is None or candidate < best else best
+    if best is None:  # pragma: no cover - some 1-2-5 step always fits 3..8 steps
+        best = (extent, 1)
+    return best[0], best[1] + 1
 
 
 def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str]]:
@@ -218,23 +227,48 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     return image
 
 
+def _line_subset(poly, cells: np.ndarray, *, point_scalars: dict, cell_scalars: dict):
+    """A lean :class:`pyvista.PolyData` holding polylines ``cells`` of ``poly`` and only the given arrays.
+
+    Points (and point arrays) are shared with ``poly`` uncopied; the line connectivity of the
+    chosen cells is gathered with array arithmetic (no per-cell loop).
+    """
+    import pyvista as pv
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+
+    lines = poly.GetLines()
+    offsets = vtk_to_numpy(lines.GetOffsetsArray()).astype(np.int64)
+    connectivity = vtk_to_numpy(lines.GetConnectivityArray()).astype(np.int64)
+    counts = offsets[cells + 1] - offsets[cells]
+    new_offsets = np.concatenate([[0], np.cumsum(counts)])
+    gather = np.repeat(offsets[cells] - new_offsets[:-1], counts) + np.arange(int(new_offsets[-1]))
+    part = pv.PolyData(poly.points, lines=pv.CellArray.from_arrays(new_offsets, connectivity[gather], deep=True))
+    for name, values in point_scalars.items():
+        part.point_data[name] = values
+    for name, values in cell_scalars.items():
+        part.cell_data[name] = values[cells]
+    return part
+
+
 def _add_roots(plotter, poly, *, color_by: str, scale: float) -> None:
     """Add the roots, one line actor per root-order group (order 0, 1, >= 2: widths differ), and
     their legend (categorical colourings) or scalar bar (age)."""
+    point_scalars, cell_scalars = {}, {}
     if color_by == "age":
         age = np.asarray(poly.point_data["age_days"], dtype=float)
+        point_scalars["age_days"] = age
         style = {"scalars": "age_days", "cmap": AGE_COLOURMAP, "show_scalar_bar": False,
                  "clim": (float(age.min()), float(max(age.max(), age.min() + 1e-9)))}
     else:
         category, labels = _categories(color_by, poly)
         colours = _palette(len(labels))
-        poly.cell_data["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
+        cell_scalars["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
         style = {"scalars": "colour_rgb", "rgb": True, "preference": "cell"}
     order = np.asarray(poly.cell_data["order"])
     for width, mask in zip(ORDER_LINE_WIDTH_PX, (order == 0, order == 1, order >= 2)):
         if mask.any():
-            plotter.add_mesh(poly.extract_cells(np.flatnonzero(mask)), line_width=max(MIN_LINE_WIDTH_PX, width * scale),
-                             lighting=False, **style)
+            part = _line_subset(poly, np.flatnonzero(mask), point_scalars=point_scalars, cell_scalars=cell_scalars)
+            plotter.add_mesh(part, line_width=max(MIN_LINE_WIDTH_PX, width * scale), lighting=False, **style)
     if color_by == "age":
         plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
                                position_x=0.86, position_y=0.2, width=0.08, height=0.6, unique_bar=True)

@@ -176,7 +176,8 @@ def test_parse_size():
             parse_size(bad)
 
 
-@pytest.mark.parametrize("extent,length,labels", [(35.0, 40.0, 5), (100.0, 100.0, 6), (7.3, 8.0, 5), (0.3, 0.3, 4)])
+@pytest.mark.parametrize("extent,length,labels", [(35.0, 35.0, 8), (155.5, 160.0, 9), (100.0, 100.0, 6), (7.3, 8.0, 5),
+                                                  (0.3, 0.3, 4), (1.0, 1.0, 6)])
 def test_ruler_covers_the_depth_in_round_steps(extent, length, labels):
     got_length, got_labels = ruler_ticks(extent)
     assert got_length == pytest.approx(length) and got_labels == labels
