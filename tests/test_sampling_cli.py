@@ -94,6 +94,12 @@ def test_bad_input_is_one_error_line_and_nothing_written(results, capsys, argv, 
     assert written(results) == []
 
 
+def test_out_dir(results, tmp_path_factory):
+    out = tmp_path_factory.mktemp("elsewhere") / "sampling"
+    assert main(["sample", str(results), "--core", "0,0,5,30", "--out-dir", str(out)]) == 0
+    assert written(results) == [] and sorted(p.name for p in out.iterdir()) == ["cores.csv"]
+
+
 def test_core_outside_a_pot_is_an_error(tmp_path, capsys):
     meta = {"container": {"kind": "pot", "diameter_cm": 15, "depth_cm": 30}}
     lines_system([[0, 0, 0]], [[0, 0, -10]], metadata=meta).write(tmp_path / "segments.parquet")

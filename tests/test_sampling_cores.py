@@ -202,3 +202,14 @@ def test_index_never_misses_a_segment(seed, n, long_share, x, y, diameter, incre
     brute = segment_cylinder_length(p0, p1, axis_point=[x, y, 0], axis_direction=[0, 0, -1], radius_cm=diameter / 2,
                                     axial_min_cm=0.0, axial_max_cm=50.0).sum()
     assert df["root_length_cm"].sum() == pytest.approx(brute, rel=1e-9, abs=1e-9)
+
+
+def test_dataframe_input_and_its_metadata_are_used():
+    # A DataFrame in the segment-table layout works like the RootSystem (analytic 10 + 10 + 5 cm), and
+    # its attrs carry the container: a core outside the pot is refused.
+    pot = {"container": {"kind": "pot", "diameter_cm": 20, "depth_cm": 40}}
+    df = lines_system([[0.0, 0.0, 0.0]], [[0.0, 0.0, -25.0]], metadata=pot).to_dataframe()
+    out = sample_cores(df, cores=["0,0,5,30"])
+    assert out["root_length_cm"].tolist() == pytest.approx([10.0, 10.0, 5.0])
+    with pytest.raises(SamplingError, match="outside the pot"):
+        sample_cores(df, cores=["9,0,5,30"])
