@@ -7,9 +7,10 @@ segment is clipped against the vertical cylinder (quadratic in the segment param
 :mod:`rootsim.sampling.cylinder`) and then against each increment's depth range.
 
 Candidate segments per core come from a uniform grid over segment midpoints (x, y)
-(:class:`rootsim.sampling.spatial_index.MidpointGrid`) searched within ``core radius + half the
-longest horizontal segment extent``: any point of a segment lies within half its horizontal
-extent of its midpoint, so no segment that reaches the core is missed.
+(:class:`rootsim.sampling.spatial_index.MidpointGrid`), searched within ``core radius + half
+the horizontal extent of the segment``: any point of a segment lies within half its horizontal
+extent of its midpoint, so no segment that reaches the core is missed. Increments are
+half-open in depth (``top <= depth < bottom``) for roots lying exactly in a boundary plane.
 """
 
 from __future__ import annotations
