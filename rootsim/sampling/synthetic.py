@@ -12,6 +12,8 @@ from typing import Mapping
 
 import numpy as np
 
+from ..errors import SamplingError
+
 __all__ = ["lines_system", "isotropic_lines", "random_walk_roots"]
 
 
@@ -88,7 +90,7 @@ def isotropic_lines(n: int, *, box_lo, box_hi, length_cm: float, rng: np.random.
         ang = rng.uniform(0.0, 2 * np.pi, n)
         u = np.column_stack([np.cos(ang), np.zeros(n), np.sin(ang)])
     else:
-        raise ValueError("dimensions must be 2 or 3")
+        raise SamplingError(f"isotropic_lines: dimensions must be 2 or 3, got {dimensions}")
     half = 0.5 * length_cm * u
     return mid - half, mid + half
 
