@@ -174,8 +174,9 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         Categorical colours with a legend (order, root class, plant), or age in days
         (run duration minus birth day) with a scalar bar.
     view : {"side", "top", "iso"}
-        ``side`` looks horizontally along +y at the x–z plane (parallel projection), ``top``
-        looks straight down (parallel projection), ``iso`` is an oblique perspective view.
+        ``side`` looks horizontally along +y at the x–z plane, ``top`` looks straight down,
+        ``iso`` obliquely from the front right and above (all parallel projections, so the
+        depth ruler reads the same everywhere along it in side view).
     size : (int, int)
         Image width and height in pixels (16..8192 each).
     title : str, optional
@@ -280,11 +281,11 @@ def _add_legend(plotter, entries: list) -> None:
     """A categorical legend ``[[label, rgb], ...]`` at the upper right, at most MAX_LEGEND_ENTRIES lines."""
     if len(entries) > MAX_LEGEND_ENTRIES:
         entries = entries[:MAX_LEGEND_ENTRIES] + [[f"... {len(entries) - MAX_LEGEND_ENTRIES} more", "gray"]]
-    height = min(0.045 * len(entries) + 0.02, 0.6)
-    legend = plotter.add_legend(labels=entries, bcolor=BACKGROUND, face="rectangle", size=(0.18, height))
+    height = min(0.036 * len(entries) + 0.015, 0.6)
+    legend = plotter.add_legend(labels=entries, bcolor=BACKGROUND, face="rectangle", size=(0.16, height))
     # place the box explicitly (normalised viewport), right edge inside the picture, below the title
-    for coordinate, value in ((legend.GetPositionCoordinate(), (0.80, 0.92 - height)),
-                              (legend.GetPosition2Coordinate(), (0.18, height))):
+    for coordinate, value in ((legend.GetPositionCoordinate(), (0.82, 0.92 - height)),
+                              (legend.GetPosition2Coordinate(), (0.16, height))):
         coordinate.SetCoordinateSystemToNormalizedViewport()
         coordinate.SetValue(*value)
 
@@ -310,28 +311,32 @@ def _add_ruler(plotter, *, view: str, corner: tuple[float, float], x_span: float
     return b
 
 
+#: Direction from the scene to the camera, and the up vector, of each view.
+_VIEW_DIRECTIONS = {
+    "side": ((0.0, -1.0, 0.0), (0.0, 0.0, 1.0)),  # camera on -y looking along +y: x right, z up
+    "top": ((0.0, 0.0, 1.0), (0.0, 1.0, 0.0)),  # camera above looking down: x right, y up
+    "iso": ((1.0, -1.6, 0.9), (0.0, 0.0, 1.0)),  # oblique, from the front right and above
+}
+
+
 def _set_camera(plotter, view: str, *, frame: np.ndarray, aspect: float) -> None:
-    """Point the camera at ``frame`` ``[x_lo, x_hi, y_lo, y_hi, z_lo, z_hi]`` (cm) for the view."""
-    frame = np.array(frame, dtype=float)
-    if view in ("side", "top"):
-        frame[1] += 0.25 * (frame[1] - frame[0])  # keep the right edge free for the legend or scalar bar
-    centre = 0.5 * (frame[0::2] + frame[1::2])
-    half = 0.5 * (frame[1::2] - frame[0::2])
-    distance = 4.0 * float(np.linalg.norm(half)) + 1.0
-    room = 1.18  # space for title, legend and ruler labels
-    if view == "side":  # camera on -y looking along +y: x to the right, z up
-        plotter.camera_position = [tuple(centre - (0.0, distance, 0.0)), tuple(centre), (0.0, 0.0, 1.0)]
-        plotter.enable_parallel_projection()
-        plotter.camera.parallel_scale = room * max(half[2], half[0] / aspect)
-    elif view == "top":  # camera above looking down: x to the right, y up
-        plotter.camera_position = [tuple(centre + (0.0, 0.0, distance)), tuple(centre), (0.0, 1.0, 0.0)]
-        plotter.enable_parallel_projection()
-        plotter.camera.parallel_scale = room * max(half[1], half[0] / aspect)
-    else:
-        direction = np.array([1.0, -1.6, 0.9])
-        plotter.camera_position = [tuple(centre + direction), tuple(centre), (0.0, 0.0, 1.0)]
-        plotter.reset_camera(bounds=tuple(frame))
-        plotter.camera.zoom(1.05)
+    """Parallel-projection camera for ``view`` that fits the box ``frame`` ``[x_lo, x_hi, y_lo, y_hi,
+    z_lo, z_hi]`` (cm) exactly: its 8 corners are projected on the view plane and the view is
+    centred on their extent, with the right quarter kept free for the legend or scalar bar."""
+    toward, up = (np.asarray(v, dtype=float) for v in _VIEW_DIRECTIONS[view])
+    toward /= np.linalg.norm(toward)
+    right = np.cross(up, toward)
+    right /= np.linalg.norm(right)
+    up = np.cross(toward, right)
+    corners = np.array([[x, y, z] for x in frame[0:2] for y in frame[2:4] for z in frame[4:6]], dtype=float)
+    u, v, w = corners @ right, corners @ up, corners @ toward
+    u_lo, u_hi = u.min(), u.max() + 0.25 * (u.max() - u.min())
+    centre = 0.5 * ((u_lo + u_hi) * right + (v.min() + v.max()) * up + (w.min() + w.max()) * toward)
+    distance = 2.0 * float(np.ptp(w) + np.ptp(u) + np.ptp(v)) + 1.0
+    plotter.camera_position = [tuple(centre + distance * toward), tuple(centre), tuple(up)]
+    plotter.enable_parallel_projection()
+    room = 1.12  # space for the title and the ruler labels
+    plotter.camera.parallel_scale = room * max(0.5 * np.ptp(v), 0.5 * (u_hi - u_lo) / aspect)
     plotter.reset_camera_clipping_range()
 
 
