@@ -35,9 +35,10 @@ def _polyline_lengths(poly):
     return total, offsets, conn, pts
 
 
-def test_vtp_round_trip_through_vtk_reader(tmp_path):
+@pytest.mark.parametrize("compression", [None, "zlib"])  # numpy writer, and VTK's own writer
+def test_vtp_round_trip_through_vtk_reader(tmp_path, compression):
     system = random_root_system(rng=3)
-    out = export_file(system, tmp_path / "roots.vtp")
+    out = export_file(system, tmp_path / "roots.vtp", compression=compression)
     poly = _read_vtp(out)
     n = len(system)
     n_roots = np.unique(system["root_id"]).size
@@ -109,3 +110,26 @@ def test_tube_filter_accepts_radius_array():
     poly = polydata_from_segments(system)
     tube = poly.tube(scalars="tube_radius_cm", absolute=True, n_sides=6)
     assert tube.n_points > 0
+
+
+def test_non_ascii_class_names(tmp_path):
+    system = random_root_system(rng=8, n_plants=1, laterals=(4,))
+    columns = {c: system[c] for c in system.columns}
+    columns["root_class"] = np.where(system["order"] == 0, "Hauptwurzel", "Seitenwurzel 1. Ordnung (ä)")
+    system = RootSystem(columns, {})
+    for compression in (None, "zlib"):
+        poly = _read_vtp(export_file(system, tmp_path / f"{compression}.vtp", compression=compression))
+        names_arr = poly.GetFieldData().GetAbstractArray("root_class_names")
+        names = [names_arr.GetValue(i) for i in range(names_arr.GetNumberOfValues())]
+        codes = vtk_to_numpy(poly.GetPointData().GetArray("root_class_code"))
+        seg = vtk_to_numpy(poly.GetPointData().GetArray("segment_id"))
+        assert [names[c] for c in codes] == list(columns["root_class"][seg])
+
+
+def test_metadata_json_in_field_data(tmp_path):
+    import json
+
+    system = random_root_system(rng=3)
+    poly = _read_vtp(export_file(system, tmp_path / "roots.vtp"))
+    text = poly.GetFieldData().GetAbstractArray("rootsim_metadata").GetValue(0)
+    assert json.loads(text) == system.metadata

@@ -1,4 +1,4 @@
-"""Closed tube surfaces around roots, written as STL, PLY, OBJ or binary glTF (.glb) with trimesh.
+"""Closed tube surfaces around roots, written as STL, PLY, OBJ (numpy, in bulk) or binary glTF (.glb, trimesh).
 
 Construction is vectorized over all roots at once:
 
@@ -335,8 +335,6 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
     -------
     pathlib.Path
     """
-    import trimesh
-
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
@@ -349,14 +347,54 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
         with atomic_path(path) as tmp:
             tmp.write_bytes(_empty_mesh_bytes(suffix))
         return path
-    mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, process=False, validate=False)
-    file_type = suffix[1:]
     with atomic_path(path) as tmp:
-        if file_type == "obj":
+        if suffix == ".obj":
             _write_obj(tmp, arrays.vertices, arrays.faces)
+        elif suffix == ".stl":
+            _write_stl(tmp, arrays.vertices, arrays.faces)
+        elif suffix == ".ply":
+            _write_ply(tmp, arrays.vertices, arrays.faces)
         else:
-            mesh.export(str(tmp), file_type=file_type)
+            import trimesh
+
+            mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, process=False, validate=False)
+            mesh.export(str(tmp), file_type=suffix[1:])
     return path
+
+
+#: Faces written per block by the STL writer (bounds the temporary memory).
+_STL_BLOCK = 1 << 21
+_STL_RECORD = np.dtype([("normal", "<f4", (3,)), ("vertices", "<f4", (3, 3)), ("attribute", "<u2")])
+
+
+def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
+    """Binary STL: 80-byte header, uint32 count, then per triangle its unit normal, 3 vertices
+    (float32) and a zero uint16 attribute, 50 bytes per record (the STL layout, common practice)."""
+    with open(path, "wb") as fh:
+        fh.write(b"rootsim tube mesh, units cm".ljust(80, b" "))
+        fh.write(np.uint32(len(faces)).tobytes())
+        for start in range(0, len(faces), _STL_BLOCK):
+            tri = vertices[faces[start:start + _STL_BLOCK]]  # (b, 3, 3)
+            normal = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+            norm = np.linalg.norm(normal, axis=1, keepdims=True)
+            record = np.zeros(len(tri), dtype=_STL_RECORD)
+            record["normal"] = normal / np.where(norm > 0, norm, 1.0)
+            record["vertices"] = tri
+            record.tofile(fh)
+
+
+def _write_ply(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
+    """Binary little-endian PLY: float32 vertices and triangles as (uchar 3, int32 x 3)."""
+    header = ("ply\nformat binary_little_endian 1.0\ncomment rootsim tube mesh, units cm\n"
+              f"element vertex {len(vertices)}\nproperty float x\nproperty float y\nproperty float z\n"
+              f"element face {len(faces)}\nproperty list uchar int vertex_indices\nend_header\n")
+    record = np.empty(len(faces), dtype=[("count", "u1"), ("index", "<i4", (3,))])
+    record["count"] = 3
+    record["index"] = faces
+    with open(path, "wb") as fh:
+        fh.write(header.encode("ascii"))
+        vertices.astype("<f4").tofile(fh)
+        record.tofile(fh)
 
 
 def _write_obj(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:

@@ -86,15 +86,21 @@ def polylines_from_segments(system, *, tolerance_cm: float = JOIN_TOLERANCE_CM) 
     root = np.asarray(system["root_id"], dtype=np.int64)
     parent = np.asarray(system["parent_id"], dtype=np.int64)
     n = len(root)
-    start = np.column_stack([np.asarray(system[c], dtype=np.float64) for c in ("x0", "y0", "z0")]).reshape(n, 3)
-    end = np.column_stack([np.asarray(system[c], dtype=np.float64) for c in ("x1", "y1", "z1")]).reshape(n, 3)
-    rows = np.arange(n, dtype=np.int64)
-    order = np.lexsort((rows, root))
+    names = (("x0", "x1"), ("y0", "y1"), ("z0", "z1"))
+    if n < 2 or np.all(root[1:] >= root[:-1]):
+        order = np.arange(n, dtype=np.int64)  # already grouped by root, in row order
+        starts = [np.asarray(system[a], dtype=np.float64) for a, _ in names]
+        ends = [np.asarray(system[b], dtype=np.float64) for _, b in names]
+    else:
+        order = np.argsort(root, kind="stable")  # by root, row order kept within a root
+        starts = [np.asarray(system[a], dtype=np.float64)[order] for a, _ in names]
+        ends = [np.asarray(system[b], dtype=np.float64)[order] for _, b in names]
     begins = np.ones(n, dtype=bool)
     if n > 1:
-        prev, cur = order[:-1], order[1:]
-        gap = np.abs(start[cur] - end[prev]).max(axis=1)
-        chained = (root[cur] == root[prev]) & (parent[cur] == prev) & (gap <= tolerance_cm)
+        root_s, parent_s = root[order], parent[order]
+        chained = (root_s[1:] == root_s[:-1]) & (parent_s[1:] == order[:-1])
+        for s0, e0 in zip(starts, ends):
+            chained &= np.abs(s0[1:] - e0[:-1]) <= tolerance_cm
         begins[1:] = ~chained
     first_pos = np.flatnonzero(begins)
     segment_offsets = np.append(first_pos, n).astype(np.int64)
@@ -102,12 +108,14 @@ def polylines_from_segments(system, *, tolerance_cm: float = JOIN_TOLERANCE_CM) 
     point_offsets = segment_offsets + np.arange(n_poly + 1, dtype=np.int64)
     # Sorted segment k ends at point k + (number of polylines begun at or before k).
     end_point = np.arange(n, dtype=np.int64) + np.cumsum(begins)
-    points = np.empty((n + n_poly, 3), dtype=np.float64)
-    point_segment = np.empty(n + n_poly, dtype=np.int64)
-    points[end_point] = end[order]
-    point_segment[end_point] = order
     first_point = point_offsets[:-1]
-    points[first_point] = start[order[first_pos]]
+    points = np.empty((n + n_poly, 3), dtype=np.float64)
+    for axis in range(3):
+        column = points[:, axis]
+        column[end_point] = ends[axis]
+        column[first_point] = starts[axis][first_pos]
+    point_segment = np.empty(n + n_poly, dtype=np.int64)
+    point_segment[end_point] = order
     point_segment[first_point] = order[first_pos]
     return Polylines(order, segment_offsets, point_offsets, points, point_segment)
 
@@ -127,5 +135,7 @@ def run_duration_days(system) -> float:
 
 def root_class_codes(system) -> tuple[np.ndarray, list[str]]:
     """Integer code per segment, shape (n,), and the class names the codes index (sorted)."""
-    names, codes = np.unique(np.asarray(system["root_class"]).astype(str), return_inverse=True)
-    return codes.astype(np.int32).reshape(-1), [str(s) for s in names]
+    import pandas as pd
+
+    codes, names = pd.factorize(np.asarray(system["root_class"]), sort=True)
+    return codes.astype(np.int32), [str(s) for s in names]

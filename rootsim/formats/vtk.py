@@ -16,12 +16,59 @@ from ..atomic import atomic_path
 from ..errors import FormatError
 from .polylines import polylines_from_segments, root_class_codes, run_duration_days
 
-__all__ = ["polydata_from_segments", "write_vtp", "imagedata_from_rld", "write_vti", "SUFFIXES"]
+__all__ = ["polydata_from_segments", "polyline_arrays", "write_vtp", "imagedata_from_rld", "write_vti", "SUFFIXES"]
 
 SUFFIXES = (".vtp",)
 
 #: Smallest radius (cm) in ``tube_radius_cm``, so a tube filter never gets a zero radius.
 TUBE_RADIUS_FLOOR_CM = 1e-4
+
+
+def polyline_arrays(system) -> dict:
+    """The arrays of :func:`polydata_from_segments` as plain numpy arrays.
+
+    Returns
+    -------
+    dict
+        ``points`` (m, 3) float64 cm; ``offsets`` (p + 1,) int64, polyline ``i`` is points
+        ``offsets[i]:offsets[i + 1]``; ``point_data`` and ``cell_data``, dicts of name to array;
+        ``root_class_names`` list of str; ``metadata_json`` str.
+    """
+    lines = polylines_from_segments(system)
+    seg = lines.point_segment
+    first = lines.first_segment
+    counts = np.diff(lines.point_offsets)
+    codes, names = root_class_codes({"root_class": np.asarray(system["root_class"])[first]})
+    duration = run_duration_days(system)
+    radius = np.asarray(system["radius_cm"], dtype=np.float64)[seg]
+    birth = np.asarray(system["birth_day"], dtype=np.float64)[seg]
+    # Root attributes: one value per polyline (its first segment's), repeated over its points.
+    per_root = {
+        "order": np.asarray(system["order"])[first].astype(np.int32),
+        "root_class_code": codes,
+        "plant_id": np.asarray(system["plant_id"])[first].astype(np.int32),
+        "root_id": np.asarray(system["root_id"])[first].astype(np.int64),
+    }
+    point_data = {"radius_cm": radius, "tube_radius_cm": np.maximum(radius, TUBE_RADIUS_FLOOR_CM)}
+    point_data.update({name: np.repeat(values, counts) for name, values in per_root.items()})
+    point_data["segment_id"] = np.asarray(system["segment_id"], dtype=np.int64)[seg]
+    point_data["birth_day"] = birth
+    point_data["age_days"] = duration - birth
+    meta = getattr(system, "metadata", None) or {}
+    return {
+        "points": lines.points, "offsets": lines.point_offsets, "point_data": point_data, "cell_data": per_root,
+        "root_class_names": names, "metadata_json": json.dumps(meta, sort_keys=True, default=str),
+    }
+
+
+def _string_array(name: str, values):
+    import vtk
+
+    array = vtk.vtkStringArray()
+    array.SetName(name)
+    for value in values:
+        array.InsertNextValue(str(value))
+    return array
 
 
 def polydata_from_segments(system):
@@ -42,46 +89,110 @@ def polydata_from_segments(system):
         Point arrays (point ``j >= 1`` of a polyline carries the segment ending there, point 0
         the first segment): ``radius_cm`` (float64), ``tube_radius_cm`` (radius with a floor of
         1e-4 cm; active scalars, ready for ``poly.tube(scalars="tube_radius_cm", absolute=True)``),
-        ``order``, ``root_class_code``, ``plant_id`` (int32), ``root_id``, ``segment_id`` (int64),
-        ``birth_day`` and ``age_days`` (run duration minus birth day, days).
+        ``segment_id`` (int64), ``birth_day`` and ``age_days`` (run duration minus birth day, days),
+        and the root's ``order``, ``root_class_code``, ``plant_id`` (int32) and ``root_id`` (int64).
         Cell arrays, one value per polyline: ``order``, ``root_class_code``, ``plant_id``, ``root_id``.
         Field data: ``root_class_names`` (string array indexed by ``root_class_code``) and
         ``rootsim_metadata`` (the table metadata as JSON).
     """
     import pyvista as pv
 
-    lines = polylines_from_segments(system)
-    seg = lines.point_segment
-    codes, names = root_class_codes(system)
-    duration = run_duration_days(system)
-    radius = np.asarray(system["radius_cm"], dtype=np.float64)
-    birth = np.asarray(system["birth_day"], dtype=np.float64)
-    n_points = len(lines.points)
-    cells = pv.CellArray.from_arrays(lines.point_offsets, np.arange(n_points, dtype=np.int64), deep=True)
-    poly = pv.PolyData(lines.points, lines=cells) if n_points else pv.PolyData()
-    ints = {
-        "order": np.asarray(system["order"]).astype(np.int32),
-        "root_class_code": codes,
-        "plant_id": np.asarray(system["plant_id"]).astype(np.int32),
-        "root_id": np.asarray(system["root_id"]).astype(np.int64),
-    }
-    if n_points:
-        point = poly.point_data
-        point["radius_cm"] = radius[seg]
-        point["tube_radius_cm"] = np.maximum(radius[seg], TUBE_RADIUS_FLOOR_CM)
-        for name, values in ints.items():
-            point[name] = values[seg]
-        point["segment_id"] = np.asarray(system["segment_id"]).astype(np.int64)[seg]
-        point["birth_day"] = birth[seg]
-        point["age_days"] = duration - birth[seg]
-        first = lines.first_segment
-        for name, values in ints.items():
-            poly.cell_data[name] = values[first]
+    arrays = polyline_arrays(system)
+    points = arrays["points"]
+    if len(points):
+        cells = pv.CellArray.from_arrays(arrays["offsets"], np.arange(len(points), dtype=np.int64), deep=True)
+        poly = pv.PolyData(points, lines=cells)
+        for name, values in arrays["point_data"].items():
+            poly.point_data[name] = values
+        for name, values in arrays["cell_data"].items():
+            poly.cell_data[name] = values
         poly.set_active_scalars("tube_radius_cm", preference="point")
-    poly.field_data["root_class_names"] = np.array(names if names else [""], dtype=str)
-    meta = getattr(system, "metadata", None) or {}
-    poly.field_data["rootsim_metadata"] = np.array([json.dumps(meta, sort_keys=True, default=str)])
+    else:
+        poly = pv.PolyData()
+    field = poly.GetFieldData()
+    field.AddArray(_string_array("root_class_names", arrays["root_class_names"] or [""]))
+    field.AddArray(_string_array("rootsim_metadata", [arrays["metadata_json"]]))
     return poly
+
+
+_VTK_TYPES = {np.dtype("<f8"): "Float64", np.dtype("<f4"): "Float32", np.dtype("<i8"): "Int64",
+              np.dtype("<i4"): "Int32", np.dtype("u1"): "UInt8"}
+
+
+def _write_vtp_numpy(arrays: dict, path: Path) -> Path:
+    """VTK XML PolyData, appended raw binary, written straight from numpy arrays.
+
+    Layout of the VTK XML file formats (Kitware, "VTK File Formats", VTK User's Guide): an XML
+    header whose ``DataArray`` elements give byte offsets into one ``<AppendedData
+    encoding="raw">`` block that starts with ``_``; each array there is a UInt64 byte count
+    followed by the little-endian values. String arrays are NUL-terminated UTF-8 strings.
+    Line cells are ``connectivity`` (point ids) and ``offsets`` (end of each cell).
+    """
+    from xml.sax.saxutils import quoteattr
+
+    n_points = len(arrays["points"])
+    offsets = arrays["offsets"]
+    n_lines = max(len(offsets) - 1, 0)
+    blocks: list = []
+    position = 0
+
+    def add(values) -> int:
+        nonlocal position
+        start = position
+        nbytes = values.nbytes if isinstance(values, np.ndarray) else len(values)
+        blocks.append(values)
+        position += 8 + nbytes
+        return start
+
+    def data_array(name, values, components=1):
+        values = np.ascontiguousarray(values, dtype=values.dtype.newbyteorder("<"))
+        kind = _VTK_TYPES[values.dtype]
+        comp = f' NumberOfComponents="{components}"' if components != 1 else ""
+        return (f'<DataArray type="{kind}" Name={quoteattr(name)}{comp} format="appended" '
+                f'offset="{add(values)}"/>')
+
+    def string_array(name, values):
+        data = b"".join(str(v).encode("utf-8") + b"\0" for v in values)
+        return (f'<Array type="String" Name={quoteattr(name)} NumberOfTuples="{len(values)}" format="appended" '
+                f'offset="{add(data)}"/>')
+
+    field = [string_array("root_class_names", arrays["root_class_names"] or [""]),
+             string_array("rootsim_metadata", [arrays["metadata_json"]])]
+    if n_points:
+        point = [data_array(k, v) for k, v in arrays["point_data"].items()]
+        cell = [data_array(k, v) for k, v in arrays["cell_data"].items()]
+    else:
+        point, cell = [], []
+    pts = data_array("Points", arrays["points"].reshape(-1, 3), components=3)
+    conn = data_array("connectivity", np.arange(n_points, dtype=np.int64))
+    ends = data_array("offsets", np.asarray(offsets[1:], dtype=np.int64))
+    nl = "\n        "
+    scalars = ' Scalars="tube_radius_cm"' if n_points else ""
+    header = (
+        '<?xml version="1.0"?>\n'
+        '<VTKFile type="PolyData" version="1.0" byte_order="LittleEndian" header_type="UInt64">\n'
+        "  <PolyData>\n"
+        f"    <FieldData>\n      {(nl[:-2]).join(field)}\n    </FieldData>\n"
+        f'    <Piece NumberOfPoints="{n_points}" NumberOfVerts="0" NumberOfLines="{n_lines}" '
+        'NumberOfStrips="0" NumberOfPolys="0">\n'
+        f"      <PointData{scalars}>\n        {nl.join(point)}\n      </PointData>\n"
+        f"      <CellData>\n        {nl.join(cell)}\n      </CellData>\n"
+        f"      <Points>\n        {pts}\n      </Points>\n"
+        f"      <Lines>\n        {conn}\n        {ends}\n      </Lines>\n"
+        "    </Piece>\n  </PolyData>\n"
+        '  <AppendedData encoding="raw">\n   _'
+    )
+    with atomic_path(path) as tmp, open(tmp, "wb") as fh:
+        fh.write(header.encode("utf-8"))
+        for block in blocks:
+            nbytes = block.nbytes if isinstance(block, np.ndarray) else len(block)
+            fh.write(np.uint64(nbytes).tobytes())
+            if isinstance(block, np.ndarray):
+                block.tofile(fh)
+            else:
+                fh.write(block)
+        fh.write(b"\n  </AppendedData>\n</VTKFile>\n")
+    return path
 
 
 def _write_xml(dataset, path: Path, *, writer_class: str, compression: str | None) -> Path:
@@ -116,13 +227,18 @@ def write_vtp(system, path: str | os.PathLike, *, compression: str | None = None
     path : path-like
         Target file; an empty system gives a valid file with no points.
     compression : {None, "zlib", "lz4"}
-        Compression of the binary arrays (default none: fastest, largest).
+        Compression of the binary arrays. ``None`` (default, fastest, largest) writes the
+        arrays straight from numpy in the appended raw layout; otherwise VTK's own
+        ``vtkXMLPolyDataWriter`` writes the :func:`polydata_from_segments` object.
 
     Returns
     -------
     pathlib.Path
     """
-    return _write_xml(polydata_from_segments(system), Path(path), writer_class="vtkXMLPolyDataWriter",
+    path = Path(path)
+    if compression in (None, "none"):
+        return _write_vtp_numpy(polyline_arrays(system), path)
+    return _write_xml(polydata_from_segments(system), path, writer_class="vtkXMLPolyDataWriter",
                       compression=compression)
 
 
