@@ -217,7 +217,10 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         ruler_end = _add_ruler(plotter, view=view, corner=(x_lo, y_lo), x_span=x_hi - x_lo, depth=-box[4])
         if title:
             plotter.add_text(str(title), position="upper_edge", font_size=max(8, int(14 * scale)), color=TEXT_COLOUR)
-        frame = np.array([x_lo, max(x_hi, ruler_end[0]), y_lo, y_hi, min(box[4], ruler_end[2]), box[5]])
+        z_lo = min(box[4], ruler_end[2])
+        z_span = box[5] - z_lo
+        # room for the ruler's title below its end and for the picture title above the surface
+        frame = np.array([x_lo, max(x_hi, ruler_end[0]), y_lo, y_hi, z_lo - 0.06 * z_span, box[5] + 0.06 * z_span])
         _set_camera(plotter, view, frame=frame, aspect=width / height)
         image = plotter.screenshot(return_img=True)
     finally:
@@ -272,7 +275,8 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float) -> None:
             plotter.add_mesh(part, line_width=max(MIN_LINE_WIDTH_PX, width * scale), lighting=False, **style)
     if color_by == "age":
         plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
-                               position_x=0.86, position_y=0.2, width=0.08, height=0.6, unique_bar=True)
+                               position_x=0.84, position_y=0.2, width=0.06, height=0.6, unique_bar=True,
+                               title_font_size=max(7, int(22 * scale)), label_font_size=max(7, int(20 * scale)))
     else:
         _add_legend(plotter, [[label, colours[i]] for i, label in enumerate(labels)])
 
@@ -308,6 +312,8 @@ def _add_ruler(plotter, *, view: str, corner: tuple[float, float], x_span: float
                               label_format="%.0f" if length / (labels - 1) >= 1 else "%g",
                               label_color=TEXT_COLOUR, tick_color=TEXT_COLOUR, font_size_factor=0.7)
     ruler.SetTitlePosition(1.0)  # title at the far end, clear of the labels
+    ruler.GetProperty().SetColor(0.0, 0.0, 0.0)
+    ruler.GetProperty().SetLineWidth(MIN_LINE_WIDTH_PX)
     return b
 
 

@@ -56,6 +56,17 @@ def random_walk_system(*, n_plants=2, roots_per_plant=4, segments_per_root=30, s
     return RootSystem(cols, {"run": {"duration_days": 30.0}, "stand": {"n_plants": n_plants}})
 
 
+def vertical_root(*, depth_cm: float = 20.0, n: int = 20) -> RootSystem:
+    """One straight order-0 root from the surface to ``depth_cm`` at x = y = 0; segment k born on day k."""
+    z = np.linspace(0, -depth_cm, n + 1)
+    cols = empty_columns()
+    cols.update(segment_id=np.arange(n), parent_id=np.arange(n) - 1, plant_id=np.zeros(n, int), root_id=np.zeros(n, int),
+                order=np.zeros(n, int), root_class=np.array(["taproot"] * n), x0=np.zeros(n), y0=np.zeros(n), z0=z[:-1],
+                x1=np.zeros(n), y1=np.zeros(n), z1=z[1:], radius_cm=np.full(n, 0.1), length_cm=np.full(n, depth_cm / n),
+                birth_day=np.arange(n, dtype=float))
+    return RootSystem(cols, {"run": {"duration_days": float(n)}})
+
+
 @pytest.fixture(scope="module")
 def system():
     return random_walk_system()
@@ -127,14 +138,7 @@ def test_title_is_drawn_at_the_top(system):
 
 def test_vertical_root_side_view_is_a_vertical_line():
     # one straight order-0 root 0..-20 cm at x = 0: in the side view its pixels form one narrow column
-    n = 20
-    z = np.linspace(0, -20, n + 1)
-    cols = empty_columns()
-    cols.update(segment_id=np.arange(n), parent_id=np.arange(n) - 1, plant_id=np.zeros(n, int), root_id=np.zeros(n, int),
-                order=np.zeros(n, int), root_class=np.array(["taproot"] * n), x0=np.zeros(n), y0=np.zeros(n), z0=z[:-1],
-                x1=np.zeros(n), y1=np.zeros(n), z1=z[1:], radius_cm=np.full(n, 0.1), length_cm=np.ones(n),
-                birth_day=np.arange(n, dtype=float))
-    image = render_image(RootSystem(cols, {}), size=SIZE, view="side")
+    image = render_image(vertical_root(), size=SIZE, view="side")
     blue = np.all(np.abs(image.astype(int) - TAB10_BLUE) <= 6, axis=-1)
     blue[: int(0.25 * SIZE[1]), int(0.7 * SIZE[0]):] = False  # ignore the legend swatch
     ys, xs = np.nonzero(blue)
@@ -183,3 +187,31 @@ def test_ruler_covers_the_depth_in_round_steps(extent, length, labels):
     assert got_length == pytest.approx(length) and got_labels == labels
     step = got_length / (got_labels - 1)
     assert got_length >= extent and got_length - step < extent  # shortest whole number of steps
+
+
+def test_depth_ruler_is_true_to_scale_in_side_view():
+    # a 20 cm root and the ruler (0..20 cm: ruler_ticks(20) = 20 cm in 5-cm steps) span the same pixel rows
+    assert ruler_ticks(20.0)[0] == 20.0
+    image = render_image(vertical_root(depth_cm=20.0), size=SIZE, view="side", color_by="age").astype(int)
+    coloured = (image.max(axis=-1) - image.min(axis=-1)) > 40  # viridis colours are far from grey
+    black = np.all(image < 40, axis=-1)
+    left = slice(0, SIZE[0] // 2)
+    root_rows = np.flatnonzero(coloured[:, left].any(axis=1))
+    ruler_column = int(np.argmax(black[:, left].sum(axis=0)))  # the ruler's axis line: the longest black column
+    ruler_rows = np.flatnonzero(black[:, ruler_column])
+    assert ruler_rows.size > 0.5 * SIZE[1]
+    assert abs((root_rows.max() - root_rows.min()) - (ruler_rows.max() - ruler_rows.min())) <= 3
+    assert abs(root_rows.min() - ruler_rows.min()) <= 3  # both start at the surface
+
+
+def test_age_colours_follow_viridis_from_young_tip_to_old_base():
+    # ages: 20 days at the base, 1 day at the tip (duration 20, birth days 0..19); the colour map's
+    # ends are viridis(0) = #440154 and viridis(1) = #fde725 (matplotlib's published viridis table)
+    image = render_image(vertical_root(), size=SIZE, view="side", color_by="age").astype(int)
+    coloured = (image.max(axis=-1) - image.min(axis=-1)) > 40
+    coloured[:, SIZE[0] // 2:] = False  # leave out the scalar bar
+    column = int(np.argmax(coloured.sum(axis=0)))  # the middle of the 2-pixel line (its edges are blended)
+    rows = np.flatnonzero(coloured[:, column])
+    base, tip = image[rows.min() + 1, column], image[rows.max() - 1, column]
+    np.testing.assert_allclose(base, [0xFD, 0xE7, 0x25], atol=25)
+    np.testing.assert_allclose(tip, [0x44, 0x01, 0x54], atol=25)
