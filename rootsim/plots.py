@@ -113,7 +113,8 @@ def profile_order_rld(profile) -> dict[int, np.ndarray]:
 
 def _as_profiles(data, *, layer_cm: float, area_cm2: float | None, box) -> dict[str, Any]:
     """Normalise the ``data`` argument of :func:`plot_rld_profile` to ``{label: profile DataFrame}``."""
-    if isinstance(data, Mapping) and not hasattr(data, "columns"):
+    is_table = hasattr(data, "columns") or (isinstance(data, Mapping) and "segment_id" in data and "z0" in data)
+    if isinstance(data, Mapping) and not is_table:
         items = list(data.items())
     elif isinstance(data, (list, tuple)):
         items = [(f"variant {i + 1}", d) for i, d in enumerate(data)]
@@ -151,9 +152,10 @@ def plot_rld_profile(
     Parameters
     ----------
     data : RootSystem, pandas.DataFrame, sequence or mapping of them
-        A root system (profiled with :func:`rootsim.analysis.layer_profile`), a profile DataFrame
-        already computed, or several of either: a mapping ``{label: item}`` (labels shown in the
-        legend, e.g. variant names) or a list (labelled ``variant 1``, ``variant 2``, ...).
+        A root system or segment table (RootSystem, DataFrame, or dict of columns; profiled with
+        :func:`rootsim.analysis.layer_profile`), a profile DataFrame already computed, or several
+        of either: a mapping ``{label: item}`` (labels shown in the legend, e.g. variant names)
+        or a list (labelled ``variant 1``, ``variant 2``, ...).
     layer_cm : float
         Layer thickness, cm, used when profiling root systems.
     area_cm2 : float, optional

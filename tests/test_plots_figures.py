@@ -233,3 +233,15 @@ def test_save_figure_rejects_unknown_suffix(tmp_path):
 def test_save_figure_vector_formats(tmp_path, suffix, magic):
     path = save_figure(plot_projection(vertical_root_with_lateral()), tmp_path / f"p{suffix}")
     assert path.read_bytes()[:5].startswith(magic)  # file signatures of the formats (SVG/XML, PDF specs)
+
+
+def test_rld_profile_accepts_segment_tables_in_several_forms():
+    analysis = pytest.importorskip("rootsim.analysis")
+    if not hasattr(analysis, "layer_profile"):
+        pytest.skip("rootsim.analysis.layer_profile not available yet")
+    system = vertical_root_with_lateral(lateral_length_cm=0.0)
+    columns = {c: system[c] for c in system.columns}
+    expected = np.full(4, 5.0 / (5.0 * 50.0))  # RLD = L / (t * A): 5 cm of root in each 5-cm layer over 50 cm², 0-20 cm
+    for data in (system, system.to_dataframe(), columns):
+        x, _ = lines_by_label(plot_rld_profile(data, layer_cm=5.0, area_cm2=50.0).axes[0])["all roots"]
+        np.testing.assert_allclose(x, expected)
