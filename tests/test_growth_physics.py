@@ -262,3 +262,26 @@ def test_exotropism_holds_the_initial_heading_against_random_turning():
     se_without = without.std(ddof=1) / np.sqrt(n)
     assert abs(without.mean() - np.exp(-sigma2 * s)) < 4.5 * se_without + 0.005
     assert with_exo.mean() > without.mean() + 0.5
+
+
+@pytest.mark.parametrize("step_days", [0.05])
+def test_random_turning_root_has_worm_like_chain_end_to_end_statistics(step_days):
+    # A path whose unit tangent is spherical Brownian motion has tangent correlation
+    # E[h(s) . h(s')] = exp(-|s - s'| / P) with persistence length P = 1/σ² (see the mean-cosine test), so
+    # the tip displacement R over arc length S obeys E[R . h0] = P (1 - exp(-S/P)) and
+    # E[|R|²] = 2 P S - 2 P² (1 - exp(-S/P)) (Kratky-Porod worm-like chain; Kratky & Porod 1949,
+    # Recl. Trav. Chim. Pays-Bas 68:1106-1122, doi:10.1002/recl.19490681203). The roots start vertical,
+    # 100 cm deep, and grow 20 cm (no boundary is reachable); 8000 roots, 4.5 standard errors.
+    sigma_deg, days = 30.0, 20.0
+    persistence = 1.0 / np.radians(sigma_deg) ** 2
+    cls = root_class(random_turning_deg_per_sqrt_cm=sigma_deg)
+    spec = make_spec({"main": cls}, emergence=[{"root_class": "main", "roots_per_event": 8000}],
+                     days=days, step_days=step_days, seed=8, sowing_depth_cm=100.0)
+    per_root = grow_frame(spec).groupby("root_id")
+    end_to_end = per_root[["x1", "y1", "z1"]].last().to_numpy() - per_root[["x0", "y0", "z0"]].first().to_numpy()
+    along = -end_to_end[:, 2]
+    square = np.sum(end_to_end**2, axis=1)
+    expected_along = persistence * (1 - np.exp(-days / persistence))
+    expected_square = 2 * persistence * days - 2 * persistence**2 * (1 - np.exp(-days / persistence))
+    assert abs(along.mean() - expected_along) < 4.5 * along.std(ddof=1) / np.sqrt(along.size)
+    assert abs(square.mean() - expected_square) < 4.5 * square.std(ddof=1) / np.sqrt(square.size), square.mean()
