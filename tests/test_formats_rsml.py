@@ -187,3 +187,48 @@ def test_cli_bad_files_exit_2_and_write_nothing(tmp_path, capsys, case):
 def test_cli_missing_file(tmp_path, capsys):
     assert main(["import-rsml", str(tmp_path / "nope.rsml"), "--out", str(tmp_path / "o")]) == 2
     assert capsys.readouterr().err.startswith("error: ")
+
+
+def test_namespaced_file_and_nested_connection(tmp_path):
+    # A default XML namespace on every element, and a second-order lateral whose first point is
+    # 0.3 cm off its parent (hand-computed: parent runs along x at z = -1; lateral starts at
+    # (0.5, 0, -1.3), nearest parent point (0.5, 0, -1), so a 0.3 cm connecting segment is added).
+    text = """<rsml xmlns="urn:example:rsml"><scene><plant>
+      <root label="tap"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/></polyline></geometry>
+        <root><geometry><polyline><point x="0" y="0" z="-1"/><point x="2" y="0" z="-1"/></polyline></geometry>
+          <root><geometry><polyline><point x="0.5" y="0" z="-1.3"/><point x="0.5" y="0" z="-2.3"/></polyline></geometry></root>
+        </root>
+      </root></plant></scene></rsml>"""
+    path = tmp_path / "ns.rsml"
+    path.write_text(text)
+    system = import_file(path)
+    assert np.allclose(system["length_cm"], [1.0, 2.0, 0.3, 1.0])
+    assert system["order"].tolist() == [0, 1, 2, 2]
+    assert system["parent_id"].tolist() == [-1, 0, 1, 2]
+    assert list(system["root_class"]) == ["tap", "order_1", "order_2", "order_2"]
+    assert np.allclose([system["x0"][2], system["z0"][2]], [0.5, -1.0])
+    assert system.metadata["import"]["connecting_segments"] == 1
+
+
+MORE_BAD = {
+    "missing_z": ('<rsml><scene><plant id="1"><root id="7"><geometry><polyline><point x="0" y="0" z="0"/>'
+                  '<point x="0" y="1"/></polyline></geometry></root></plant></scene></rsml>',
+                  "plant 1 > root 7 > geometry: point 2 has no z coordinate"),
+    "bad_sample": ('<rsml><scene><plant id="1"><root id="7"><geometry><polyline><point x="0" y="0" z="0"/>'
+                   '<point x="0" y="1" z="-1"/></polyline></geometry><functions><function name="diameter" '
+                   'domain="polyline"><sample>0.1</sample><sample>thin</sample></function></functions></root>'
+                   "</plant></scene></rsml>",
+                   "plant 1 > root 7 > function diameter: sample 'thin' is not a number"),
+    "no_geometry": ('<rsml><scene><plant id="1"><root id="7"/></plant></scene></rsml>',
+                    "plant 1 > root 7: no <geometry><polyline>"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(MORE_BAD))
+def test_more_bad_files(tmp_path, case):
+    text, message = MORE_BAD[case]
+    path = tmp_path / "bad.rsml"
+    path.write_text(text)
+    with pytest.raises(FormatError) as info:
+        import_file(path)
+    assert str(info.value) == f"{path}: {message}" or str(info.value).startswith(f"{path}: {message}")
