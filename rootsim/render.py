@@ -21,10 +21,14 @@ import numpy as np
 from .atomic import atomic_path
 from .errors import RootsimError
 
-__all__ = ["COLOR_BY", "VIEWS", "render_image", "render_png", "parse_size"]
+__all__ = ["COLOR_BY", "STYLES", "VIEWS", "render_image", "render_png", "parse_size"]
 
 #: Allowed ``color_by`` values.
 COLOR_BY = ("order", "age", "root_class", "plant")
+#: Allowed ``style`` values.
+STYLES = ("lines", "tubes")
+#: Sides of the polygon tubes are built from.
+TUBE_SIDES = 10
 #: Allowed ``view`` values: side (looking along +y at the x–z plane), top (looking down), iso.
 VIEWS = ("side", "top", "iso")
 
@@ -163,7 +167,7 @@ def _scene_bounds(system) -> np.ndarray:
 
 
 def render_image(system, *, color_by: str = "order", view: str = "iso", size=(1200, 900),
-                 title: str | None = None) -> np.ndarray:
+                 title: str | None = None, style: str = "lines", tube_scale: float = 1.0) -> np.ndarray:
     """Render a root system offscreen and return the picture.
 
     Parameters
@@ -181,6 +185,12 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         Image width and height in pixels (16..8192 each).
     title : str, optional
         Text at the top edge.
+    style : {"lines", "tubes"}
+        ``lines`` (fast, for any size; thicker for lower orders) or shaded ``tubes`` of the
+        segment radius times ``tube_scale`` (for close-ups; true-scale roots of a whole stand
+        are thinner than a pixel).
+    tube_scale : float
+        Factor on the radius of tubes (> 0), e.g. 5 to thicken fine roots.
 
     Returns
     -------
@@ -190,9 +200,13 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     Raises
     ------
     RootsimError
-        Unknown ``color_by`` or ``view``, or a bad ``size``.
+        Unknown ``color_by``, ``view`` or ``style``, a bad ``size`` or ``tube_scale``.
     """
     width, height = _check_options(color_by, view, size)
+    if style not in STYLES:
+        raise RootsimError(f"unknown style {style!r} (allowed: {', '.join(STYLES)})")
+    if not (isinstance(tube_scale, (int, float)) and math.isfinite(tube_scale) and tube_scale > 0):
+        raise RootsimError(f"tube scale {tube_scale!r} not allowed (need a number > 0)")
     _prepare_offscreen()
     import pyvista as pv
 
@@ -207,7 +221,8 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     try:
         plotter.set_background(BACKGROUND)
         if len(system):
-            _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale)
+            _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale,
+                       tube_scale=tube_scale if style == "tubes" else None)
         plane = pv.Plane(center=(0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi), 0.0), direction=(0, 0, 1),
                          i_size=x_hi - x_lo, j_size=y_hi - y_lo, i_resolution=1, j_resolution=1)
         plotter.add_mesh(plane, color=SURFACE_COLOUR, opacity=SURFACE_OPACITY, lighting=False)
@@ -254,9 +269,10 @@ def _line_subset(poly, cells: np.ndarray, *, point_scalars: dict, cell_scalars: 
     return part
 
 
-def _add_roots(plotter, poly, *, color_by: str, scale: float) -> None:
-    """Add the roots, one line actor per root-order group (order 0, 1, >= 2: widths differ), and
-    their legend (categorical colourings) or scalar bar (age)."""
+def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float | None = None) -> None:
+    """Add the roots, one actor per root-order group (order 0, 1, >= 2), and their legend
+    (categorical colourings) or scalar bar (age). Lines get widths by order; with ``tube_scale``
+    the roots become shaded tubes of radius ``tube_radius_cm * tube_scale`` instead."""
     point_scalars, cell_scalars = {}, {}
     if color_by == "age":
         age = np.asarray(poly.point_data["age_days"], dtype=float)
@@ -268,11 +284,18 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float) -> None:
         colours = _palette(len(labels))
         cell_scalars["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
         style = {"scalars": "colour_rgb", "rgb": True, "preference": "cell"}
+    if tube_scale is not None:
+        point_scalars["drawn_radius_cm"] = np.asarray(poly.point_data["tube_radius_cm"], dtype=float) * tube_scale
     order = np.asarray(poly.cell_data["order"])
     for width, mask in zip(ORDER_LINE_WIDTH_PX, (order == 0, order == 1, order >= 2)):
-        if mask.any():
-            part = _line_subset(poly, np.flatnonzero(mask), point_scalars=point_scalars, cell_scalars=cell_scalars)
+        if not mask.any():
+            continue
+        part = _line_subset(poly, np.flatnonzero(mask), point_scalars=point_scalars, cell_scalars=cell_scalars)
+        if tube_scale is None:
             plotter.add_mesh(part, line_width=max(MIN_LINE_WIDTH_PX, width * scale), lighting=False, **style)
+        else:
+            tubes = part.tube(scalars="drawn_radius_cm", absolute=True, n_sides=TUBE_SIDES, capping=True)
+            plotter.add_mesh(tubes, smooth_shading=True, **style)
     if color_by == "age":
         plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
                                position_x=0.84, position_y=0.2, width=0.06, height=0.6, unique_bar=True,

@@ -80,3 +80,14 @@ def test_render_unwritable_target_exit_2(results_dir, tmp_path, capsys):
 def test_render_wrong_suffix_exit_2(results_dir, tmp_path, capsys):
     code, _, err = run_cli(["render", results_dir, "--png", tmp_path / "x.jpg"], capsys)
     assert code == 2 and err.startswith("error:") and ".png" in err
+
+
+def test_render_tubes_and_bad_tube_scale(results_dir, tmp_path, capsys):
+    target = tmp_path / "tubes.png"
+    code, _, err = run_cli(["render", results_dir, "--png", target, "--size", "96x72", "--style", "tubes",
+                            "--tube-scale", "4"], capsys)
+    assert code == 0, err
+    assert target.exists()
+    code, _, err = run_cli(["render", results_dir, "--png", tmp_path / "y.png", "--style", "tubes",
+                            "--tube-scale", "-1"], capsys)
+    assert code == 2 and err.startswith("error:") and "tube scale" in err

@@ -215,3 +215,30 @@ def test_age_colours_follow_viridis_from_young_tip_to_old_base():
     base, tip = image[rows.min() + 1, column], image[rows.max() - 1, column]
     np.testing.assert_allclose(base, [0xFD, 0xE7, 0x25], atol=25)
     np.testing.assert_allclose(tip, [0x44, 0x01, 0x54], atol=25)
+
+
+def test_tubes_have_the_scaled_radius():
+    # true to scale: a tube of radius 0.1 cm x 5 is 1 cm wide, i.e. as wide as 1/20 of the 20 cm ruler
+    image = render_image(vertical_root(depth_cm=20.0), size=SIZE, view="side", style="tubes", tube_scale=5.0).astype(int)
+    black = np.all(image < 40, axis=-1)
+    ruler_column = int(np.argmax(black[:, : SIZE[0] // 2].sum(axis=0)))
+    ruler_rows = np.flatnonzero(black[:, ruler_column])
+    px_per_cm = (ruler_rows.max() - ruler_rows.min()) / 20.0
+    middle = (ruler_rows.max() + ruler_rows.min()) // 2
+    row = np.any(image[middle] < 230, axis=-1)
+    row[: ruler_column + 4] = False  # leave out the ruler and its labels
+    row[int(0.7 * SIZE[0]):] = False  # and the legend
+    width_px = np.ptp(np.flatnonzero(row)) + 1
+    assert width_px == pytest.approx(1.0 * px_per_cm, abs=2.0), (width_px, px_per_cm)
+    lines = render_image(vertical_root(depth_cm=20.0), size=SIZE, view="side").astype(int)
+    assert np.abs(lines - image).mean() > 0.5  # tubes are not the same picture as lines
+
+
+@pytest.mark.parametrize("kwargs,match", [
+    ({"style": "ribbons"}, "unknown style 'ribbons' \\(allowed: lines, tubes\\)"),
+    ({"style": "tubes", "tube_scale": 0}, "tube scale 0 not allowed"),
+    ({"style": "tubes", "tube_scale": float("nan")}, "tube scale nan not allowed"),
+])
+def test_bad_style_options(kwargs, match):
+    with pytest.raises(RootsimError, match=match):
+        render_image(vertical_root(), size=SIZE, **kwargs)

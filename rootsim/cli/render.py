@@ -23,6 +23,8 @@ cm, a legend (or a colour bar for age) and an optional title.
   --color-by plant       one colour per plant of the stand
   --color-by age         days since the segment formed (colour bar)
   --view side|top|iso    looking horizontally, straight down, or obliquely from above
+  --style tubes          shaded tubes of the real root radius instead of lines (close-ups
+                         of a plant; add --tube-scale 5 to thicken fine roots)
 
 DIR is a results directory written by 'rootsim grow' (holding segments.parquet) or a
 segments.parquet file. A root system without segments renders as an empty scene
@@ -31,11 +33,12 @@ segments.parquet file. A root system without segments renders as an empty scene
 Examples:
   rootsim render results/demo --png results/demo/roots.png
   rootsim render results/demo --png side.png --view side --color-by age --size 1600x1200 --title "Trial 7, day 40"
+  rootsim render results/pot_test --png tubes.png --style tubes --tube-scale 3
 """
 
 
 def register(parser: argparse.ArgumentParser) -> None:
-    from ..render import COLOR_BY, VIEWS
+    from ..render import COLOR_BY, STYLES, VIEWS
 
     parser.add_argument("dir", metavar="DIR", help="results directory (or segments.parquet) to render")
     parser.add_argument("--png", metavar="FILE", required=True, help="PNG file to write")
@@ -43,6 +46,10 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--view", choices=VIEWS, default="iso", help="viewpoint (default iso)")
     parser.add_argument("--size", metavar="WxH", default="1200x900", help="image size in pixels (default 1200x900)")
     parser.add_argument("--title", metavar="T", default=None, help="title at the top of the picture")
+    parser.add_argument("--style", choices=STYLES, default="lines",
+                        help="lines (default; fast for any stand) or shaded tubes of the root radius")
+    parser.add_argument("--tube-scale", metavar="F", type=float, default=1.0,
+                        help="with --style tubes: thicken tubes by this factor (default 1 = true radius)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -55,6 +62,7 @@ def run(args: argparse.Namespace) -> int:
     system = RootSystem.read(args.dir)
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
-    path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title)
+    path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
+                      style=args.style, tube_scale=args.tube_scale)
     print(path)
     return 0
