@@ -58,23 +58,31 @@ def test_lateral_count_and_positions_on_a_finished_axis(length, basal, apical, i
     np.testing.assert_allclose(laterals[["x0", "y0"]].to_numpy(), 0.0, atol=1e-9)
 
 
+def _lateral_timing(days, step_days):
+    """Analytic birth days of the laterals of ``_axis()`` up to ``days`` and the grown lengths per lateral.
+
+    Linear growth: the axis (rate ra) reaches basal + j d + apical at t_j = (basal + j d + apical) / ra
+    (when that is within its 20 cm), and lateral j then has length min(rl (T - t_j), Lmax) (common practice).
+    Returns (born, expected lengths, grown lengths longest first, grown axis length).
+    """
+    ra, basal, apical, d, rl, lmax = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
+    df = grow_frame(make_spec({"axis": _axis(), "lateral": _lateral()}, days=days, step_days=step_days))
+    threshold = basal + apical + d * np.arange(20)
+    t_j = threshold / ra
+    born = t_j[(t_j < days) & (threshold <= 20.0)]
+    per_root = df.groupby("root_id")["length_cm"].sum()
+    grown = np.sort(per_root.loc[_laterals(df)["root_id"].to_numpy()].to_numpy())[::-1]
+    return born, np.minimum(rl * (days - born), lmax), grown, per_root.loc[0]
+
+
 @pytest.mark.parametrize("days,step_days", [(5.0, 0.5), (7.3, 0.3), (6.0, 0.25), (4.1, 1.0)])
 def test_laterals_emerge_when_the_apical_zone_passes_and_grow_from_then(days, step_days):
-    # Analytic timing for linear growth: the axis (rate ra) reaches basal + j d + apical at
-    # t_j = (basal + j d + apical) / ra; lateral j then has length min(rl (T - t_j), Lmax). The chosen run
-    # lengths have no lateral born during the final step (that case has its own test).
-    ra, basal, apical, d, rl, lmax = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
-    spec = make_spec({"axis": _axis(), "lateral": _lateral()}, days=days, step_days=step_days)
-    df = grow_frame(spec)
-    t_j = (basal + apical + d * np.arange(20)) / ra
-    born = t_j[(t_j < days) & (basal + apical + d * np.arange(20) <= 20.0)]
+    # The chosen run lengths have no lateral born during the final step (that case has its own test).
+    born, expected, grown, axis_length = _lateral_timing(days, step_days)
     last_step_start = (np.ceil(days / step_days - 1e-9) - 1) * step_days
     assert not np.any((born > last_step_start) & (born < days)), "scenario must not need the final-step case"
-    per_root = df.groupby("root_id")["length_cm"].sum()
-    laterals = _laterals(df)
-    lengths = np.sort(per_root.loc[laterals["root_id"].to_numpy()].to_numpy())[::-1]
-    np.testing.assert_allclose(lengths, np.minimum(rl * (days - born), lmax), rtol=1e-9)
-    assert per_root.loc[0] == pytest.approx(min(ra * days, 20.0), rel=1e-12)
+    np.testing.assert_allclose(grown, expected, rtol=1e-9)
+    assert axis_length == pytest.approx(min(2.0 * days, 20.0), rel=1e-12)
 
 
 def _many_axes(n_axes, axis, laterals: dict, *, seed, days=30.0, angle_deg=30.0):
@@ -207,3 +215,63 @@ def test_second_order_laterals_have_order_two_and_count_by_the_same_rule():
     assert (firsts["order"] == 1).sum() == n1
     assert (firsts["order"] == 2).sum() == n1 * n2
     assert set(firsts.loc[firsts["order"] == 2, "root_class"]) == {"fine"}
+
+
+def test_emergence_events_bring_their_roots_at_their_days_and_depths():
+    # event_count events every interval_days from first_day, roots_per_event each, at depth_cm shifted by
+    # depth_step_cm per event; each root then grows r (T - t_event) (linear law). With no azimuth jitter the
+    # roots of one event are spread evenly: 360 / roots_per_event apart.
+    rate, days, first, interval, count, per_event = 1.5, 12.0, 1.2, 2.5, 3, 4
+    spec = make_spec({"seminal": root_class(initial_angle_from_vertical_deg=40.0, elongation_rate_cm_per_day=rate)},
+                     emergence=[{"root_class": "seminal", "first_day": first, "event_count": count,
+                                 "roots_per_event": per_event, "interval_days": interval, "depth_cm": 2.0,
+                                 "depth_step_cm": 1.5, "azimuth_jitter_deg": 0.0}],
+                     days=days, step_days=0.5)
+    df = grow_frame(spec)
+    firsts = first_segments(df)
+    assert len(firsts) == count * per_event
+    event_day = first + interval * np.arange(count)
+    depth = -firsts["z0"].to_numpy()
+    np.testing.assert_allclose(np.sort(depth), np.repeat(2.0 + 1.5 * np.arange(count), per_event), atol=1e-12)
+    per_root = df.groupby("root_id")["length_cm"].sum().loc[firsts["root_id"].to_numpy()].to_numpy()
+    event_of = np.rint((depth - 2.0) / 1.5).astype(int)
+    np.testing.assert_allclose(per_root, rate * (days - event_day[event_of]), rtol=1e-12)
+    d = firsts[["x1", "y1"]].to_numpy() - firsts[["x0", "y0"]].to_numpy()
+    azimuth = np.degrees(np.arctan2(d[:, 1], d[:, 0]))
+    for e in range(count):
+        a = np.sort(np.mod(azimuth[event_of == e], 360.0))
+        gaps = np.diff(np.r_[a, a[0] + 360.0])
+        np.testing.assert_allclose(gaps, 360.0 / per_event, atol=1e-7)
+
+
+def test_upward_depth_steps_stop_at_the_soil_surface():
+    # Shoot nodes step upward (negative depth_step_cm); a node above ground would put roots in the air, so
+    # every root starts at or below the surface.
+    spec = make_spec({"nodal": root_class(initial_angle_from_vertical_deg=70.0)},
+                     emergence=[{"root_class": "nodal", "event_count": 5, "interval_days": 1.0, "roots_per_event": 3,
+                                 "depth_cm": 2.0, "depth_step_cm": -0.8}], days=10.0)
+    df = grow_frame(spec)
+    assert np.all(df[["z0", "z1"]].to_numpy() <= 0.0)
+    np.testing.assert_allclose(np.sort(np.unique(np.round(-first_segments(df)["z0"].to_numpy(), 9))),
+                               [0.0, 0.4, 1.2, 2.0])
+
+
+def test_roots_older_than_their_lifespan_are_left_out_with_their_laterals():
+    # Laterals born at t_j (as above) with a 4-day lifespan: at T only those with t_j + 4 > T remain, each of
+    # length rl (T - t_j). An axis with a 10-day lifespan takes all its laterals with it.
+    lateral = _lateral(max_length_cm=100.0, lifespan_days=4.0)
+    axis = _axis(max_length_cm=60.0)
+    days = 20.0
+    df = grow_frame(make_spec({"axis": axis, "lateral": lateral}, days=days, step_days=0.5))
+    laterals = _laterals(df)
+    j = np.arange(100)
+    t_j = (3.0 + 1.5 * j) / 2.0
+    t_j = t_j[(3.0 + 1.5 * j <= 60.0) & (t_j < days)]
+    alive = t_j[t_j + 4.0 > days]
+    per_root = df.groupby("root_id")["length_cm"].sum()
+    lengths = np.sort(per_root.loc[laterals["root_id"].to_numpy()].to_numpy())[::-1]
+    np.testing.assert_allclose(lengths, 0.5 * (days - alive), rtol=1e-9)
+    np.testing.assert_array_equal(df["segment_id"], np.arange(len(df)))
+    assert df["parent_id"].max() < len(df)
+    short_lived = grow_frame(make_spec({"axis": _axis(lifespan_days=10.0), "lateral": _lateral()}, days=12.0))
+    assert len(short_lived) == 0
