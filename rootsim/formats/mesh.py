@@ -257,15 +257,26 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     ring_radius[end_ring[mj]] = 0.5 * (radius[mj] + radius[mj + 1])
     ring_plane[end_ring[mj]], _ = _unit(tangent[mj] + tangent[mj + 1])
 
-    angle = theta[ring_edge][:, None] + (2 * np.pi / n_sides) * np.arange(n_sides)[None, :]
-    cos_a, sin_a = np.cos(angle), np.sin(angle)
+    # Ring vertex: centre + radius * (w - (w.m / t.m) t), with w the ring direction in the edge's
+    # transported frame, m the ring plane normal (mitre bisector or the tangent), t the tangent.
+    # With e1 = cos(theta) u + sin(theta) v (the transported frame) and e2 = t x e1, the direction
+    # at polygon angle alpha is cos(alpha) e1 + sin(alpha) e2.
     re = ring_edge
-    w = cos_a[..., None] * u[re][:, None, :] + sin_a[..., None] * v[re][:, None, :]  # (rings, sides, 3)
     t_r = tangent[re]
-    m_r = ring_plane
-    shift = np.einsum("rsk,rk->rs", w, m_r) / np.einsum("rk,rk->r", t_r, m_r)[:, None]
-    ring_vertices = ring_center[:, None, :] + ring_radius[:, None, None] * (w - shift[..., None] * t_r[:, None, :])
-    del w, shift, cos_a, sin_a, angle
+    th = theta[re][:, None]
+    e1 = np.cos(th) * u[re] + np.sin(th) * v[re]
+    e2 = np.cross(t_r, e1)
+    alpha = (2 * np.pi / n_sides) * np.arange(n_sides)
+    w = e1[:, None, :] * np.cos(alpha)[None, :, None]  # (rings, sides, 3), built in place below
+    w += e2[:, None, :] * np.sin(alpha)[None, :, None]
+    del e1, e2, th
+    shift = np.einsum("rsk,rk->rs", w, ring_plane)
+    shift /= np.einsum("rk,rk->r", t_r, ring_plane)[:, None]
+    w -= shift[..., None] * t_r[:, None, :]
+    del shift
+    w *= ring_radius[:, None, None]
+    w += ring_center[:, None, :]
+    ring_vertices = w
 
     piece_last_edge = np.append(pf[1:] - 1, n_edges - 1)
     centers = np.concatenate([a[pf], b[piece_last_edge]])
@@ -286,7 +297,7 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     ce = np.broadcast_to(cap_end[:, None], (n_pieces, n_sides))
     caps_start = np.stack([cs, rs + kn, rs + kk], axis=-1).reshape(-1, 3)
     caps_end = np.stack([ce, re_ + kk, re_ + kn], axis=-1).reshape(-1, 3)
-    faces = np.concatenate([sides_faces, caps_start, caps_end]).astype(np.int64)
+    faces = np.concatenate([sides_faces, caps_start, caps_end]).astype(np.int64, copy=False)
 
     piece_poly = edge_poly[pf]
     face_poly = np.concatenate([np.repeat(edge_poly, 2 * n_sides), np.repeat(piece_poly, n_sides),
@@ -373,6 +384,7 @@ def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
     with open(path, "wb") as fh:
         fh.write(b"rootsim tube mesh, units cm".ljust(80, b" "))
         fh.write(np.uint32(len(faces)).tobytes())
+        vertices = vertices.astype(np.float32)
         for start in range(0, len(faces), _STL_BLOCK):
             tri = vertices[faces[start:start + _STL_BLOCK]]  # (b, 3, 3)
             normal = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
