@@ -109,9 +109,20 @@ def test_insertion_angles_follow_the_normal_distribution_of_the_spec():
     assert stats.kstest(angles, stats.norm(mean, sd).cdf).pvalue > 1e-3
 
 
-def test_fixed_insertion_angle_is_exact_on_an_inclined_parent():
-    df = _many_axes(5, _axis(), {"lateral": _lateral(insertion_angle_deg=47.0)}, seed=2, angle_deg=35.0)
-    np.testing.assert_allclose(insertion_angles_deg(df, _laterals(df)), 47.0, atol=1e-9)
+@pytest.mark.parametrize("gravitropism,turning", [(0.0, 0.0), (0.2, 20.0)])
+def test_fixed_insertion_angle_is_exact_and_laterals_start_on_their_parent_segment(gravitropism, turning):
+    # Inclined straight parents, and curving, wandering ones: the angle to the parent segment is the spec's
+    # fixed insertion angle, and the lateral's first point lies on that segment (point-segment distance,
+    # vector geometry).
+    axis = _axis(gravitropism_per_cm=gravitropism, random_turning_deg_per_sqrt_cm=turning)
+    df = _many_axes(5, axis, {"lateral": _lateral(insertion_angle_deg=47.0)}, seed=2, angle_deg=35.0)
+    laterals = _laterals(df)
+    np.testing.assert_allclose(insertion_angles_deg(df, laterals), 47.0, atol=1e-9)
+    parent = df.loc[laterals["parent_id"].to_numpy()]
+    a, b = parent[["x0", "y0", "z0"]].to_numpy(), parent[["x1", "y1", "z1"]].to_numpy()
+    p = laterals[["x0", "y0", "z0"]].to_numpy()
+    u = np.clip(np.sum((p - a) * (b - a), axis=1) / np.sum((b - a) ** 2, axis=1), 0.0, 1.0)
+    np.testing.assert_allclose(np.linalg.norm(p - (a + u[:, None] * (b - a)), axis=1), 0.0, atol=1e-9)
 
 
 def test_truncated_normal_insertion_angles_stay_in_range_with_truncnorm_shape():
