@@ -114,3 +114,18 @@ def test_api_unknown_suffix_lists_allowed(tmp_path):
 
     with pytest.raises(FormatError, match=r"allowed: \.glb, \.obj, \.ply, \.rsml, \.stl, \.vti, \.vtp"):
         export_file(random_root_system(rng=1), tmp_path / "roots.xyz")
+
+
+def test_rootsystem_export_method_and_dataframe_input(tmp_path):
+    # RootSystem.export forwards to export_file; a pandas DataFrame in the table layout works too.
+    system = random_root_system(rng=6)
+    path = system.export(tmp_path / "roots.vtp")
+    reader = vtk.vtkXMLPolyDataReader()
+    reader.SetFileName(str(path))
+    reader.Update()
+    assert reader.GetOutput().GetNumberOfPoints() == len(system) + np.unique(system["root_id"]).size
+    from rootsim.formats import export_file
+    import trimesh
+
+    mesh = trimesh.load(export_file(system.to_dataframe(), tmp_path / "roots.stl"))
+    assert mesh.is_watertight

@@ -232,3 +232,13 @@ def test_more_bad_files(tmp_path, case):
     with pytest.raises(FormatError) as info:
         import_file(path)
     assert str(info.value) == f"{path}: {message}" or str(info.value).startswith(f"{path}: {message}")
+
+
+def test_cli_notes_default_radius(tmp_path, capsys):
+    path = tmp_path / "traced.rsml"
+    path.write_text(TWO_D_PIXELS)
+    assert main(["import-rsml", str(path), "--out", str(tmp_path / "o"), "--default-radius-cm", "0.04"]) == 0
+    captured = capsys.readouterr()
+    assert "note:" in captured.err and "0.04 cm" in captured.err
+    columns, _ = read_segments(tmp_path / "o")
+    assert np.allclose(columns["radius_cm"][:2], 0.04)
