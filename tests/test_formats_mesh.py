@@ -122,3 +122,19 @@ def test_bad_options(tmp_path, options):
     with pytest.raises(FormatError):
         export_file(random_root_system(rng=1), tmp_path / "x.stl", **options)
     assert not list(tmp_path.iterdir())
+
+
+@pytest.mark.parametrize("suffix", [".ply", ".glb"])
+def test_vertex_colours_by_order(tmp_path, suffix):
+    # trimesh reads the colours back; each tube carries the colour of its root order.
+    from rootsim.formats.mesh import ORDER_COLOURS_RGB
+
+    system = random_root_system(rng=4)
+    loaded = trimesh.load(export_file(system, tmp_path / f"c{suffix}", sides=6), force="mesh", process=False)
+    colours = np.asarray(loaded.visual.vertex_colors)[:, :3]
+    found = {tuple(c) for c in np.unique(colours, axis=0).tolist()}
+    assert found == {tuple(ORDER_COLOURS_RGB[k].tolist()) for k in np.unique(system["order"])}
+    # Share of order-0 coloured vertices equals the share of ring vertices on order-0 tubes.
+    arrays = tube_mesh_arrays(system, sides=6)
+    is_zero = np.all(colours == ORDER_COLOURS_RGB[0], axis=1)
+    assert is_zero.sum() == (arrays.vertex_order == 0).sum()

@@ -19,6 +19,7 @@ Construction is vectorized over all roots at once:
    closed surfaces touching at its sharp bends; all are watertight with outward normals.
 4. Each piece gets flat end caps (triangle fans around a centre vertex).
 
+PLY and glTF files carry vertex colours by root order (:data:`ORDER_COLOURS_RGB`).
 An empty root system gives a valid file with no triangles in every mesh format (for .glb: an
 asset with one empty scene).
 """
@@ -35,7 +36,7 @@ from ..atomic import atomic_path
 from ..errors import FormatError
 from .polylines import polylines_from_segments
 
-__all__ = ["TubeMesh", "check_mesh_options", "tube_mesh_arrays", "tube_mesh", "write_mesh", "SUFFIXES", "prism_volume_factor"]
+__all__ = ["TubeMesh", "check_mesh_options", "order_colours", "ORDER_COLOURS_RGB", "tube_mesh_arrays", "tube_mesh", "write_mesh", "SUFFIXES", "prism_volume_factor"]
 
 SUFFIXES = (".stl", ".ply", ".obj", ".glb")
 
@@ -59,6 +60,8 @@ class TubeMesh:
         ``root_id`` of the root each triangle belongs to.
     face_order : ndarray of int64, shape (f,)
         Root order of each triangle.
+    vertex_order : ndarray of int64, shape (v,)
+        Root order of each vertex (for vertex colours).
     n_pieces : int
         Closed surfaces (one per root, plus one per split at a sharp bend).
     n_edges : int
@@ -69,6 +72,7 @@ class TubeMesh:
     faces: np.ndarray
     face_root_id: np.ndarray
     face_order: np.ndarray
+    vertex_order: np.ndarray
     n_pieces: int
     n_edges: int
 
@@ -188,7 +192,7 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     n_edges = len(pts) - n_poly
     if n_edges <= 0:
         empty_i = np.zeros(0, dtype=np.int64)
-        return TubeMesh(np.zeros((0, 3)), np.zeros((0, 3), dtype=np.int64), empty_i, empty_i, 0, 0)
+        return TubeMesh(np.zeros((0, 3)), np.zeros((0, 3), dtype=np.int64), empty_i, empty_i, empty_i, 0, 0)
 
     edge_counts = np.diff(offsets) - 1
     edge_poly = np.repeat(np.arange(n_poly), edge_counts)
@@ -302,7 +306,21 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     piece_poly = edge_poly[pf]
     face_poly = np.concatenate([np.repeat(edge_poly, 2 * n_sides), np.repeat(piece_poly, n_sides),
                                 np.repeat(piece_poly, n_sides)])
-    return TubeMesh(vertices, faces, poly_root[face_poly], poly_order[face_poly], n_pieces, n_edges)
+    vertex_poly = np.concatenate([np.repeat(edge_poly[ring_edge], n_sides), piece_poly, piece_poly])
+    return TubeMesh(vertices, faces, poly_root[face_poly], poly_order[face_poly], poly_order[vertex_poly],
+                    n_pieces, n_edges)
+
+
+#: Vertex colours by root order (order 0, 1, 2, ...; repeating), RGB. The colour-blind-safe
+#: palette of Okabe and Ito (2008), "Color Universal Design (CUD): how to make figures and
+#: presentations that are friendly to colorblind people", https://jfly.uni-koeln.de/color/.
+ORDER_COLOURS_RGB = np.array([[230, 159, 0], [0, 114, 178], [0, 158, 115], [204, 121, 167],
+                              [213, 94, 0], [86, 180, 233], [240, 228, 66]], dtype=np.uint8)
+
+
+def order_colours(order: np.ndarray) -> np.ndarray:
+    """RGB colour (uint8, shape (n, 3)) of each root order, from :data:`ORDER_COLOURS_RGB`."""
+    return ORDER_COLOURS_RGB[np.asarray(order, dtype=np.int64) % len(ORDER_COLOURS_RGB)]
 
 
 def tube_mesh(system, **options):
@@ -364,11 +382,13 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
         elif suffix == ".stl":
             _write_stl(tmp, arrays.vertices, arrays.faces)
         elif suffix == ".ply":
-            _write_ply(tmp, arrays.vertices, arrays.faces)
+            _write_ply(tmp, arrays.vertices, arrays.faces, colours=order_colours(arrays.vertex_order))
         else:
             import trimesh
 
-            mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, process=False, validate=False)
+            rgba = np.concatenate([order_colours(arrays.vertex_order),
+                                   np.full((len(arrays.vertices), 1), 255, dtype=np.uint8)], axis=1)
+            mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, vertex_colors=rgba, process=False, validate=False)
             mesh.export(str(tmp), file_type=suffix[1:])
     return path
 
@@ -395,17 +415,24 @@ def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
             record.tofile(fh)
 
 
-def _write_ply(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
-    """Binary little-endian PLY: float32 vertices and triangles as (uchar 3, int32 x 3)."""
-    header = ("ply\nformat binary_little_endian 1.0\ncomment rootsim tube mesh, units cm\n"
-              f"element vertex {len(vertices)}\nproperty float x\nproperty float y\nproperty float z\n"
+def _write_ply(path: Path, vertices: np.ndarray, faces: np.ndarray, *, colours: np.ndarray | None = None) -> None:
+    """Binary little-endian PLY: float32 vertices (with uchar RGB colours if given) and
+    triangles as (uchar 3, int32 x 3)."""
+    fields = [("xyz", "<f4", (3,))] + ([("rgb", "u1", (3,))] if colours is not None else [])
+    colour_props = "property uchar red\nproperty uchar green\nproperty uchar blue\n" if colours is not None else ""
+    header = ("ply\nformat binary_little_endian 1.0\ncomment rootsim tube mesh, units cm; colours by root order\n"
+              f"element vertex {len(vertices)}\nproperty float x\nproperty float y\nproperty float z\n{colour_props}"
               f"element face {len(faces)}\nproperty list uchar int vertex_indices\nend_header\n")
+    vertex_record = np.empty(len(vertices), dtype=fields)
+    vertex_record["xyz"] = vertices
+    if colours is not None:
+        vertex_record["rgb"] = colours
     record = np.empty(len(faces), dtype=[("count", "u1"), ("index", "<i4", (3,))])
     record["count"] = 3
     record["index"] = faces
     with open(path, "wb") as fh:
         fh.write(header.encode("ascii"))
-        vertices.astype("<f4").tofile(fh)
+        vertex_record.tofile(fh)
         record.tofile(fh)
 
 
