@@ -17,12 +17,13 @@ Export a grown (or imported) root system to open file formats. Give one or more 
 
   --vtk FILE.vtp         VTK PolyData: one polyline per root, with point and cell arrays
                          radius_cm, order, root_class_code (names in field data root_class_names),
-                         plant_id, birth_day and age_days, so ParaView or another VTK viewer can
+                         plant_id, birth_day and age_days, so a VTK-based 3D viewer can
                          colour and filter roots (tubes: filter "Tube", vary radius by tube_radius_cm).
   --rld-grid FILE.vti    root length density on a voxel grid (cm root per cm3 soil), VTK ImageData,
                          for volume rendering; needs --voxel-cm.
   --mesh FILE            closed tubes around every root with its radius, by suffix .stl, .ply, .obj
-                         or .glb (binary glTF), in cm. --mesh-sides sets the polygon (default 8);
+                         or .glb (binary glTF), in cm; .ply and .glb are coloured by root order.
+                         --mesh-sides sets the polygon (default 8);
                          --merge-short-cm joins consecutive short segments into longer pieces,
                          which makes meshes of large stands much smaller.
   --rsml FILE.rsml       Root System Markup Language (laterals nested in their parent roots, with

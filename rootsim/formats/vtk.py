@@ -1,6 +1,6 @@
 """VTK output: root polylines as XML PolyData (.vtp) and the RLD voxel grid as XML ImageData (.vti).
 
-Both are open formats read by ParaView, VisIt and any VTK-based viewer. Arrays carry units in
+Both are open formats read by any VTK-based viewer. Arrays carry units in
 their names so a viewer can colour, filter and threshold without a legend.
 """
 
