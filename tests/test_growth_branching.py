@@ -65,14 +65,14 @@ def _lateral_timing(days, step_days):
     (when that is within its 20 cm), and lateral j then has length min(rl (T - t_j), Lmax) (common practice).
     Returns (born, expected lengths, grown lengths longest first, grown axis length).
     """
-    ra, basal, apical, d, rl, lmax = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
+    ra, basal, apical, d, rl, max_len = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
     df = grow_frame(make_spec({"axis": _axis(), "lateral": _lateral()}, days=days, step_days=step_days))
     threshold = basal + apical + d * np.arange(20)
     t_j = threshold / ra
     born = t_j[(t_j < days) & (threshold <= 20.0)]
     per_root = df.groupby("root_id")["length_cm"].sum()
     grown = np.sort(per_root.loc[_laterals(df)["root_id"].to_numpy()].to_numpy())[::-1]
-    return born, np.minimum(rl * (days - born), lmax), grown, per_root.loc[0]
+    return born, np.minimum(rl * (days - born), max_len), grown, per_root.loc[0]
 
 
 @pytest.mark.parametrize("days,step_days", [(5.0, 0.5), (7.3, 0.3), (6.0, 0.25), (4.1, 1.0)])
@@ -83,6 +83,34 @@ def test_laterals_emerge_when_the_apical_zone_passes_and_grow_from_then(days, st
     assert not np.any((born > last_step_start) & (born < days)), "scenario must not need the final-step case"
     np.testing.assert_allclose(grown, expected, rtol=1e-9)
     assert axis_length == pytest.approx(min(2.0 * days, 20.0), rel=1e-12)
+
+
+@pytest.mark.parametrize("days,step_days", [(4.8, 0.4), (5.5, 1.0), (4.0, 0.5)])
+def test_lateral_born_during_the_final_step_has_grown_by_the_end(days, step_days):
+    # Runs that end while laterals born in their final step are already growing: a lateral born at
+    # t_j < T has length rl (T - t_j) > 0 at T.
+    born, expected, grown, _ = _lateral_timing(days, step_days)
+    assert len(grown) == len(born)
+    np.testing.assert_allclose(grown, expected, rtol=1e-9)
+
+
+@pytest.mark.parametrize("step_days", [1.0, 0.5])
+def test_laterals_of_a_negative_exponential_axis_emerge_at_the_analytic_time(step_days):
+    # Axis L(t) = Lmax (1 - exp(-r t / Lmax)) reaches the threshold h = basal + j d + apical at
+    # t_j = -(Lmax / r) ln(1 - h / Lmax) (inverting the law); a linear lateral then has rl (T - t_j).
+    ra, la, rl, days = 3.0, 20.0, 0.5, 20.0
+    axis = _axis(elongation_law="negative_exponential", elongation_rate_cm_per_day=ra, max_length_cm=la)
+    df = grow_frame(make_spec({"axis": axis, "lateral": _lateral(max_length_cm=100.0)}, days=days,
+                              step_days=step_days))
+    threshold = 3.0 + 1.5 * np.arange(20)
+    threshold = threshold[threshold <= la]
+    t_j = -la / ra * np.log(1 - threshold / la)
+    t_j = t_j[t_j < days]
+    assert np.all(t_j < days - step_days)  # none born in the final step
+    per_root = df.groupby("root_id")["length_cm"].sum()
+    grown = np.sort(per_root.loc[_laterals(df)["root_id"].to_numpy()].to_numpy())[::-1]
+    # 1e-6 days is far below any step; the law itself is exact.
+    np.testing.assert_allclose((days - grown / rl), t_j, atol=1e-6)
 
 
 def _many_axes(n_axes, axis, laterals: dict, *, seed, days=30.0, angle_deg=30.0):

@@ -74,6 +74,20 @@ def test_branched_system_statistics_agree_between_steps_of_1_and_0_1_day():
         assert stats.ttest_ind(coarse[2][:, k], fine[2][:, k], equal_var=False).pvalue > 1e-3, f"decile {k + 1}"
 
 
+def test_tip_depth_under_gravitropism_and_turning_agrees_between_steps():
+    # Straight-from-the-seed axes with gravitropism and random turning only: the mean tip depth after 40 cm
+    # must not depend on the time step beyond sampling error (Welch's t-test, scipy.stats; 16000 roots each).
+    def tip_depths(step_days, seed):
+        cls = root_class(initial_angle_from_vertical_deg=25.0, elongation_rate_cm_per_day=2.0, max_length_cm=100.0,
+                         gravitropism_per_cm=0.08, random_turning_deg_per_sqrt_cm=10.0)
+        spec = make_spec({"axis": cls}, emergence=[{"root_class": "axis", "roots_per_event": 8000, "event_count": 2}], days=20.0,
+                         step_days=step_days, seed=seed, sowing_depth_cm=50.0)
+        return -grow_frame(spec).groupby("root_id")["z1"].last().to_numpy()
+
+    coarse, fine = tip_depths(1.0, 1), tip_depths(0.1, 2)
+    assert stats.ttest_ind(coarse, fine, equal_var=False).pvalue > 1e-3, (coarse.mean(), fine.mean())
+
+
 def _linear_branched(step_days, days):
     classes = {
         "axis": root_class(initial_angle_from_vertical_deg=25.0, elongation_rate_cm_per_day=2.0, max_length_cm=60.0,
@@ -88,7 +102,7 @@ def _linear_branched(step_days, days):
     return grow_frame(spec)
 
 
-@pytest.mark.parametrize("step_days", [0.5, 0.1])
+@pytest.mark.parametrize("step_days", [1.0, 0.5, 0.1])
 @pytest.mark.parametrize("days", [20.0, 13.7])
 def test_total_length_of_a_fixed_parameter_system_is_analytic_at_any_step(step_days, days):
     # With fixed parameters and every branch point taken, total length does not depend on the random turning:

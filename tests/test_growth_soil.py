@@ -54,6 +54,16 @@ def test_rhizobox_walls_bottom_and_surface_are_never_crossed(seed):
     assert p[:, 2].min() < -0.999 * depth
 
 
+@pytest.mark.parametrize("container", [{"kind": "pot", "diameter_cm": 20.0, "depth_cm": 25.0},
+                                       {"kind": "rhizobox", "width_cm": 30.0, "thickness_cm": 2.0, "depth_cm": 40.0}])
+def test_sliding_along_container_walls_keeps_the_elongation_law(container):
+    # Walls change where a tip goes, not how much it elongates: every axis (linear law, 3 cm/day, not yet at its
+    # 200 cm maximum) has length r T = 120 cm after 40 days, however often it met a wall, a corner or the surface.
+    df = _wandering(container)
+    axes = df[df["order"] == 0].groupby("root_id")["length_cm"].sum().to_numpy()
+    np.testing.assert_allclose(axes, 3.0 * 40.0, rtol=1e-9)
+
+
 def test_field_surface_is_never_crossed_by_upward_plagiotropic_roots():
     # Plagiotropic roots aimed upward at 120 deg from the vertical and held there: they meet the surface
     # within a few cm and must slide along it.
@@ -96,7 +106,7 @@ def test_strong_layer_reduces_root_length_below_its_top():
     assert below_with < 0.25 * below_without
 
 
-@pytest.mark.parametrize("gravitropism,sowing_depth_cm", [(0.0, 3.1), (0.01, 3.0)])
+@pytest.mark.parametrize("gravitropism,sowing_depth_cm", [(0.0, 3.1), (0.01, 3.0), (0.0, 3.0)])
 def test_shallow_tip_is_deflected_along_the_top_of_a_strong_layer(gravitropism, sowing_depth_cm):
     # 60 deg from the vertical = 30 deg from the layer plane, below the 45 deg limit: deflected, the root
     # then runs along the layer top and never enters. From 3.0 cm with 0.25 cm steps (depth gain 0.125 cm a

@@ -35,8 +35,8 @@ _POS = slice(0, 3)
 _HEAD = slice(3, 6)
 _HEAD0 = slice(6, 9)
 (_LEN, _MAXLEN, _RATE, _TROP, _COSPHI, _SINPHI, _EXO, _SIGMA, _APICAL, _NEXT, _CARRY, _RADIUS, _BIRTH,
- _DEATH) = range(9, 23)
-_NF = 23
+ _DEATH, _HALF) = range(9, 24)
+_NF = 24
 # Int tip fields.
 _ROOT, _PLANT, _CLASS, _ORDER, _LAST, _COUNT = range(6)
 _NI = 6
@@ -180,7 +180,8 @@ class _Engine:
         self.pend_retired = 0
         self.roots = _Growable(plant=np.int32, cls=np.int16, order=np.int8, parent=np.int64,
                                birth=np.float64, death=np.float64, length=np.float64, length_prev=np.float64,
-                               last_dt=np.float64, growing=bool, dead=bool)
+                               last_dt=np.float64, last_rate=np.float64, max_length=np.float64,
+                               growing=bool, dead=bool)
         self.incoming = []  # new tips (float, int) to add at the start of the next step
         self.chunks = {k: [] for k in _SEGMENT_FIELDS}
         self.n_segments = 0
@@ -245,6 +246,7 @@ class _Engine:
         death = birth + params["lifespan_days"]
         ids = self.roots.append(plant=plant, cls=cls_code, order=order, parent=parent_root, birth=birth,
                                 death=death, length=np.zeros(n), length_prev=np.zeros(n), last_dt=np.zeros(n),
+                                last_rate=np.zeros(n), max_length=params["max_length_cm"],
                                 growing=np.ones(n, bool), dead=np.zeros(n, bool))
         f = np.zeros((_NF, n))
         f[_POS] = pos
@@ -307,26 +309,35 @@ class _Engine:
         grown = np.where(law_ne, max_len - (max_len - length) * np.exp(-rate * dt / max_len),
                          np.minimum(length + rate * dt, max_len))
         ds = np.maximum(grown - length, 0.0)
+        # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
+        # segment, i.e. the tangent half-way along it, and is advanced over the arc from there to the middle
+        # of the new segment. Every map is exact over any arc, so the deterministic path is sampled exactly at
+        # segment midpoints, and E[d_k . d_j] = exp(-sigma^2 (s_j - s_k)) for the random turning: the
+        # continuous path's tangent correlation, whatever the step.
+        # Tropisms and random turning are combined by symmetric (Strang) splitting: half the tropic turn,
+        # the random turn over the whole arc, the other half of the tropic turn; weakly second order.
         h_old = f[_HEAD]
+        arc = f[_HALF] + 0.5 * ds
+        half_arc = 0.5 * arc
+        tropic = bool(np.any(f[_TROP] > 0))
         h = h_old
-        if np.any(f[_TROP] > 0):
-            h = vertical_sine_law_step(h, ds, f[_TROP], f[_COSPHI], f[_SINPHI])
+        if tropic:
+            h = vertical_sine_law_step(h, half_arc, f[_TROP], f[_COSPHI], f[_SINPHI])
         if self.has_exotropism:
-            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], ds, f[_EXO]), h)
+            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], half_arc, f[_EXO]), h)
         if all_active:
             normals = self.streams.normal3(i[_PLANT])
         else:
             act = np.flatnonzero(active)
             normals = np.zeros((3, n))
             normals[:, act] = self.streams.normal3(i[_PLANT, act])
-        h = random_deviation_step(h, normals, ds, f[_SIGMA])
-        d = h_old + h
-        dn = np.sqrt(np.einsum("ij,ij->j", d, d))
-        d = np.where(dn > 1e-9, d / np.where(dn > 1e-9, dn, 1.0), h)
-        d2 = self.soil.deflect(start, d, ds)
-        end, d3, touched = self.walls.constrain(start, d2, ds, normals)
-        if d2 is not d or touched.any():
-            h = np.where(touched | np.any(d2 != d, axis=0), d3, h)
+        h = random_deviation_step(h, normals, arc, f[_SIGMA])
+        if tropic:
+            h = vertical_sine_law_step(h, half_arc, f[_TROP], f[_COSPHI], f[_SINPHI])
+        if self.has_exotropism:
+            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], half_arc, f[_EXO]), h)
+        d = self.soil.deflect(start, h, ds)
+        end, h, touched = self.walls.constrain(start, d, ds, normals)
         seg = end - start
         seg_len = np.sqrt(np.einsum("ij,ij->j", seg, seg))
         made = (ds > _MIN_STEP_CM) & (seg_len > 0) & active
@@ -353,12 +364,14 @@ class _Engine:
         i[_LAST, idx] = seg_ids
         f[_POS] = np.where(made, end, start)
         f[_HEAD] = np.where(made, h, h_old)
+        f[_HALF] = np.where(made, 0.5 * seg_len, f[_HALF])
         f[_LEN] = new_length
         roots = i[_ROOT]
         rl = self.roots.view("length")
         self.roots.view("length_prev")[roots] = rl[roots]
         rl[roots] = new_length
         self.roots.view("last_dt")[roots] = dt
+        self.roots.view("last_rate")[roots] = rate
         finished = active & ((max_len - new_length <= _FINISH_TOLERANCE * max_len) | (f[_RATE] <= 0))
         if self.classes.has_lifespan:
             finished |= active & self._dead_tips(t1)
@@ -368,6 +381,13 @@ class _Engine:
         self._activate_pending(t1)
         if self.incoming or active.size - np.count_nonzero(active) > 0.25 * active.size:
             self._merge_incoming()
+
+    def has_carry(self) -> bool:
+        """True if an active tip still has growth time carried over from the step it emerged in."""
+        if self.incoming:
+            self._merge_incoming()
+        active = self.tip_active.view[0]
+        return bool(np.any(self.tip_float.view[_CARRY][active] > 0))
 
     def _branch_points(self, f, i, made, length, new_length, start, end, seg_len, seg_ids, idx):
         seg_of_tip = np.full(f.shape[1], -1, dtype=np.int64)
@@ -430,9 +450,21 @@ class _Engine:
             plant, cls, parent_cls = ri[_PEND_INT["plant"]], ri[_PEND_INT["cls"]], ri[_PEND_INT["parent_cls"]]
             prev = self.roots.view("length_prev")[parents]
             new = self.roots.view("length")[parents]
+            # Time since the parent's length passed the threshold: the inverse of its elongation law over
+            # the last step (exact for both laws when nothing slowed the step down).
             grew = new - prev
-            frac_after = np.clip((new - rf[_PEND_FLOAT["threshold"]]) / np.where(grew > 0, grew, 1.0), 0.0, 1.0)
-            carry = np.where(grew > 0, frac_after, 0.0) * self.roots.view("last_dt")[parents]
+            threshold = rf[_PEND_FLOAT["threshold"]]
+            last_dt = self.roots.view("last_dt")[parents]
+            rate = self.roots.view("last_rate")[parents]
+            max_len = self.roots.view("max_length")[parents]
+            negexp = self.classes.law_negexp[self.roots.view("cls")[parents]]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                linear_time = (new - threshold) / rate
+                negexp_time = max_len / rate * np.log((max_len - threshold) / (max_len - new))
+            after = np.where(negexp, negexp_time, linear_time)
+            fallback = np.clip((new - threshold) / np.where(grew > 0, grew, 1.0), 0.0, 1.0) * last_dt
+            after = np.where(np.isfinite(after) & (rate > 0), after, fallback)
+            carry = np.where(grew > 0, np.clip(after, 0.0, last_dt), 0.0)
             u = self.streams.uniform(plant, len(PARAM_NAMES))
             params = self.classes.draw(cls, u)
             spiral = self.classes.spiral[parent_cls]
@@ -566,4 +598,9 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             t1 = min((k + 1) * dt, duration)
             engine.step(t0, t1, k)
             bar.update(t1 - t0)
+        # Laterals that emerged during the last step still have the rest of that step to grow.
+        for _ in range(64):
+            if not engine.has_carry():
+                break
+            engine.step(duration, duration, n_steps)
     return engine.result(duration)

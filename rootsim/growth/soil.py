@@ -51,7 +51,8 @@ class SoilField:
         """Multiplier of elongation, shape (n,), at the given depths (cm)."""
         if self.uniform:
             return np.ones_like(depth_cm)
-        return self.factor[np.searchsorted(self.edges_cm, depth_cm, side="right")]
+        # side="left": a tip lying exactly on a layer's top is still above it (as in :meth:`deflect`).
+        return self.factor[np.searchsorted(self.edges_cm, depth_cm, side="left")]
 
     def deflect(self, start: np.ndarray, direction: np.ndarray, step_cm: np.ndarray) -> np.ndarray:
         """Turn shallow-angled directions that would enter a strong layer to run along its top.
@@ -127,45 +128,97 @@ class ContainerWalls:
         touched : ndarray of bool, shape (n,)
         """
         end = start + direction * step_cm
-        bad = ~self.contains(end)
-        if not bad.any():
-            return end, direction, bad
-        idx = np.flatnonzero(bad)
+        touched = ~self.contains(end)
+        if not touched.any():
+            return end, direction, touched
+        idx = np.flatnonzero(touched)
+        s0, step = start[:, idx], step_cm[idx]
         d = direction[:, idx].copy()
-        e = end[:, idx]
-        # Surface and bottom: remove the vertical component.
-        above = e[2] > 0
-        d[2] = np.where(above, np.minimum(d[2], 0.0), d[2])
-        if self.depth is not None:
-            below = e[2] < -self.depth
-            d[2] = np.where(below, np.maximum(d[2], 0.0), d[2])
-        if self.kind == "pot":
-            rad = np.hypot(e[0], e[1])
-            out = rad > self.radius
-            nx = np.where(out, e[0] / np.where(rad > 0, rad, 1.0), 0.0)
-            ny = np.where(out, e[1] / np.where(rad > 0, rad, 1.0), 0.0)
-            outward = np.maximum(d[0] * nx + d[1] * ny, 0.0)
-            d[0] -= outward * nx
-            d[1] -= outward * ny
-        elif self.kind == "rhizobox":
-            for axis, half in ((0, self.half_width), (1, self.half_thickness)):
-                over = np.abs(e[axis]) > half
-                d[axis] = np.where(over & (d[axis] * np.sign(e[axis]) > 0), 0.0, d[axis])
-        norm = np.sqrt(np.einsum("ij,ij->j", d, d))
-        degenerate = norm < 1e-9
-        if degenerate.any():
-            f = fallback[:, idx][:, degenerate].copy()
-            f[2] = 0.0
-            fn = np.sqrt(np.einsum("ij,ij->j", f, f))
-            d[:, degenerate] = f / np.where(fn > 0, fn, 1.0)
-            norm = np.sqrt(np.einsum("ij,ij->j", d, d))
-        d /= np.where(norm > 0, norm, 1.0)
-        e = start[:, idx] + d * step_cm[idx]
-        e = self.clamp(e)
+        # Land on every boundary crossed and slide along it: the component across a flat wall is cut to just
+        # reach the wall and the others take up the rest of the unit length, so the step keeps its length; a
+        # pot's curved wall is met at the full step length too. A corner may take a second or third pass
+        # (e.g. the surface, then a side wall).
+        pinned = np.zeros(d.shape, dtype=bool)  # components held so the step ends on a flat boundary
+        target = np.zeros(d.shape)
+        for _ in range(6):
+            e = s0 + d * step
+            out = ~self.contains(e)
+            if not out.any():
+                break
+            if self.kind == "pot":
+                d = self._land_on_pot_wall(s0, d, step, out & (np.hypot(e[0], e[1]) > self.radius))
+            planes = [(2, e[2] > 0, 0.0)]
+            if self.depth is not None:
+                planes.append((2, e[2] < -self.depth, -self.depth))
+            if self.kind == "rhizobox":
+                for axis, half in ((0, self.half_width), (1, self.half_thickness)):
+                    planes += [(axis, e[axis] > half, half), (axis, e[axis] < -half, -half)]
+            for axis, hit, plane in planes:
+                hit = hit & out
+                pinned[axis] |= hit
+                target[axis] = np.where(hit, np.clip((plane - s0[axis]) / step, -1.0, 1.0), target[axis])
+            rows = pinned.any(axis=0)
+            if rows.any():
+                d = _fill_free_components(d, pinned, target, rows, fallback[:, idx])
+        else:
+            # Pinned in a corner where no sliding direction keeps the full step: turn back into the soil
+            # off the boundaries still crossed.
+            d = self._reflect_inward(s0 + d * step, d)
         direction = direction.copy()
         direction[:, idx] = d
-        end[:, idx] = e
-        return end, direction, bad
+        end[:, idx] = self.clamp(s0 + d * step)  # only rounding (or a step longer than the box) is left
+        return end, direction, touched
+
+    def _reflect_inward(self, end: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """Flip the components of ``d`` (3, n) that point out through a boundary ``end`` (3, n) crosses."""
+        d = d.copy()
+        d[2] = np.where(end[2] > 0, -np.abs(d[2]), d[2])
+        if self.depth is not None:
+            d[2] = np.where(end[2] < -self.depth, np.abs(d[2]), d[2])
+        if self.kind == "rhizobox":
+            for axis, half in ((0, self.half_width), (1, self.half_thickness)):
+                d[axis] = np.where(end[axis] > half, -np.abs(d[axis]), d[axis])
+                d[axis] = np.where(end[axis] < -half, np.abs(d[axis]), d[axis])
+        elif self.kind == "pot":
+            rad = np.hypot(end[0], end[1])
+            out = rad > self.radius
+            nx = np.where(out, end[0] / np.where(rad > 0, rad, 1.0), 0.0)
+            ny = np.where(out, end[1] / np.where(rad > 0, rad, 1.0), 0.0)
+            outward = np.maximum(d[0] * nx + d[1] * ny, 0.0)
+            d[0] -= 2 * outward * nx
+            d[1] -= 2 * outward * ny
+        return d
+
+    def _land_on_pot_wall(self, start, d, step, mask):
+        """Turn the horizontal part of ``d`` (same length) so the end point lies on the pot wall.
+
+        The horizontal displacement of length h = step |d_xy| from q = start_xy must end on the circle
+        |p| = R: p is an intersection of that circle with the circle |p - q| = h, the one nearest the
+        current heading. Where no intersection exists (h > R + |q|) the direction is left to the clamp.
+        """
+        if not mask.any():
+            return d
+        k = np.flatnonzero(mask)
+        q = start[:2, k]
+        h = step[k] * np.hypot(d[0, k], d[1, k])
+        dq = np.hypot(q[0], q[1])
+        radius = self.radius * (1 - 1e-12)
+        ok = (dq > 1e-12) & (h >= radius - dq) & (h <= radius + dq) & (h > 0)
+        if not ok.any():
+            return d
+        k, q, h, dq = k[ok], q[:, ok], h[ok], dq[ok]
+        qhat = q / dq
+        perp = np.stack([-qhat[1], qhat[0]])
+        a = (dq * dq + radius * radius - h * h) / (2 * dq)
+        b = np.sqrt(np.maximum(radius * radius - a * a, 0.0))
+        p1 = a * qhat + b * perp
+        p2 = a * qhat - b * perp
+        aim = q + d[:2, k] * step[k]
+        pick = np.einsum("ij,ij->j", p1 - aim, p1 - aim) <= np.einsum("ij,ij->j", p2 - aim, p2 - aim)
+        p = np.where(pick, p1, p2)
+        d = d.copy()
+        d[:2, k] = (p - q) / step[k]
+        return d
 
     def clamp(self, points: np.ndarray) -> np.ndarray:
         """Move points (3, n) onto the nearest point inside the soil volume."""
@@ -182,3 +235,26 @@ class ContainerWalls:
             p[0] = np.clip(p[0], -self.half_width, self.half_width)
             p[1] = np.clip(p[1], -self.half_thickness, self.half_thickness)
         return p
+
+
+
+def _fill_free_components(d, pinned, target, rows, fallback):
+    """Unit directions (3, n): pinned components set to ``target``, the free ones scaled to fill the length.
+
+    Used so that a step ends exactly on each flat boundary it would cross (the components across them) while
+    keeping its length (the components along them). Where the free components vanish, a random fallback
+    direction supplies them.
+    """
+    d = d.copy()
+    k = np.flatnonzero(rows)
+    p = pinned[:, k]
+    fixed = np.where(p, target[:, k], 0.0)
+    free = np.where(p, 0.0, d[:, k])
+    free_norm = np.sqrt(np.einsum("ij,ij->j", free, free))
+    tiny = free_norm < 1e-12
+    if tiny.any():
+        free[:, tiny] = np.where(p[:, tiny], 0.0, fallback[:, k][:, tiny])
+        free_norm = np.sqrt(np.einsum("ij,ij->j", free, free))
+    want = np.sqrt(np.maximum(1.0 - np.einsum("ij,ij->j", fixed, fixed), 0.0))
+    d[:, k] = fixed + free * (want / np.where(free_norm > 0, free_norm, 1.0))
+    return d

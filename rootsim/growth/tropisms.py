@@ -66,11 +66,11 @@ def vertical_sine_law_step(heading, step_cm, strength_per_cm, cos_phi, sin_phi):
     cos_t = np.clip(-hz, -1.0, 1.0)
     horiz = np.hypot(hx, hy)
     sin_t = horiz
-    # ψ = θ - φ, solved in the half-angle form tan(ψ/2) -> tan(ψ/2) exp(-A s) without inverse trig.
+    # ψ = θ - φ, solved in the half-angle form tan(ψ/2) -> tan(ψ/2) exp(-A s). tan(atan2/2) stays finite
+    # at the unstable equilibrium ψ = ±π (a root pointing straight up keeps pointing up until turned).
     cos_p = cos_t * cos_phi + sin_t * sin_phi
     sin_p = sin_t * cos_phi - cos_t * sin_phi
-    half = sin_p / np.maximum(1.0 + cos_p, 1e-300)
-    half = half * np.exp(-strength_per_cm * step_cm)
+    half = np.tan(0.5 * np.arctan2(sin_p, cos_p)) * np.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_p = (1.0 - h2) / (1.0 + h2)
     sin_p = 2.0 * half / (1.0 + h2)
@@ -100,7 +100,7 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
     cos_b = np.clip(np.einsum("ij,ij->j", heading, target), -1.0, 1.0)
     perp = heading - cos_b * target
     sin_b = np.sqrt(np.einsum("ij,ij->j", perp, perp))
-    half = sin_b / np.maximum(1.0 + cos_b, 1e-300) * np.exp(-strength_per_cm * step_cm)
+    half = np.tan(0.5 * np.arctan2(sin_b, cos_b)) * np.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_n = (1.0 - h2) / (1.0 + h2)
     sin_n = 2.0 * half / (1.0 + h2)
@@ -110,8 +110,53 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
     return np.where(ok, out, heading)
 
 
+def _tangent_variance_table():
+    """Per-axis variance τ of the tangent Gaussian whose exponential-map step has the mean cosine of
+    spherical Brownian motion over the same arc: E[cos |v|] = exp(-x), x = σ² Δs.
+
+    For a 2-D Gaussian of per-axis variance τ, |v| is Rayleigh and E[cos |v|] = 1 - sqrt(2τ) F(sqrt(τ/2))
+    with F Dawson's integral (term-by-term from the series 1 - τ + τ²/3 - τ³/15 + ..., whose coefficients
+    are 1/(2n-1)!!). Inverting it gives τ = x - x²/6 + O(x³); tabulated as τ/x against x.
+    """
+    from scipy.optimize import brentq
+    from scipy.special import dawsn
+
+    x = np.concatenate([[0.0], np.geomspace(1e-6, 30.0, 240)])
+    ratio = np.ones_like(x)
+    for j, xv in enumerate(x[1:], start=1):
+        target = np.exp(-xv)
+        tau = brentq(lambda t: 1.0 - np.sqrt(2 * t) * dawsn(np.sqrt(t / 2)) - target, 1e-12, 1e9, xtol=1e-15, rtol=1e-13)
+        ratio[j] = tau / xv
+    return x, ratio
+
+
+_VARIANCE_X, _VARIANCE_RATIO = _tangent_variance_table()
+
+
+def tangent_variance(brownian_variance: np.ndarray) -> np.ndarray:
+    """Per-axis variance of the tangent Gaussian for a spherical Brownian step of per-axis variance x = σ² Δs.
+
+    Parameters
+    ----------
+    brownian_variance : ndarray, shape (n,)
+        σ² Δs (rad²).
+
+    Returns
+    -------
+    ndarray, shape (n,)
+        τ with E[cos |v|] = exp(-σ² Δs) for v ~ N(0, τ I₂) (see :func:`_tangent_variance_table`).
+    """
+    x = np.asarray(brownian_variance, dtype=np.float64)
+    return x * np.interp(x, _VARIANCE_X, _VARIANCE_RATIO, right=_VARIANCE_RATIO[-1])
+
+
 def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
-    """Spherical Brownian step: rotate by a tangent Gaussian of per-axis s.d. σ √Δs (exponential map).
+    """Spherical Brownian step over ``step_cm``: rotate by a tangent Gaussian (exponential map).
+
+    The tangent Gaussian's per-axis variance is :func:`tangent_variance` of σ² Δs, so the mean cosine
+    between the headings before and after is exp(-σ² Δs) for any step, as for spherical Brownian motion
+    with per-axis angular variance σ² per cm (generator (σ²/2) Δ_S). Consecutive steps are independent
+    isotropic turns, so headings k steps apart have mean cosine exp(-σ² Σ Δs) as well.
 
     Parameters
     ----------
@@ -121,7 +166,8 @@ def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
     step_cm, sigma_rad_per_sqrt_cm : ndarray, shape (n,)
     """
     along = np.einsum("ij,ij->j", normals, heading)
-    tangent = (normals - along * heading) * (sigma_rad_per_sqrt_cm * np.sqrt(step_cm))
+    scale = np.sqrt(tangent_variance(sigma_rad_per_sqrt_cm * sigma_rad_per_sqrt_cm * step_cm))
+    tangent = (normals - along * heading) * scale
     angle = np.sqrt(np.einsum("ij,ij->j", tangent, tangent))
     ok = angle > 1e-15
     sinc = np.where(ok, np.sin(angle) / np.where(ok, angle, 1.0), 1.0)
