@@ -41,6 +41,9 @@ def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
         raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     os.close(fd)
     tmp_path = Path(tmp)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp_path, 0o666 & ~umask)  # mkstemp creates 0600; finished files get the usual permissions
     try:
         yield tmp_path
         os.replace(tmp_path, target)
