@@ -172,3 +172,22 @@ def test_weak_layer_below_the_threshold_does_not_deflect():
     cls = root_class(initial_angle_from_vertical_deg=60.0, elongation_rate_cm_per_day=1.0, max_length_cm=60.0)
     df = grow_frame(make_spec({"main": cls}, soil=_layer_soil(15.0, 40.0, 2.0), days=60.0, step_days=0.25))
     assert df[["z0", "z1"]].to_numpy().min() < -15.5
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+@pytest.mark.parametrize("container", [{"kind": "pot", "diameter_cm": 5.0, "depth_cm": 8.0},
+                                       {"kind": "rhizobox", "width_cm": 10.0, "thickness_cm": 1.0, "depth_cm": 10.0}])
+def test_cramped_containers_keep_the_elongation_law_and_the_walls(container, seed):
+    # Containers much smaller than the roots: tips are pressed into edges and corners (surface + two walls,
+    # bottom + wall) over and over. Lengths still follow r T exactly (the law, not the walls, sets elongation)
+    # and no end point leaves the container (its geometry, analytic).
+    df = _wandering(container, seed=seed)
+    axes = df[df["order"] == 0].groupby("root_id")["length_cm"].sum().to_numpy()
+    np.testing.assert_allclose(axes, 3.0 * 40.0, rtol=1e-9)
+    p = np.vstack([df[["x0", "y0", "z0"]].to_numpy(), df[["x1", "y1", "z1"]].to_numpy()])
+    assert np.all(p[:, 2] <= 1e-9) and np.all(p[:, 2] >= -container["depth_cm"] - 1e-9)
+    if container["kind"] == "pot":
+        assert np.all(np.hypot(p[:, 0], p[:, 1]) <= container["diameter_cm"] / 2 + 1e-9)
+    else:
+        assert np.all(np.abs(p[:, 0]) <= container["width_cm"] / 2 + 1e-9)
+        assert np.all(np.abs(p[:, 1]) <= container["thickness_cm"] / 2 + 1e-9)

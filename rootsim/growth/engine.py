@@ -319,12 +319,10 @@ class _Engine:
         h_old = f[_HEAD]
         arc = f[_HALF] + 0.5 * ds
         half_arc = 0.5 * arc
-        tropic = bool(np.any(f[_TROP] > 0))
-        h = h_old
-        if tropic:
-            h = vertical_sine_law_step(h, half_arc, f[_TROP], f[_COSPHI], f[_SINPHI])
-        if self.has_exotropism:
-            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], half_arc, f[_EXO]), h)
+        tropic = np.flatnonzero(f[_TROP] > 0)  # only tips with a tropism pay for it (laterals often have none)
+        exo = np.flatnonzero(f[_EXO] > 0) if self.has_exotropism else tropic[:0]
+        h = h_old.copy()
+        self._tropic_half_turn(h, f, tropic, exo, half_arc)
         if all_active:
             normals = self.streams.normal3(i[_PLANT])
         else:
@@ -332,10 +330,7 @@ class _Engine:
             normals = np.zeros((3, n))
             normals[:, act] = self.streams.normal3(i[_PLANT, act])
         h = random_deviation_step(h, normals, arc, f[_SIGMA])
-        if tropic:
-            h = vertical_sine_law_step(h, half_arc, f[_TROP], f[_COSPHI], f[_SINPHI])
-        if self.has_exotropism:
-            h = np.where(f[_EXO] > 0, toward_direction_step(h, f[_HEAD0], half_arc, f[_EXO]), h)
+        self._tropic_half_turn(h, f, tropic, exo, half_arc)
         d = self.soil.deflect(start, h, ds)
         end, h, touched = self.walls.constrain(start, d, ds, normals)
         seg = end - start
@@ -381,6 +376,15 @@ class _Engine:
         self._activate_pending(t1)
         if self.incoming or active.size - np.count_nonzero(active) > 0.25 * active.size:
             self._merge_incoming()
+
+    @staticmethod
+    def _tropic_half_turn(h, f, tropic, exo, half_arc):
+        """Advance headings ``h`` (3, n) in place by the tropic turn over ``half_arc`` (tips ``tropic``, ``exo``)."""
+        if tropic.size:
+            h[:, tropic] = vertical_sine_law_step(h[:, tropic], half_arc[tropic], f[_TROP, tropic],
+                                                  f[_COSPHI, tropic], f[_SINPHI, tropic])
+        if exo.size:
+            h[:, exo] = toward_direction_step(h[:, exo], f[_HEAD0][:, exo], half_arc[exo], f[_EXO, exo])
 
     def has_carry(self) -> bool:
         """True if an active tip still has growth time carried over from the step it emerged in."""

@@ -164,6 +164,14 @@ class ContainerWalls:
             # Pinned in a corner where no sliding direction keeps the full step: turn back into the soil
             # off the boundaries still crossed.
             d = self._reflect_inward(s0 + d * step, d)
+        # In a corner where every component is held (surface and two walls), the step that lands on the corner
+        # is shorter than the growth: the rest goes down (up from the bottom) along the walls' edge.
+        norm2 = np.einsum("ij,ij->j", d, d)
+        short = norm2 < 1.0 - 1e-12
+        if short.any():
+            vertical = np.sqrt(np.maximum(1.0 - d[0, short] ** 2 - d[1, short] ** 2, 0.0))
+            at_bottom = (self.depth is not None) & (s0[2, short] - vertical * step[short] < -self.depth)
+            d[2, short] = np.where(at_bottom, vertical, -vertical)
         direction = direction.copy()
         direction[:, idx] = d
         end[:, idx] = self.clamp(s0 + d * step)  # only rounding (or a step longer than the box) is left

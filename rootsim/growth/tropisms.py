@@ -24,6 +24,18 @@ __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step
            "heading_from_angles"]
 
 
+def _tan_half_angle(sin_a, cos_a):
+    """tan(a/2) from sin a and cos a, well conditioned for every a: sin/(1 + cos) where cos >= 0, else
+    (1 - cos)/sin; capped at ±1e150 at a = ±π (the unstable equilibrium of a sine law stays put, and its
+    square stays finite)."""
+    upper = cos_a >= 0
+    num = np.where(upper, sin_a, 1.0 - cos_a)
+    den = np.where(upper, 1.0 + cos_a, sin_a)
+    tiny = np.abs(den) < 1e-150
+    den = np.where(tiny, np.where(np.signbit(den), -1e-150, 1e-150), den)
+    return np.clip(num / den, -1e150, 1e150)
+
+
 def combined_sine_law(gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad):
     """Strength A (1/cm) and equilibrium angle φ (rad) of the combined vertical-plane sine law.
 
@@ -70,7 +82,7 @@ def vertical_sine_law_step(heading, step_cm, strength_per_cm, cos_phi, sin_phi):
     # at the unstable equilibrium ψ = ±π (a root pointing straight up keeps pointing up until turned).
     cos_p = cos_t * cos_phi + sin_t * sin_phi
     sin_p = sin_t * cos_phi - cos_t * sin_phi
-    half = np.tan(0.5 * np.arctan2(sin_p, cos_p)) * np.exp(-strength_per_cm * step_cm)
+    half = _tan_half_angle(sin_p, cos_p) * np.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_p = (1.0 - h2) / (1.0 + h2)
     sin_p = 2.0 * half / (1.0 + h2)
@@ -100,7 +112,7 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
     cos_b = np.clip(np.einsum("ij,ij->j", heading, target), -1.0, 1.0)
     perp = heading - cos_b * target
     sin_b = np.sqrt(np.einsum("ij,ij->j", perp, perp))
-    half = np.tan(0.5 * np.arctan2(sin_b, cos_b)) * np.exp(-strength_per_cm * step_cm)
+    half = _tan_half_angle(sin_b, cos_b) * np.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_n = (1.0 - h2) / (1.0 + h2)
     sin_n = 2.0 * half / (1.0 + h2)
