@@ -30,9 +30,9 @@ import typing
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, PlainSerializer, ValidationError, model_validator
 
-from .distributions import Distribution, Fixed, ValueRange, parse_distribution
+from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distribution
 from .errors import SpecError
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
@@ -43,7 +43,16 @@ def _to_distribution(value):
     return parse_distribution(value)
 
 
-Numeric = Annotated[Distribution, BeforeValidator(_to_distribution)]
+def _distribution_as_data(dist):
+    """The parameter-file form of a distribution: a number, {mean, standard_deviation} or {low, high}."""
+    if isinstance(dist, Fixed):
+        return dist.value
+    if isinstance(dist, Normal):
+        return {"mean": dist.mean, "standard_deviation": dist.standard_deviation}
+    return {"low": dist.low, "high": dist.high}
+
+
+Numeric = Annotated[Distribution, BeforeValidator(_to_distribution), PlainSerializer(_distribution_as_data)]
 
 
 class _Model(BaseModel):
