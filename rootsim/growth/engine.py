@@ -394,12 +394,10 @@ class _Engine:
         return bool(np.any(self.tip_float.view[_CARRY][active] > 0))
 
     def _branch_points(self, f, i, made, length, new_length, start, end, seg_len, seg_ids, idx):
-        seg_of_tip = np.full(f.shape[1], -1, dtype=np.int64)
-        seg_of_tip[idx] = seg_ids
         nxt = f[_NEXT]
-        can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
-        while can.any():
-            k = np.flatnonzero(can)
+        # Tips whose new segment passes their next branch point (one round per branch point passed).
+        k = np.flatnonzero(made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN]))
+        while k.size:
             u = self.streams.uniform(i[_PLANT, k], 3)
             frac = np.clip((nxt[k] - length[k]) / seg_len[k], 0.0, 1.0)
             pos = start[:, k] + frac * (end[:, k] - start[:, k])
@@ -416,13 +414,14 @@ class _Engine:
                 pf[3:6] = direction[:, keep]
                 pf[6] = nxt[kk] + f[_APICAL, kk]
                 pf[7] = u[keep, 2]
-                pi = np.stack([seg_of_tip[kk], i[_ROOT, kk], i[_PLANT, kk], child[keep], i[_ORDER, kk] + 1,
+                segment = seg_ids[kk] if isinstance(idx, slice) else seg_ids[np.searchsorted(idx, kk)]
+                pi = np.stack([segment, i[_ROOT, kk], i[_PLANT, kk], child[keep], i[_ORDER, kk] + 1,
                                i[_COUNT, kk], cls[keep]])
                 self.pend_float.append(pf)
                 self.pend_int.append(pi)
             i[_COUNT, k] += 1
             nxt[k] += self.classes.draw_one("interbranch_distance_cm", cls, u[:, 1])
-            can = made & (nxt <= new_length) & (nxt + f[_APICAL] <= f[_MAXLEN])
+            k = k[(nxt[k] <= new_length[k]) & (nxt[k] + f[_APICAL, k] <= f[_MAXLEN, k])]
 
     def _dead_tips(self, t: float) -> np.ndarray:
         roots = self.roots
