@@ -94,6 +94,22 @@ def _grow_one(run: BatchRun, out_dir: str | None) -> dict:
     return row
 
 
+def _dask_client(workers: int, scheduler: str | None):
+    """A Dask client on a new local cluster of ``workers`` processes, or on the scheduler at ``scheduler``."""
+    from dask.distributed import Client, LocalCluster
+
+    from .errors import RootsimError
+
+    if scheduler is None:
+        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
+        return Client(cluster), cluster
+    try:
+        return Client(scheduler, timeout="10s"), None
+    except (OSError, TimeoutError, ValueError, TypeError) as exc:
+        raise RootsimError(f"cannot connect to the Dask scheduler at {scheduler} "
+                           f"({' '.join(str(exc).split())[:120]})") from None
+
+
 def run_batch(runs: list[BatchRun], *, out_dir: str | os.PathLike | None = None, workers: int = 1,
               scheduler: str | None = None, progress: bool | None = None):
     """Grow every run; return a :class:`pandas.DataFrame` with one row per run (sorted by variant, replicate).
@@ -116,21 +132,19 @@ def run_batch(runs: list[BatchRun], *, out_dir: str | os.PathLike | None = None,
 
     from .progress import progress_bar
 
-    out = None if out_dir is None else str(ensure_output_dir(out_dir))
     rows = []
+    client = cluster = None
+    if workers > 1 or scheduler is not None:
+        client, cluster = _dask_client(workers, scheduler)
+    out = None if out_dir is None else str(ensure_output_dir(out_dir))  # only once the workers are there
     with progress_bar(total=len(runs), desc="batch", unit="run", enabled=progress) as bar:
-        if workers <= 1 and scheduler is None:
+        if client is None:
             for run in runs:
                 rows.append(_grow_one(run, out))
                 bar.update(1)
         else:
-            from dask.distributed import Client, LocalCluster, as_completed
+            from dask.distributed import as_completed
 
-            cluster = None
-            if scheduler is None:
-                cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                                       dashboard_address=None)
-            client = Client(cluster if cluster is not None else scheduler)
             try:
                 futures = [client.submit(_grow_one, run, out, pure=False) for run in runs]
                 for fut in as_completed(futures):

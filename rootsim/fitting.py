@@ -105,6 +105,12 @@ def with_parameter(spec: Spec, key_path: str, value: float) -> Spec:
     A fixed value is replaced; a normal distribution gets ``value`` as its mean (same standard deviation);
     a uniform one is shifted to centre on ``value`` (same width). The result is validated.
     """
+    from .spec import PARAMETER_RANGES
+
+    parts = key_path.split(".")
+    if len(parts) != 3 or parts[0] != "root_classes" or parts[2] not in PARAMETER_RANGES:
+        raise SpecError(spec.source, key_path, "only numeric root-class parameters can be fitted",
+                        "root_classes.<class>.<parameter> with <parameter> one of " + ", ".join(PARAMETER_RANGES))
     current = _parameter_value(spec, key_path)
     if isinstance(current, Fixed) or (isinstance(current, (int, float)) and not isinstance(current, bool)):
         new = float(value) if isinstance(current, (int, float)) else Fixed(float(value))
@@ -212,7 +218,7 @@ def fit_profile(spec: Spec, observed, parameters: list[FitParameter], *, replica
             s = with_parameter(s, p.key_path, float(v))
         return s, values
 
-    def simulate(s):
+    def mean_profile(s):
         rld = np.zeros(len(top))
         for sd in seeds:
             system = grow(s, seed=sd, progress=False)
@@ -226,7 +232,7 @@ def fit_profile(spec: Spec, observed, parameters: list[FitParameter], *, replica
         def objective(unit):
             unit = np.atleast_1d(unit)
             s, values = candidate(unit)
-            sim = simulate(s)
+            sim = mean_profile(s)
             value = float(np.sum((sim - target) ** 2))
             rows.append({**{p.key_path: float(v) for p, v in zip(parameters, values)}, "objective": value})
             bar.update(1)
@@ -246,7 +252,7 @@ def fit_profile(spec: Spec, observed, parameters: list[FitParameter], *, replica
     for key, v in values.items():
         fitted = with_parameter(fitted, key, v)
     profile = pd.DataFrame({"depth_top_cm": top, "depth_bottom_cm": bottom, "rld_observed_cm_per_cm3": target,
-                            "rld_fitted_cm_per_cm3": simulate(fitted)})
+                            "rld_fitted_cm_per_cm3": mean_profile(fitted)})
     return FitResult(values, float(best["objective"]), len(history), history, profile, fitted)
 
 

@@ -56,7 +56,9 @@ Numeric = Annotated[Distribution, BeforeValidator(_to_distribution), PlainSerial
 
 
 class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
+    # strict: no silent coercion ("45" or true for a number); ints are still accepted for floats.
+    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True, strict=True,
+                              allow_inf_nan=False)
 
 
 class Run(_Model):
@@ -193,7 +195,7 @@ class RootClass(_Model):
     """One root class (a type of axis: primary, seminal, nodal, basal, first-order lateral, ...).
 
     Growth: ``elongation_law`` ``"linear"`` (rate ``elongation_rate_cm_per_day`` until
-    ``max_length_cm``) or ``"negative_exponential"`` (length ``L(t) = Lmax (1 - exp(-r t / Lmax))``,
+    ``max_length_cm``) or ``"negative_exponential"`` (length ``L(t) = L_max (1 - exp(-r t / L_max))``,
     initial rate ``r``). Direction: roots from the plant start at ``initial_angle_from_vertical_deg``;
     laterals at ``insertion_angle_deg`` from their parent's axis, placed around it at random or on a
     spiral (``radial_placement``, ``spiral_divergence_deg``). Per unit length the heading bends toward
@@ -265,9 +267,7 @@ class Spec(_Model):
             run = Run(**data)
         except ValidationError as exc:
             raise _spec_error_from_validation(exc, self.source, prefix=("run",)) from None
-        if run.time_step_days > run.duration_days:
-            raise SpecError(self.source, "run.time_step_days", f"time step {run.time_step_days:g} is longer than the run",
-                            f"<= run.duration_days = {run.duration_days:g}")
+        _check_run(run, self.source)
         return self.model_copy(update={"run": run})
 
 
@@ -320,10 +320,20 @@ def parse_spec(data: Any, *, source: str = "<spec>") -> Spec:
     if spec is None:
         raise SpecError(source, "source", "unknown key", _closest("source", Spec))
     _check_references(spec)
-    if spec.run.time_step_days > spec.run.duration_days:
-        raise SpecError(source, "run.time_step_days", f"time step {spec.run.time_step_days:g} is longer than the run",
-                        f"<= run.duration_days = {spec.run.duration_days:g}")
+    _check_run(spec.run, source)
     return spec
+
+
+def _check_run(run: Run, source: str) -> None:
+    from .limits import MAX_STEPS
+
+    if run.time_step_days > run.duration_days:
+        raise SpecError(source, "run.time_step_days", f"time step {run.time_step_days:g} is longer than the run",
+                        f"<= run.duration_days = {run.duration_days:g}")
+    steps = run.duration_days / run.time_step_days
+    if steps > MAX_STEPS:
+        raise SpecError(source, "run.time_step_days", f"time step {run.time_step_days:g} gives {steps:.3g} steps",
+                        f"at most {MAX_STEPS:,} steps, i.e. >= {run.duration_days / MAX_STEPS:.3g} days here")
 
 
 def _check_references(spec: Spec) -> None:

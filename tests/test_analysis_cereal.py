@@ -1,24 +1,9 @@
 """The shipped cereal-like architecture gives a crop-like vertical root distribution."""
 
-from pathlib import Path
-
 import numpy as np
 import pytest
 
-import rootsim
 from rootsim.analysis import layer_profile, root_traits
-
-SPEC = Path(__file__).resolve().parents[1] / "params" / "cereal_fibrous.toml"
-
-
-@pytest.fixture(scope="module")
-def cereal_plant():
-    spec = rootsim.load_spec(SPEC)
-    try:  # one plant of the stand keeps the test quick; the architecture is unchanged
-        spec = spec.model_copy(update={"stand": spec.stand.model_copy(update={"rows": 1, "plants_per_row": 1})})
-    except AttributeError:
-        pass
-    return rootsim.grow(spec, progress=False)
 
 
 def test_gale_grigal_beta_is_crop_like(cereal_plant):

@@ -27,6 +27,8 @@ def test_replicate_seeds_follow_seedsequence_and_differ():
 
 
 def test_results_do_not_depend_on_workers_or_other_variants(tmp_path):
+    # The reproducibility contract: a run depends on its spec, seed and replicate number alone, so serial and
+    # Dask runs, and batches with other variants, give identical tables.
     taproot, basal = small("taproot_laterals"), small("shallow_basal")
     serial = run_batch(plan_batch([taproot, basal], replicates=2), out_dir=tmp_path / "serial", progress=False)
     alone = run_batch(plan_batch([basal], replicates=2), progress=False)

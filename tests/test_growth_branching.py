@@ -61,18 +61,18 @@ def test_lateral_count_and_positions_on_a_finished_axis(length, basal, apical, i
 def _lateral_timing(days, step_days):
     """Analytic birth days of the laterals of ``_axis()`` up to ``days`` and the grown lengths per lateral.
 
-    Linear growth: the axis (rate ra) reaches basal + j d + apical at t_j = (basal + j d + apical) / ra
-    (when that is within its 20 cm), and lateral j then has length min(rl (T - t_j), Lmax) (common practice).
+    Linear growth: the axis (rate axis_rate) reaches basal + j d + apical at t_j = (basal + j d + apical) / axis_rate
+    (when that is within its 20 cm), and lateral j then has length min(lateral_rate (T - t_j), max_len) (common practice).
     Returns (born, expected lengths, grown lengths longest first, grown axis length).
     """
-    ra, basal, apical, d, rl, max_len = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
+    axis_rate, basal, apical, d, lateral_rate, max_len = 2.0, 1.0, 2.0, 1.5, 0.5, 3.0
     df = grow_frame(make_spec({"axis": _axis(), "lateral": _lateral()}, days=days, step_days=step_days))
     threshold = basal + apical + d * np.arange(20)
-    t_j = threshold / ra
+    t_j = threshold / axis_rate
     born = t_j[(t_j < days) & (threshold <= 20.0)]
     per_root = df.groupby("root_id")["length_cm"].sum()
     grown = np.sort(per_root.loc[_laterals(df)["root_id"].to_numpy()].to_numpy())[::-1]
-    return born, np.minimum(rl * (days - born), max_len), grown, per_root.loc[0]
+    return born, np.minimum(lateral_rate * (days - born), max_len), grown, per_root.loc[0]
 
 
 @pytest.mark.parametrize("days,step_days", [(5.0, 0.5), (7.3, 0.3), (6.0, 0.25), (4.1, 1.0)])
@@ -88,7 +88,7 @@ def test_laterals_emerge_when_the_apical_zone_passes_and_grow_from_then(days, st
 @pytest.mark.parametrize("days,step_days", [(4.8, 0.4), (5.5, 1.0), (4.0, 0.5)])
 def test_lateral_born_during_the_final_step_has_grown_by_the_end(days, step_days):
     # Runs that end while laterals born in their final step are already growing: a lateral born at
-    # t_j < T has length rl (T - t_j) > 0 at T.
+    # t_j < T has length lateral_rate (T - t_j) > 0 at T.
     born, expected, grown, _ = _lateral_timing(days, step_days)
     assert len(grown) == len(born)
     np.testing.assert_allclose(grown, expected, rtol=1e-9)
@@ -96,21 +96,22 @@ def test_lateral_born_during_the_final_step_has_grown_by_the_end(days, step_days
 
 @pytest.mark.parametrize("step_days", [1.0, 0.5])
 def test_laterals_of_a_negative_exponential_axis_emerge_at_the_analytic_time(step_days):
-    # Axis L(t) = Lmax (1 - exp(-r t / Lmax)) reaches the threshold h = basal + j d + apical at
-    # t_j = -(Lmax / r) ln(1 - h / Lmax) (inverting the law); a linear lateral then has rl (T - t_j).
-    ra, la, rl, days = 3.0, 20.0, 0.5, 20.0
-    axis = _axis(elongation_law="negative_exponential", elongation_rate_cm_per_day=ra, max_length_cm=la)
+    # Axis L(t) = L_max (1 - exp(-r t / L_max)) reaches the threshold h = basal + j d + apical at
+    # t_j = -(max_len / rate) ln(1 - h / max_len) (inverting the law); a linear lateral then has
+    # lateral_rate (T - t_j).
+    axis_rate, axis_max, lateral_rate, days = 3.0, 20.0, 0.5, 20.0
+    axis = _axis(elongation_law="negative_exponential", elongation_rate_cm_per_day=axis_rate, max_length_cm=axis_max)
     df = grow_frame(make_spec({"axis": axis, "lateral": _lateral(max_length_cm=100.0)}, days=days,
                               step_days=step_days))
     threshold = 3.0 + 1.5 * np.arange(20)
-    threshold = threshold[threshold <= la]
-    t_j = -la / ra * np.log(1 - threshold / la)
+    threshold = threshold[threshold <= axis_max]
+    t_j = -axis_max / axis_rate * np.log(1 - threshold / axis_max)
     t_j = t_j[t_j < days]
     assert np.all(t_j < days - step_days)  # none born in the final step
     per_root = df.groupby("root_id")["length_cm"].sum()
     grown = np.sort(per_root.loc[_laterals(df)["root_id"].to_numpy()].to_numpy())[::-1]
     # 1e-6 days is far below any step; the law itself is exact.
-    np.testing.assert_allclose((days - grown / rl), t_j, atol=1e-6)
+    np.testing.assert_allclose((days - grown / lateral_rate), t_j, atol=1e-6)
 
 
 def _many_axes(n_axes, axis, laterals: dict, *, seed, days=30.0, angle_deg=30.0):
@@ -215,7 +216,7 @@ def test_interbranch_distances_follow_the_spec_distribution(distribution, refere
 
 
 def test_branch_probabilities_match_multinomial_expectation():
-    # Two successor classes with p = 0.3 and 0.5 (so 0.2 none) at every branch point: the counts follow a
+    # Two lateral classes with p = 0.3 and 0.5 (so 0.2 none) at every branch point: the counts follow a
     # multinomial distribution; chi-square goodness of fit and exact binomial tests (scipy.stats).
     axis = _axis(branches=[{"root_class": "lateral_a", "probability": 0.3},
                            {"root_class": "lateral_b", "probability": 0.5}])
@@ -297,7 +298,7 @@ def test_upward_depth_steps_stop_at_the_soil_surface():
 
 def test_roots_older_than_their_lifespan_are_left_out_with_their_laterals():
     # Laterals born at t_j (as above) with a 4-day lifespan: at T only those with t_j + 4 > T remain, each of
-    # length rl (T - t_j). An axis with a 10-day lifespan takes all its laterals with it.
+    # length lateral_rate (T - t_j). An axis with a 10-day lifespan takes all its laterals with it.
     lateral = _lateral(max_length_cm=100.0, lifespan_days=4.0)
     axis = _axis(max_length_cm=60.0)
     days = 20.0

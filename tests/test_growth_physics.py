@@ -12,12 +12,12 @@ from growth_specs import angle_from_vertical_deg, directions, grow_frame, make_s
 # -- elongation laws -----------------------------------------------------------------------------
 
 def _linear_length(t, rate, max_length):
-    # Linear growth to a maximum length: L = min(r t, Lmax) (common practice).
+    # Linear growth to a maximum length: L = min(r t, L_max) (common practice).
     return np.minimum(rate * t, max_length)
 
 
 def _negexp_length(t, rate, max_length):
-    # Negative-exponential growth: L = Lmax (1 - exp(-r t / Lmax)), initial rate r (common practice;
+    # Negative-exponential growth: L = L_max (1 - exp(-r t / L_max)), initial rate r (common practice;
     # the monomolecular growth curve, from memory).
     return max_length * (1.0 - np.exp(-rate * t / max_length))
 
@@ -39,12 +39,12 @@ def test_negative_exponential_root_length_at_several_times(step_days):
     spec = make_spec({"main": root_class(elongation_law="negative_exponential", elongation_rate_cm_per_day=rate,
                                          max_length_cm=max_length)},
                      emergence=[{"root_class": "main", "first_day": first_day}], step_days=step_days)
-    # Up to r t / Lmax = 7.2 the tip is further than 1e-4 Lmax from its maximum and still growing.
+    # Up to r t / L_max = 7.2 the tip is further than 1e-4 L_max from its maximum and still growing.
     for days in (2.5, 3.0, 6.1, 10.0, 20.0, 50.2):
         df = grow_frame(spec, days=days)
         expected = _negexp_length(days - first_day, rate, max_length)
         assert df["length_cm"].sum() == pytest.approx(expected, rel=1e-10), days
-    # Long after, the root has (nearly) reached Lmax and never passes it.
+    # Long after, the root has (nearly) reached L_max and never passes it.
     total = grow_frame(spec, days=400.0)["length_cm"].sum()
     assert max_length * (1 - 1e-3) <= total <= max_length * (1 + 1e-12)
 

@@ -106,13 +106,14 @@ def _linear_branched(step_days, days):
 @pytest.mark.parametrize("days", [20.0, 13.7])
 def test_total_length_of_a_fixed_parameter_system_is_analytic_at_any_step(step_days, days):
     # With fixed parameters and every branch point taken, total length does not depend on the random turning:
-    # axes min(ra T, La); lateral j born at t_j = (basal + j d + apical) / ra when basal + j d + apical <= La,
-    # length min(rl (T - t_j), Ll) (linear growth, common practice).
-    ra, la, basal, apical, d, rl, ll, n_axes = 2.0, 60.0, 1.0, 3.0, 1.5, 0.8, 10.0, 3
+    # axes min(axis_rate T, axis_max); lateral j born at t_j = (basal + j d + apical) / axis_rate when
+    # basal + j d + apical <= axis_max,
+    # length min(lateral_rate (T - t_j), lateral_max) (linear growth, common practice).
+    axis_rate, axis_max, basal, apical, d, lateral_rate, lateral_max, n_axes = 2.0, 60.0, 1.0, 3.0, 1.5, 0.8, 10.0, 3
     threshold = basal + apical + d * np.arange(100)
-    t_j = threshold[threshold <= la] / ra
+    t_j = threshold[threshold <= axis_max] / axis_rate
     t_j = t_j[t_j < days]
-    expected = n_axes * (min(ra * days, la) + np.sum(np.minimum(rl * (days - t_j), ll)))
+    expected = n_axes * (min(axis_rate * days, axis_max) + np.sum(np.minimum(lateral_rate * (days - t_j), lateral_max)))
     total = _linear_branched(step_days, days)["length_cm"].sum()
     assert total == pytest.approx(expected, rel=1e-9)
 

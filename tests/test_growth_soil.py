@@ -138,7 +138,7 @@ def test_steep_tip_enters_a_strong_layer_and_slows_by_the_impedance_factor(law):
         t_c = s_c / rate
         expected = s_c + factor * rate * (days - t_c)
     else:
-        # L = Lmax (1 - exp(-r t / Lmax)) up to s_c, then the same law with rate factor r from there.
+        # L = L_max (1 - exp(-r t / L_max)) up to s_c, then the same law with rate factor r from there.
         t_c = -max_length / rate * np.log(1 - s_c / max_length)
         expected = max_length - (max_length - s_c) * np.exp(-factor * rate * (days - t_c) / max_length)
     total = df["length_cm"].sum()

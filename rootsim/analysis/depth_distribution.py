@@ -77,7 +77,9 @@ def cumulative_depth(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray)
     top = np.minimum(depth0, depth1)
     base = np.maximum(depth0, depth1)
     span = base - top
-    steep = span > 0
+    # Spans below 1e-9 cm count as horizontal (a step): a density of length / 1e-19 would swamp the running
+    # sums below in rounding error.
+    steep = span > 1e-9
     with np.errstate(divide="ignore", invalid="ignore"):
         density = np.where(steep, length / np.where(steep, span, 1.0), 0.0)
     events = np.concatenate([top, base])

@@ -57,6 +57,9 @@ def depth_layer_lengths(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarr
         Root length per layer and group, cm. Length above depth 0 or below ``bottom_cm`` is not counted.
     """
     h = float(layer_cm)
+    from ..limits import check_cell_count
+
+    check_cell_count(float(n_layers) * n_groups, what=f"depth layers of {h:g} cm (x {n_groups} groups)")
     n_layers = int(n_layers)
     full_bottom = n_layers * h
     bottom = full_bottom if bottom_cm is None else float(bottom_cm)

@@ -142,6 +142,9 @@ def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None) -> tuple[np.ndarray, n
     end = [float_column(system, c) for c in ("x1", "y1", "z1")]
     length = float_column(system, "length_cm")
     origin, counts = _grid(start, end, spacing, bounds)
+    from ..limits import check_cell_count
+
+    check_cell_count(float(counts[0]) * float(counts[1]) * float(counts[2]), what="voxels of the RLD grid")
     nx, ny, nz = (int(c) for c in counts)
     size = nx * ny * nz
     total = np.zeros(size)

@@ -13,7 +13,7 @@ import pkgutil
 import tempfile
 import time
 
-__all__ = ["make_entry", "run_bench", "timed"]
+__all__ = ["make_entry", "run_bench", "stage_names", "timed"]
 
 
 def make_entry(*, segments: int, seconds: float, floor_seconds: float, floor: str, **extra) -> dict:
@@ -50,6 +50,11 @@ def _stage_modules():
         if hasattr(mod, "NAME") and hasattr(mod, "run"):
             mods.append(mod)
     return sorted(mods, key=lambda m: (getattr(m, "ORDER", 100), m.NAME))
+
+
+def stage_names() -> list[str]:
+    """Names of the later stages (``--stage`` values)."""
+    return [mod.NAME for mod in _stage_modules()]
 
 
 def run_bench(*, segments: int = 1_000_000, seed: int = 0, stages: list[str] | None = None, report=None) -> dict:

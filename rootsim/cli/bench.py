@@ -34,6 +34,11 @@ def run(args) -> int:
 
     if args.segments < 1:
         raise RootsimError("--segments must be >= 1")
+    from ..bench import stage_names
+
+    unknown = sorted(set(args.stages or ()) - set(stage_names()))
+    if unknown:
+        raise RootsimError(f"--stage {', '.join(unknown)}: unknown stage (allowed: {', '.join(stage_names())})")
     say = (lambda msg: print(f"bench: {msg} ...", file=sys.stderr)) if sys.stderr.isatty() else None
     results = run_bench(segments=args.segments, seed=args.seed, stages=args.stages, report=say)
     if args.json:

@@ -230,7 +230,6 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
 
     # Mitre or split at each joint.
     half_tan = np.sqrt(np.clip(1.0 - cos_turn, 0, None) / np.clip(denom, 1e-300, None))  # tan(turn / 2)
-    joint_radius = 0.5 * (radius[joint - 1] + radius[joint])
     reach = np.maximum(radius[joint - 1], radius[joint]) * half_tan
     split = (cos_turn < np.cos(np.radians(sharp))) | (reach > 0.5 * np.minimum(length[joint - 1], length[joint])) | ~safe
     piece_first = edge_first.copy()

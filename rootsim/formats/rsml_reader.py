@@ -164,6 +164,8 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
     for name, value in (("default radius", default_radius_cm), ("pixel size", cm_per_pixel)):
         if value is not None and (not _is_number(value) or not np.isfinite(float(value)) or float(value) <= 0):
             raise FormatError(f"{source}: {name} {value!r} cm is not allowed (need a number > 0)")
+    if path.is_dir():
+        raise FormatError(f"{source}: is a directory (expected an .rsml file)")
     if not path.is_file():
         raise FormatError(f"{source}: no such file")
     parser = etree.XMLParser(resolve_entities=False, no_network=True, huge_tree=True, remove_comments=True)

@@ -28,13 +28,13 @@ class ClassTable:
         self.spiral_divergence_rad = np.radians([c.spiral_divergence_deg for c in classes])
         self.has_lifespan = any(c.lifespan_days is not None for c in classes)
         k = max([len(c.branches) for c in classes] + [1])
-        self.successor_cum = np.full((len(classes), k), 2.0)
-        self.successor_class = np.full((len(classes), k), -1, dtype=np.int64)
+        self.branch_cumulative_probability = np.full((len(classes), k), 2.0)
+        self.branch_class = np.full((len(classes), k), -1, dtype=np.int64)
         for i, c in enumerate(classes):
             cum = np.cumsum([b.probability for b in c.branches])
-            self.successor_cum[i, : len(cum)] = cum
-            self.successor_class[i, : len(cum)] = [self.index[b.root_class] for b in c.branches]
-        self.any_branching = bool((self.successor_class >= 0).any())
+            self.branch_cumulative_probability[i, : len(cum)] = cum
+            self.branch_class[i, : len(cum)] = [self.index[b.root_class] for b in c.branches]
+        self.any_branching = bool((self.branch_class >= 0).any())
 
     def draw(self, class_code: np.ndarray, uniforms: np.ndarray) -> dict[str, np.ndarray]:
         """Per-root parameter values.

@@ -403,9 +403,9 @@ class _Engine:
             pos = start[:, k] + frac * (end[:, k] - start[:, k])
             direction = (end[:, k] - start[:, k]) / seg_len[k]
             cls = i[_CLASS, k]
-            pick = (u[:, 0:1] >= self.classes.successor_cum[cls]).sum(axis=1)
-            child = self.classes.successor_class[cls, np.minimum(pick, self.classes.successor_class.shape[1] - 1)]
-            child = np.where(pick < self.classes.successor_class.shape[1], child, -1)
+            pick = (u[:, 0:1] >= self.classes.branch_cumulative_probability[cls]).sum(axis=1)
+            child = self.classes.branch_class[cls, np.minimum(pick, self.classes.branch_class.shape[1] - 1)]
+            child = np.where(pick < self.classes.branch_class.shape[1], child, -1)
             keep = child >= 0
             if keep.any():
                 kk = k[keep]

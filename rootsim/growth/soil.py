@@ -174,8 +174,20 @@ class ContainerWalls:
             d[2, short] = np.where(at_bottom, vertical, -vertical)
         direction = direction.copy()
         direction[:, idx] = d
-        end[:, idx] = self.clamp(s0 + d * step)  # only rounding (or a step longer than the box) is left
+        end[:, idx] = self._snap(self.clamp(s0 + d * step))  # only rounding (or a step longer than the box) is left
         return end, direction, touched
+
+    def _snap(self, points: np.ndarray, tolerance: float = 1e-9) -> np.ndarray:
+        """Put points (3, n) within ``tolerance`` cm of a flat boundary exactly on it (rounding of landings)."""
+        p = points
+        p[2] = np.where(p[2] > -tolerance, 0.0, p[2])
+        if self.depth is not None:
+            p[2] = np.where(np.abs(p[2] + self.depth) < tolerance, -self.depth, p[2])
+        if self.kind == "rhizobox":
+            for axis, half in ((0, self.half_width), (1, self.half_thickness)):
+                p[axis] = np.where(np.abs(p[axis] - half) < tolerance, half, p[axis])
+                p[axis] = np.where(np.abs(p[axis] + half) < tolerance, -half, p[axis])
+        return p
 
     def _reflect_inward(self, end: np.ndarray, d: np.ndarray) -> np.ndarray:
         """Flip the components of ``d`` (3, n) that point out through a boundary ``end`` (3, n) crosses."""

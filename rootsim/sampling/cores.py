@@ -99,6 +99,10 @@ def validate_core(core: Core, *, label: str, metadata: Mapping | None = None) ->
 
 def core_increments(core: Core) -> tuple[np.ndarray, np.ndarray]:
     """Depth tops and bottoms of a core's increments, cm, shape (k,) each; the last may be shorter."""
+    from ..limits import check_cell_count
+
+    check_cell_count((core.depth_cm - core.top_cm) / core.increment_cm,
+                     what=f"core increments of {core.increment_cm:g} cm")
     k = max(1, math.ceil((core.depth_cm - core.top_cm) / core.increment_cm - 1e-9))
     tops = core.top_cm + core.increment_cm * np.arange(k)
     bottoms = np.minimum(tops + core.increment_cm, core.depth_cm)

@@ -89,6 +89,9 @@ def validate_wall(wall: Wall, *, label: str, metadata=None) -> None:
 
 def cell_edges(start: float, stop: float, step: float) -> np.ndarray:
     """Edges ``start, start + step, ..., stop`` (last interval shorter if needed), shape (k + 1,)."""
+    from ..limits import check_cell_count
+
+    check_cell_count((stop - start) / step, what=f"cells or windows of {step:g} cm")
     k = max(1, math.ceil((stop - start) / step - 1e-9))
     return np.minimum(start + step * np.arange(k + 1), stop)
 
