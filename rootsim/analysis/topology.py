@@ -264,12 +264,17 @@ def fitter_indices(system: Any, chains: RootChains | None = None, branches: Bran
 
     tip_links = (base_links + n_nodes + 1)[has_tip]
     tip_plant = plant[has_tip]
+    # Per-plant sums and maxima in one pass (bincount / maximum.at), then one small dict per plant.
+    plants, group = np.unique(plant, return_inverse=True)
+    tip_group = group[has_tip]
+    magnitude = np.bincount(tip_group, minlength=plants.size)
+    path_length = np.bincount(tip_group, weights=tip_links, minlength=plants.size)
+    altitude = np.zeros(plants.size, dtype=np.int64)
+    np.maximum.at(altitude, tip_group, tip_links.astype(np.int64))
     out = {}
-    for p in np.unique(plant):
-        links = tip_links[tip_plant == p]
-        magnitude = int(links.size)
-        altitude = int(links.max()) if links.size else 0
-        index = float(np.log(altitude) / np.log(magnitude)) if magnitude >= 2 else None
-        out[int(p)] = {"magnitude": magnitude, "altitude": altitude,
-                       "external_path_length": int(links.sum()), "topological_index": index}
+    for k, p in enumerate(plants):
+        mu, alt = int(magnitude[k]), int(altitude[k])
+        index = float(np.log(alt) / np.log(mu)) if mu >= 2 else None
+        out[int(p)] = {"magnitude": mu, "altitude": alt, "external_path_length": int(round(path_length[k])),
+                       "topological_index": index}
     return out

@@ -206,28 +206,22 @@ class _Engine:
         if not due:
             return
         self.schedule = [ev for ev in self.schedule if ev not in due]
-        plants, cls, depth, times, slot, count = [], [], [], [], [], []
-        for t, e_idx, _k, d in due:
-            em = self.spec.emergence[e_idx]
-            m = em.roots_per_event
-            for p in range(self.n_plants):
-                plants.append(np.full(m, p))
-                cls.append(np.full(m, self.classes.index[em.root_class]))
-                depth.append(np.full(m, d))
-                times.append(np.full(m, t))
-                slot.append(np.arange(m))
-                count.append(np.full(m, m))
-        plant = np.concatenate(plants)
-        order = np.argsort(plant, kind="stable")
-        plant, cls_code = plant[order], np.concatenate(cls)[order]
-        depth, times = np.concatenate(depth)[order], np.concatenate(times)[order]
-        slot, count = np.concatenate(slot)[order], np.concatenate(count)[order]
-        jitter = np.radians(np.array([self.spec.emergence[e].azimuth_jitter_deg for _, e, _, _ in due]))
+        # Roots ordered by plant, then event, then position in the whorl (one block per plant, tiled).
+        ems = [self.spec.emergence[e_idx] for _, e_idx, _, _ in due]
+        per_event = np.array([em.roots_per_event for em in ems])
+        event_in_block = np.repeat(np.arange(len(due)), per_event)
+        block = event_in_block.size
+        plant = np.repeat(np.arange(self.n_plants), block)
+        event_of = np.tile(event_in_block, self.n_plants)
+        slot = np.tile(np.arange(block) - np.repeat(np.cumsum(per_event) - per_event, per_event), self.n_plants)
+        count = per_event[event_of]
+        cls_code = np.array([self.classes.index[em.root_class] for em in ems])[event_of]
+        depth = np.array([ev[3] for ev in due])[event_of]
+        times = np.array([ev[0] for ev in due])[event_of]
+        jitter = np.radians(np.array([em.azimuth_jitter_deg for em in ems]))
         # Azimuth: whorl offset (one per event and plant) + even spread + jitter. Per-root uniforms
         # come from the plant's stream, as do the class parameters.
         u = self.streams.uniform(plant, 2 + len(PARAM_NAMES))
-        event_of = np.concatenate([np.full(self.spec.emergence[e].roots_per_event * self.n_plants, j)
-                                   for j, (_, e, _, _) in enumerate(due)])[order]
         first = np.r_[True, (event_of[1:] != event_of[:-1]) | (plant[1:] != plant[:-1])]
         offset = np.maximum.accumulate(np.where(first, np.arange(len(plant)), 0))
         whorl_turn = 2 * np.pi * u[offset, 0]
