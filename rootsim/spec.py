@@ -196,7 +196,8 @@ class RootClass(_Model):
 
     Growth: ``elongation_law`` ``"linear"`` (rate ``elongation_rate_cm_per_day`` until
     ``max_length_cm``) or ``"negative_exponential"`` (length ``L(t) = L_max (1 - exp(-r t / L_max))``,
-    initial rate ``r``). Direction: roots from the plant start at ``initial_angle_from_vertical_deg``;
+    initial rate ``r``: growth slowing in proportion to the length still to grow, the monomolecular growth
+    curve; common practice). Direction: roots from the plant start at ``initial_angle_from_vertical_deg``;
     laterals at ``insertion_angle_deg`` from their parent's axis, placed around it at random or on a
     spiral (``radial_placement``, ``spiral_divergence_deg``). Per unit length the heading bends toward
     the vertical by Sachs' sine law (``gravitropism_per_cm``), toward ``preferred_angle_from_vertical_deg``
