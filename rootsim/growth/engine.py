@@ -374,7 +374,9 @@ class _Engine:
     @staticmethod
     def _tropic_half_turn(h, f, tropic, exo, half_arc):
         """Advance headings ``h`` (3, n) in place by the tropic turn over ``half_arc`` (tips ``tropic``, ``exo``)."""
-        if tropic.size:
+        if tropic.size == h.shape[1]:  # every tip: no gather and scatter
+            h[:] = vertical_sine_law_step(h, half_arc, f[_TROP], f[_COSPHI], f[_SINPHI])
+        elif tropic.size:
             h[:, tropic] = vertical_sine_law_step(h[:, tropic], half_arc[tropic], f[_TROP, tropic],
                                                   f[_COSPHI, tropic], f[_SINPHI, tropic])
         if exo.size:
