@@ -165,13 +165,12 @@ def tangent_variance(brownian_variance: np.ndarray) -> np.ndarray:
     x = np.asarray(brownian_variance, dtype=np.float64)
     # Series inversion of 1 - τ + τ²/3 - τ³/15 = exp(-x): τ = x - x²/6 - x³/90 + O(x⁴), used below x = 0.05
     # (relative error under 1e-6); the table (interpolated in log x) above.
-    series = x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
-    if x.size and x.max() < 0.05:
-        return series
-    log_x, ratio = _tangent_variance_table()
-    with np.errstate(divide="ignore"):
-        table = x * np.interp(np.log(x), log_x, ratio, right=ratio[-1])
-    return np.where(x < 0.05, series, table)
+    out = x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
+    big = np.flatnonzero(x >= 0.05)
+    if big.size:
+        log_x, ratio = _tangent_variance_table()
+        out[big] = x[big] * np.interp(np.log(x[big]), log_x, ratio, right=ratio[-1])
+    return out
 
 
 def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
