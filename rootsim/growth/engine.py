@@ -162,7 +162,7 @@ class _Store:
 
 
 class _Engine:
-    def __init__(self, spec: Spec, progress=None):
+    def __init__(self, spec: Spec):
         self.spec = spec
         self.classes = ClassTable(spec)
         self.soil = SoilField(spec.soil)
@@ -170,7 +170,6 @@ class _Engine:
         self.positions = plant_positions(spec)
         self.n_plants = len(self.positions)
         self.streams = _Streams(spec.run.seed, self.n_plants)
-        self.progress = progress
         self.tip_float = _Store(_NF, np.float64)
         self.tip_int = _Store(_NI, np.int64)
         self.tip_active = _Store(1, bool)
@@ -420,17 +419,9 @@ class _Engine:
             k = k[(nxt[k] <= new_length[k]) & (nxt[k] + f[_APICAL, k] <= f[_MAXLEN, k])]
 
     def _dead_tips(self, t: float) -> np.ndarray:
-        roots = self.roots
-        dead = roots.view("dead")
-        dead[: roots.n] |= roots["death"] <= t
-        parent = roots["parent"]
-        has_parent = parent >= 0
-        for _ in range(int(roots["order"].max(initial=0)) + 1):
-            inherited = np.zeros(roots.n, bool)
-            inherited[has_parent] = dead[parent[has_parent]]
-            if not (inherited & ~dead[: roots.n]).any():
-                break
-            dead[: roots.n] |= inherited
+        """Mark roots dead by day ``t`` (with their descendants); mask of dead tips, shape (n_tips,)."""
+        dead = self.roots.view("dead")
+        dead[: self.roots.n] |= self._dead_roots(t)
         return dead[self.tip_int.view[_ROOT]]
 
     def _activate_pending(self, t1: float):
@@ -519,13 +510,16 @@ class _Engine:
         return RootSystem(columns, self.metadata(), validate=False)
 
     def _dead_roots(self, t: float) -> np.ndarray:
+        """Mask of roots, shape (n_roots,), past their lifespan at day ``t`` or descended from such a root."""
         roots = self.roots
         dead = roots["death"] <= t + 1e-12
         parent = roots["parent"]
         has_parent = parent >= 0
-        for _ in range(int(roots["order"].max(initial=0)) + 1):
+        for _ in range(int(roots["order"].max(initial=0)) + 1):  # one pass per root order
             inherited = np.zeros(roots.n, bool)
             inherited[has_parent] = dead[parent[has_parent]]
+            if not (inherited & ~dead).any():
+                break
             dead |= inherited
         return dead
 
