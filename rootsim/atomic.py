@@ -5,7 +5,6 @@ from __future__ import annotations
 import contextlib
 import os
 import shutil
-import tempfile
 from pathlib import Path
 from typing import Iterator
 
@@ -30,20 +29,22 @@ def ensure_output_dir(path: str | os.PathLike) -> Path:
 def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path next to ``target``; on success rename it over ``target``.
 
-    If the body raises, the temporary file is removed and ``target`` is left untouched.
+    If the body raises, the temporary file is removed and ``target`` is left untouched. The temporary name
+    (``.NAME.rootsim-PID-TOKEN.part.SUFFIX``) carries this process's id, so temporaries of the same target
+    left by a killed process are removed here (see :func:`rootsim.result_folder.remove_stale_temporaries`).
     """
+    from .result_folder import remove_stale_temporaries, temporary_name
+
     target = Path(target)
     parent = target.parent if str(target.parent) else Path(".")
     try:
         parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part" + target.suffix, dir=parent)
+        remove_stale_temporaries(parent, prefix=f".{target.name}.")
+        tmp_path = parent / temporary_name(target.name, "part" + target.suffix)
+        fd = os.open(tmp_path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)  # usual permissions (umask applies)
     except OSError as exc:
         raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     os.close(fd)
-    tmp_path = Path(tmp)
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp_path, 0o666 & ~umask)  # mkstemp creates 0600; finished files get the usual permissions
     try:
         yield tmp_path
         os.replace(tmp_path, target)
