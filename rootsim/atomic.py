@@ -10,7 +10,7 @@ from typing import Iterator
 
 from .errors import RootsimError
 
-__all__ = ["atomic_path", "atomic_write_text", "ensure_output_dir"]
+__all__ = ["atomic_path", "atomic_paths", "atomic_write_text", "ensure_output_dir"]
 
 
 def ensure_output_dir(path: str | os.PathLike) -> Path:
@@ -61,3 +61,20 @@ def atomic_write_text(target: str | os.PathLike, text: str) -> None:
     """Write ``text`` to ``target`` atomically (UTF-8)."""
     with atomic_path(target) as tmp:
         tmp.write_text(text, encoding="utf-8")
+
+
+@contextlib.contextmanager
+def atomic_paths(targets) -> Iterator[list[Path]]:
+    """All-or-nothing output of several files: yield one temporary path per target, rename them all at the end.
+
+    If the body raises, every temporary file is removed and no target is touched, so a set of outputs (the
+    files of one ``export`` or ``plot`` command) appears as a whole or not at all.
+
+    Parameters
+    ----------
+    targets : iterable of path-like
+        Final file names (distinct).
+    """
+    with contextlib.ExitStack() as stack:
+        temps = [stack.enter_context(atomic_path(target)) for target in targets]
+        yield temps

@@ -207,7 +207,8 @@ def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *
             arrays.append(pa.array(np.asarray(columns[name])))
     table = pa.Table.from_arrays(arrays, names=names)
     meta = dict(table.schema.metadata or {})
-    meta[METADATA_KEY] = json.dumps(dict(metadata or {}), sort_keys=True).encode()
+    facts = {k: v for k, v in dict(metadata or {}).items() if k != "run_id"}  # a run id names a result folder
+    meta[METADATA_KEY] = json.dumps(facts, sort_keys=True).encode()
     table = table.replace_schema_metadata(meta)
     path = Path(path)
     with atomic_path(path) as tmp:

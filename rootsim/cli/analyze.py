@@ -110,11 +110,15 @@ def run(args: argparse.Namespace) -> int:
         "root_length_outside_profile_cm": profile.attrs["root_length_outside_profile_cm"],
     }
     traits["source"] = str(args.dir)
+    traits["run_id"] = system.metadata.get("run_id")  # the run these numbers come from (None outside a result folder)
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else _out_dir(args.dir))
     csv_path, json_path = out / "profile.csv", out / "traits.json"
     with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json:
         profile.to_csv(tmp_csv, index=False, float_format="%.10g")
         tmp_json.write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+    from ..result_folder import record_derived
+
+    record_derived(args.dir, [csv_path, json_path], command="analyze")
     print(summary_text(str(args.dir), traits, profile))
     print(f"wrote {csv_path} and {json_path}")
     return 0

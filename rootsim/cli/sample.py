@@ -104,7 +104,7 @@ def _requests(args):
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..atomic import atomic_path, ensure_output_dir
+    from ..atomic import atomic_paths, ensure_output_dir
     from ..rootsystem import RootSystem
     from ..sampling import core_grid, sample_cores, sample_projection, sample_tube, sample_wall
 
@@ -124,9 +124,12 @@ def run(args: argparse.Namespace) -> int:
                                                      band_cm=args.projection_band_cm)
     src = Path(args.dir)
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else (src.parent if src.suffix == ".parquet" else src))
-    for name, df in tables.items():
-        with atomic_path(out / name) as tmp:
+    with atomic_paths([out / name for name in tables]) as temps:  # all files or none
+        for tmp, df in zip(temps, tables.values()):
             df.to_csv(tmp, index=False, float_format="%.6g")
+    from ..result_folder import record_derived
+
+    record_derived(args.dir, [out / name for name in tables], command="sample")
     _print_summary(tables, out)
     return 0
 
