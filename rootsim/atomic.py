@@ -47,7 +47,10 @@ def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
     os.close(fd)
     try:
         yield tmp_path
-        os.replace(tmp_path, target)
+        try:
+            os.replace(tmp_path, target)
+        except OSError as exc:
+            raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     except BaseException:
         with contextlib.suppress(OSError):
             if tmp_path.is_dir():
@@ -67,14 +70,46 @@ def atomic_write_text(target: str | os.PathLike, text: str) -> None:
 def atomic_paths(targets) -> Iterator[list[Path]]:
     """All-or-nothing output of several files: yield one temporary path per target, rename them all at the end.
 
-    If the body raises, every temporary file is removed and no target is touched, so a set of outputs (the
-    files of one ``export`` or ``plot`` command) appears as a whole or not at all.
+    If the body raises, every temporary file is removed and no target is touched. Before the first rename
+    every target is checked (not a folder, its folder writable), so a set of outputs (the files of one
+    ``export`` or ``plot`` command) appears as a whole or not at all.
 
     Parameters
     ----------
     targets : iterable of path-like
         Final file names (distinct).
+
+    Raises
+    ------
+    RootsimError
+        A target cannot be written; no target was changed.
     """
-    with contextlib.ExitStack() as stack:
-        temps = [stack.enter_context(atomic_path(target)) for target in targets]
+    from .result_folder import temporary_name
+
+    targets = [Path(t) for t in targets]
+    temps: list[Path] = []
+    try:
+        for target in targets:
+            parent = target.parent if str(target.parent) else Path(".")
+            try:
+                parent.mkdir(parents=True, exist_ok=True)
+                tmp = parent / temporary_name(target.name, "part" + target.suffix)
+                os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))
+            except OSError as exc:
+                raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
+            temps.append(tmp)
         yield temps
+        for target in targets:
+            if target.is_dir():
+                raise RootsimError(f"{target}: is a folder, expected a file name; nothing was written")
+        for tmp, target in zip(temps, targets):
+            os.replace(tmp, target)
+    except OSError as exc:
+        raise RootsimError(f"cannot write the output files ({exc.strerror or exc})") from None
+    finally:
+        for tmp in temps:
+            with contextlib.suppress(OSError):
+                if tmp.is_dir():
+                    shutil.rmtree(tmp)
+                elif tmp.exists():
+                    tmp.unlink()

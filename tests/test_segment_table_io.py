@@ -1,0 +1,145 @@
+"""Segment-table I/O: dictionary-encoded root classes, older string files, metadata schema, absurd coordinates.
+
+Parquet layouts are checked with pyarrow's own schema reader and files of the older layout are written with
+pyarrow directly; counts are checked against pandas.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+import rootsim
+from rootsim.cli import main
+from rootsim.errors import SegmentTableError
+from rootsim.rootsystem import RootSystem, count_distinct
+from rootsim.segment_table import METADATA_KEY
+
+PARAMS = Path(__file__).resolve().parents[1] / "params"
+
+
+@pytest.fixture(scope="module")
+def system():
+    return rootsim.grow(rootsim.load_spec(PARAMS / "shallow_basal.toml"), days=8, progress=False)
+
+
+def one_error_line(capsys) -> str:
+    err = capsys.readouterr().err.strip()
+    assert err.startswith("error: ") and len(err.splitlines()) == 1, err
+    return err
+
+
+def test_root_class_is_categorical_in_memory_and_dictionary_in_parquet(system, tmp_path):
+    assert isinstance(system["root_class"], pd.Categorical)
+    path = system.write(tmp_path / "segments.parquet")
+    field = pq.read_schema(path).field("root_class")
+    assert pa.types.is_dictionary(field.type) and pa.types.is_string(field.type.value_type)
+    back = RootSystem.read(path)
+    assert isinstance(back["root_class"], pd.Categorical)
+    assert back["root_class"].tolist() == system["root_class"].tolist()
+    assert set(back["root_class"].categories) == set(rootsim.load_spec(PARAMS / "shallow_basal.toml").root_classes) \
+        & set(system["root_class"].tolist())
+    # plain pandas sees a categorical column too
+    assert isinstance(pd.read_parquet(path).root_class.dtype, pd.CategoricalDtype)
+
+
+def test_older_files_with_string_classes_still_read(system, tmp_path):
+    table = pq.read_table(system.write(tmp_path / "new.parquet"))
+    plain = table.set_column(table.column_names.index("root_class"), "root_class",
+                             table.column("root_class").cast(pa.string()))
+    old = tmp_path / "old" / "segments.parquet"
+    old.parent.mkdir()
+    pq.write_table(plain, old)  # no page checksums, plain strings: the layout of earlier versions
+    assert pa.types.is_string(pq.read_schema(old).field("root_class").type)
+    back = RootSystem.read(old)
+    assert isinstance(back["root_class"], pd.Categorical)
+    assert back["root_class"].tolist() == system["root_class"].tolist()
+    assert back.summary() == system.summary()
+
+
+def test_summary_counts_roots_like_pandas(system):
+    summary = system.summary()
+    assert summary["n_roots"] == pd.Series(system["root_id"]).nunique()
+    for ids in (np.array([5, 5, 0, 9, 9, 9]), np.array([-3, 7, 7, 2**40]), np.zeros(0, np.int64)):
+        assert count_distinct(ids) == pd.Series(ids, dtype="int64").nunique()
+
+
+def _with_metadata(system, tmp_path, raw: bytes) -> Path:
+    table = pq.read_table(system.write(tmp_path / "plain.parquet"))
+    meta = dict(table.schema.metadata)
+    meta[METADATA_KEY] = raw
+    out = tmp_path / "meta" / "segments.parquet"
+    out.parent.mkdir(exist_ok=True)
+    pq.write_table(table.replace_schema_metadata(meta), out)
+    return out
+
+
+BAD_METADATA = [
+    (b"[1, 2, 3]", "<top level>"),
+    (b'"just a string"', "<top level>"),
+    (b'{"stand": [1, 2]}', "stand"),
+    (b'{"stand": {"ground_area_cm2": "big"}}', "stand.ground_area_cm2"),
+    (b'{"stand": {"plant_positions_cm": [[0, "a"]]}}', "stand.plant_positions_cm[0][1]"),
+    (b'{"stand": {"plant_positions_cm": [[0]]}}', "stand.plant_positions_cm"),
+    (b'{"container": {"kind": "bucket"}}', "container.kind"),
+    (b'{"container": {"kind": "pot", "diameter_cm": -4, "depth_cm": 10}}', "container.diameter_cm"),
+    (b'{"run": {"duration_days": true}}', "run.duration_days"),
+    (b"{not json", "<top level>"),
+]
+
+
+@pytest.mark.parametrize("raw,where", BAD_METADATA)
+def test_metadata_of_the_wrong_shape_is_one_line_for_every_reader(system, tmp_path, capsys, raw, where):
+    path = _with_metadata(system, tmp_path, raw)
+    for argv in (["analyze", str(path), "--out-dir", str(tmp_path / "a")],
+                 ["sample", str(path), "--core", "0,0,5,20", "--out-dir", str(tmp_path / "s")],
+                 ["export", str(path), "--vtk", str(tmp_path / "x.vtp")],
+                 ["plot", str(path), "--out-dir", str(tmp_path / "p")],
+                 ["render", str(path), "--png", str(tmp_path / "x.png")]):
+        assert main(argv) == 2, argv
+        err = one_error_line(capsys)
+        assert f"metadata: {where}" in err and "segments.parquet" in err
+    assert not any((tmp_path / n).exists() for n in ("a", "s", "p", "x.vtp", "x.png"))
+
+
+def test_valid_metadata_keeps_unknown_keys(system, tmp_path):
+    extra = json.dumps({"stand": {"n_plants": 2, "ground_area_cm2": 300.0, "note": "kept"}, "lab": {"bench": 3}})
+    back = RootSystem.read(_with_metadata(system, tmp_path, extra.encode()))
+    assert back.metadata["lab"] == {"bench": 3} and back.metadata["stand"]["note"] == "kept"
+
+
+def test_astronomical_coordinates_are_refused_not_written_as_inf(system, tmp_path, capsys):
+    frame = system.to_dataframe()
+    frame.loc[3, "x1"] = 1e300
+    out = tmp_path / "far" / "segments.parquet"
+    out.parent.mkdir()
+    frame.to_parquet(out)  # written by hand, as a user might
+    for argv in (["analyze", str(out)], ["sample", str(out), "--core", "0,0,5,20"],
+                 ["export", str(out), "--rld-grid", str(tmp_path / "g.vti"), "--voxel-cm", "2"]):
+        assert main(argv) == 2
+        assert "x1 has 1e+300 at row 3" in one_error_line(capsys)
+    assert sorted(p.name for p in out.parent.iterdir()) == ["segments.parquet"]
+    with pytest.raises(SegmentTableError):
+        RootSystem(frame)
+
+
+def test_export_and_plot_write_all_files_or_none(system, tmp_path, capsys):
+    path = system.write(tmp_path / "run" / "segments.parquet")
+    # the VTK file would be fine; the voxel grid is absurd: neither may appear
+    assert main(["export", str(path), "--vtk", str(tmp_path / "x.vtp"), "--rld-grid", str(tmp_path / "g.vti"),
+                 "--voxel-cm", "1e-6"]) == 2
+    one_error_line(capsys)
+    assert not (tmp_path / "x.vtp").exists() and not (tmp_path / "g.vti").exists()
+    figures = tmp_path / "figures"
+    (figures / "projection.png").mkdir(parents=True)  # the second figure cannot be written
+    assert main(["plot", str(path), "--out-dir", str(figures)]) == 2
+    assert "projection.png" in one_error_line(capsys)
+    assert sorted(p.name for p in figures.iterdir()) == ["projection.png"]
+    assert main(["plot", str(path), "--out-dir", str(tmp_path / "ok")]) == 0
+    assert sorted(p.name for p in (tmp_path / "ok").iterdir()) == ["projection.png", "rld_profile.png"]
