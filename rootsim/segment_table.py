@@ -106,6 +106,9 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
                 raise SegmentTableError(f"{source}: column {name} has NaN or infinite values")
             if np.any(arr != np.round(arr)):
                 raise SegmentTableError(f"{source}: column {name} must be integers")
+            if np.any(np.abs(arr) > 2.0**53):
+                raise SegmentTableError(f"{source}: column {name} has values beyond ±2^53 (allowed: ids and orders "
+                                        "that fit a 64-bit integer exactly)")
             out[name] = arr.astype(np.int64)
         else:
             try:
