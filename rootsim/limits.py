@@ -11,7 +11,7 @@ from .errors import RootsimError
 
 __all__ = ["MAX_CELLS", "MAX_STEPS", "MAX_PLANTS", "MAX_EMERGING_ROOTS_PER_PLANT", "MAX_SEGMENT_BUDGET",
            "MAX_EXTENT_CM", "MAX_COORDINATE_CM", "MAX_TOML_BYTES", "MAX_TOML_NESTING", "MAX_TOML_KEY_PARTS",
-           "MAX_TOML_NUMBER_DIGITS", "check_cell_count", "check_growable"]
+           "MAX_TOML_NUMBER_DIGITS", "check_cell_count", "check_growable", "check_magnitude", "require_finite"]
 
 #: Most layers, cells, increments, windows or voxels one request may create.
 MAX_CELLS = 10_000_000
@@ -120,3 +120,52 @@ def check_growable(spec) -> None:
         raise SpecError(source, "emergence", f"{per_plant:,} roots per plant x {n_plants:,} plants emerge during the run, "
                         f"each at least one segment, more than the segment budget of {run.max_segments:,}",
                         "fewer roots or plants, or a larger run.max_segments")
+
+
+def check_magnitude(value: float, *, what: str) -> float:
+    """Return ``value``, or raise a one-line :class:`RootsimError` if it lies beyond ±:data:`MAX_COORDINATE_CM`.
+
+    Used for every length, position or area given as an option, so no geometry overflows to ``inf``.
+
+    Parameters
+    ----------
+    value : float
+    what : str
+        The option and item, e.g. ``"--core '1e300,0,5,30': X"``.
+    """
+    if not math.isfinite(value) or abs(value) > MAX_COORDINATE_CM:
+        raise RootsimError(f"{what}: {value:.3g} is out of range (allowed: finite values within ±{MAX_COORDINATE_CM:g})")
+    return value
+
+
+def require_finite(result, *, what: str) -> None:
+    """Refuse to write a result holding NaN or infinite numbers (a DataFrame, or nested dicts and lists).
+
+    The last guard before output: a result computed from extreme but valid inputs is an error, never a file
+    with ``inf`` and exit code 0.
+
+    Raises
+    ------
+    RootsimError
+        Naming the output and the column or key.
+    """
+    import numpy as np
+
+    if hasattr(result, "select_dtypes"):
+        numbers = result.select_dtypes(include="number")
+        for column in numbers.columns:
+            values = numbers[column].to_numpy(dtype=float, na_value=np.nan)
+            if not np.isfinite(values).all():
+                raise RootsimError(f"{what}: column {column} would hold non-finite values (an option or the ground "
+                                   "area is too extreme; allowed: results that are finite numbers)")
+        return
+    stack = [("", result)]
+    while stack:
+        key, item = stack.pop()
+        if isinstance(item, dict):
+            stack.extend((f"{key}.{k}" if key else str(k), v) for k, v in item.items())
+        elif isinstance(item, (list, tuple)):
+            stack.extend((f"{key}[{i}]", v) for i, v in enumerate(item))
+        elif isinstance(item, float) and not math.isfinite(item):
+            raise RootsimError(f"{what}: {key} would be {item} (an option or the ground area is too extreme; "
+                               "allowed: results that are finite numbers)")

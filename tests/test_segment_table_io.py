@@ -143,3 +143,30 @@ def test_export_and_plot_write_all_files_or_none(system, tmp_path, capsys):
     assert sorted(p.name for p in figures.iterdir()) == ["projection.png"]
     assert main(["plot", str(path), "--out-dir", str(tmp_path / "ok")]) == 0
     assert sorted(p.name for p in (tmp_path / "ok").iterdir()) == ["projection.png", "rld_profile.png"]
+
+
+@pytest.mark.parametrize("argv", [
+    ["sample", "{path}", "--core", "1e300,0,5,30"],
+    ["sample", "{path}", "--tube", "0,0,45,120,1e300,0.2"],
+    ["sample", "{path}", "--wall", "1e300,-30,30,60,5"],
+    ["sample", "{path}", "--projection-grid-cm", "1e300"],
+    ["sample", "{path}", "--core", "0,0,5,30", "--projection-grid-cm", "1", "--projection-band-cm", "1e300"],
+    ["analyze", "{path}", "--box", "-1e300,1e300,-1e300,1e300"],
+    ["analyze", "{path}", "--max-depth-cm", "1e300"],
+])
+def test_options_of_1e300_are_one_line_errors_and_write_nothing(system, tmp_path, capsys, argv):
+    path = system.write(tmp_path / "run" / "segments.parquet")
+    assert main([a.format(path=path) for a in argv]) == 2
+    assert "1e+300 is out of range" in one_error_line(capsys)
+    assert sorted(p.name for p in path.parent.iterdir()) == ["segments.parquet"]
+
+
+def test_require_finite_names_the_column_and_key():
+    from rootsim.errors import RootsimError
+    from rootsim.limits import require_finite
+
+    with pytest.raises(RootsimError, match="cores.csv: column rld_cm_per_cm3"):
+        require_finite(pd.DataFrame({"depth_top_cm": [0.0], "rld_cm_per_cm3": [np.inf]}), what="cores.csv")
+    with pytest.raises(RootsimError, match=r"traits.json: profile.layers\[1\] would be nan"):
+        require_finite({"profile": {"layers": [1.0, float("nan")]}}, what="traits.json")
+    require_finite({"name": "ok", "values": [1.0, 2]}, what="traits.json")
