@@ -86,7 +86,7 @@ def test_emerging_roots_must_fit_the_segment_budget(tmp_path, capsys):
     (".".join(["a"] * 100_000) + " = 1\n", "100,000 dotted parts"),
     ("[" + ".".join(["t"] * 5_000) + "]\n", "5,000 dotted parts"),
     ("name = 'x'\n" + "# padding\n" * 200_000, "bytes"),
-])
+], ids=["arrays-1000-deep", "tables-1000-deep", "100000-digits", "100000-part-key", "5000-part-header", "2-MB"])
 def test_hostile_toml_is_bounded_before_parsing(tmp_path, capsys, text, named):
     assert main(["check", str(write(tmp_path, text))]) == 2
     err = one_error_line(capsys)
