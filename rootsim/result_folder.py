@@ -11,8 +11,9 @@ equal results have equal ids) and the SHA-256 and size of every file of the run.
 files disagree with it. Files that later commands write into the folder (profiles, traits, samples, exports,
 pictures) are recorded under ``derived`` with the run they came from.
 
-Temporary files and folders carry the writing process's id; :func:`remove_stale_temporaries` deletes those of
-processes that no longer run (and id-less ones older than a day).
+Temporary files and folders carry the writing machine's tag and process id; :func:`remove_stale_temporaries`
+deletes those of processes of this machine that no longer run (and, for other machines sharing the folder or
+id-less names of older versions, those older than a day).
 """
 
 from __future__ import annotations
@@ -57,7 +58,8 @@ OUTPUT_SUFFIXES = (".parquet", ".json", ".csv", ".png", ".svg", ".pdf", ".vtp", 
 #: Age after which a temporary file without a process id counts as stale, seconds.
 ID_LESS_STALE_SECONDS = 24 * 3600
 
-_TEMP_PATTERN = re.compile(r"^\..+\.rootsim-(?P<pid>\d+)-[0-9a-f]+\.(?:staging|old|part(?:\..*)?)$")
+_TEMP_PATTERN = re.compile(r"^\..+\.rootsim-(?:(?P<host>[0-9a-f]{8})-)?(?P<pid>\d+)-[0-9a-f]+\."
+                           r"(?:staging|old|part(?:\..*)?)$")
 _LEGACY_PART = re.compile(r"^\..+\.[a-z0-9_]{8}\.part(?:\..*)?$")
 _CHUNK = 1 << 22
 
@@ -91,9 +93,18 @@ class Manifest(BaseModel):
     derived: dict[str, DerivedEntry] = Field(default_factory=dict)
 
 
+def _host_tag() -> str:
+    import socket
+
+    return hashlib.sha256(socket.gethostname().encode("utf-8", "replace")).hexdigest()[:8]
+
+
+_HOST = _host_tag()
+
+
 def temporary_name(target_name: str, kind: str) -> str:
-    """Hidden temporary name for ``target_name`` carrying this process's id: ``.NAME.rootsim-PID-TOKEN.KIND``."""
-    return f".{target_name}.rootsim-{os.getpid()}-{secrets.token_hex(4)}.{kind}"
+    """Hidden temporary name for ``target_name``: ``.NAME.rootsim-HOST-PID-TOKEN.KIND`` (machine tag, process id)."""
+    return f".{target_name}.rootsim-{_HOST}-{os.getpid()}-{secrets.token_hex(4)}.{kind}"
 
 
 def file_sha256(path: str | os.PathLike) -> str:
@@ -126,8 +137,9 @@ def _process_alive(pid: int) -> bool:
 def remove_stale_temporaries(folder: str | os.PathLike, *, prefix: str = ".") -> list[Path]:
     """Delete temporary files and folders left in ``folder`` by processes that no longer run.
 
-    Names ``.NAME.rootsim-PID-TOKEN.{staging,old,part...}`` are removed when process PID is gone; id-less
-    ``.NAME.XXXXXXXX.part...`` files (written by older versions) when older than :data:`ID_LESS_STALE_SECONDS`.
+    Names ``.NAME.rootsim-HOST-PID-TOKEN.{staging,old,part...}`` of this machine are removed when process PID
+    is gone; those of other machines, and id-less ``.NAME.XXXXXXXX.part...`` files of older versions, when older
+    than :data:`ID_LESS_STALE_SECONDS`.
 
     Parameters
     ----------
@@ -151,9 +163,9 @@ def remove_stale_temporaries(folder: str | os.PathLike, *, prefix: str = ".") ->
         if not entry.name.startswith(prefix):
             continue
         match = _TEMP_PATTERN.match(entry.name)
-        if match:
+        if match and match["host"] in (None, _HOST):
             stale = not _process_alive(int(match["pid"]))
-        elif _LEGACY_PART.match(entry.name):
+        elif match or _LEGACY_PART.match(entry.name):  # another machine's, or an older version's: by age
             try:
                 stale = now - entry.stat(follow_symlinks=False).st_mtime > ID_LESS_STALE_SECONDS
             except OSError:
@@ -349,6 +361,8 @@ def write_result_folder(folder: str | os.PathLike, write_files: Callable[[Path],
     from . import __version__
 
     folder = check_new_result_folder(folder, overwrite=overwrite)
+    if folder.is_symlink():  # replace the folder the link points to, keep the link
+        folder = folder.resolve()
     parent = folder.absolute().parent
     try:
         parent.mkdir(parents=True, exist_ok=True)

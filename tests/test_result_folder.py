@@ -209,12 +209,14 @@ def test_stale_temporaries_of_dead_processes_are_removed_on_the_next_run(tmp_pat
     (stale_stage / "segments.parquet").write_bytes(b"half")
     live = tmp_path / f".run.rootsim-{os.getpid()}-0000beef.staging"  # a process still running: kept
     live.mkdir()
+    other_host = tmp_path / f".run.rootsim-0123abcd-{dead}-0000cafe.staging"  # another machine's: kept for a day
+    other_host.mkdir()
     old_style = out / ".profile.csv.ab12cd34.part.csv"  # id-less, from an older version, two days old
     old_style.write_text("x")
     os.utime(old_style, (0, 0))
     assert grow_cli(out, "--overwrite", "--seed", "9") == 0
     assert not stale_part.exists() and not stale_stage.exists() and not old_style.exists()
-    assert live.exists()
+    assert live.exists() and (other_host.exists() or result_folder._HOST == "0123abcd")
     assert hidden_entries(out) == []
 
 
@@ -256,3 +258,25 @@ def test_check_new_result_folder_refuses_a_file_and_an_unwritable_parent(tmp_pat
         result_folder.check_new_result_folder(target, overwrite=True)
     with pytest.raises(RootsimError, match="not a writable folder"):
         result_folder.check_new_result_folder(target / "below", overwrite=False)
+
+
+def test_damaged_or_incomplete_manifest_is_one_line(tmp_path, capsys):
+    out = tmp_path / "run"
+    assert grow_cli(out) == 0
+    manifest = json.loads((out / "manifest.json").read_text())
+    (out / "manifest.json").write_text(json.dumps({**manifest, "run_id": ["not", "an", "id"]}))
+    assert main(["analyze", str(out)]) == 2
+    assert "manifest.json: run_id" in one_error_line(capsys)
+    (out / "manifest.json").write_text(json.dumps(manifest))
+    (out / "summary.json").unlink()
+    assert main(["analyze", str(out)]) == 2
+    assert "summary.json: listed in manifest.json" in one_error_line(capsys)
+
+
+def test_overwrite_through_a_symbolic_link_keeps_the_link(tmp_path):
+    real = tmp_path / "real"
+    assert grow_cli(real, "--seed", "1") == 0
+    link = tmp_path / "link"
+    link.symlink_to(real, target_is_directory=True)
+    assert grow_cli(link, "--seed", "2", "--overwrite") == 0
+    assert link.is_symlink() and json.loads((real / "manifest.json").read_text())["facts"]["seed"] == 2
