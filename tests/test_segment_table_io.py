@@ -170,3 +170,16 @@ def test_require_finite_names_the_column_and_key():
     with pytest.raises(RootsimError, match=r"traits.json: profile.layers\[1\] would be nan"):
         require_finite({"profile": {"layers": [1.0, float("nan")]}}, what="traits.json")
     require_finite({"name": "ok", "values": [1.0, 2]}, what="traits.json")
+
+
+def test_plot_file_names_from_spec_names_stay_in_the_output_folder(system, tmp_path):
+    # two variants in folders of the same name are labelled by their spec names, which are user text
+    for folder, name in (("a", "../../escaped"), ("b", "/etc/x y")):
+        meta = dict(system.metadata, spec_name=name)
+        RootSystem({c: system[c] for c in system.columns}, meta).write(tmp_path / folder / "run" / "segments.parquet")
+    figures = tmp_path / "figures"
+    assert main(["plot", str(tmp_path / "a" / "run"), "--compare", str(tmp_path / "b" / "run"),
+                 "--out-dir", str(figures)]) == 0
+    assert sorted(p.name for p in figures.iterdir()) == ["projection_escaped.png", "projection_etc_x_y.png",
+                                                         "rld_profile.png"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a", "b", "figures"]
