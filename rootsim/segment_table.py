@@ -57,6 +57,8 @@ INT_COLUMNS = ("segment_id", "parent_id", "plant_id", "root_id", "order")
 FLOAT_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1", "radius_cm", "length_cm", "birth_day")
 COLUMNS = INT_COLUMNS[:5] + ("root_class",) + FLOAT_COLUMNS
 METADATA_KEY = b"rootsim"
+#: Most columns a segment table may have (the layout has 15; analyses may add a few).
+MAX_COLUMNS = 256
 
 
 def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table") -> dict[str, np.ndarray]:
@@ -243,6 +245,16 @@ def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]
     if not path.exists():
         raise SegmentTableError(f"{path}: no such file (expected a segments.parquet written by 'rootsim grow' or 'rootsim import-rsml')")
     manifest = _check_folder(path)
+    from .limits import MAX_SEGMENT_BUDGET
+
+    try:
+        shape = pq.read_metadata(path)
+    except (OSError, pa.ArrowException) as exc:
+        raise SegmentTableError(f"{path}: not a readable Parquet file, or damaged "
+                                f"({' '.join(str(exc).split())[:200]})") from None
+    if shape.num_rows > MAX_SEGMENT_BUDGET or shape.num_columns > MAX_COLUMNS:
+        raise SegmentTableError(f"{path}: {shape.num_rows:,} rows and {shape.num_columns:,} columns (allowed: at most "
+                                f"{MAX_SEGMENT_BUDGET:,} segments and {MAX_COLUMNS} columns)")
     try:
         table = pq.read_table(path, page_checksum_verification=True)
     except (OSError, pa.ArrowException) as exc:

@@ -183,3 +183,13 @@ def test_plot_file_names_from_spec_names_stay_in_the_output_folder(system, tmp_p
     assert sorted(p.name for p in figures.iterdir()) == ["projection_escaped.png", "projection_etc_x_y.png",
                                                          "rld_profile.png"]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a", "b", "figures"]
+
+
+def test_tables_wider_than_the_limit_are_refused_before_reading(tmp_path, capsys):
+    from rootsim.segment_table import MAX_COLUMNS
+
+    path = tmp_path / "wide" / "segments.parquet"
+    path.parent.mkdir()
+    pq.write_table(pa.table({f"c{i}": [0.0] for i in range(MAX_COLUMNS + 1)}), path)
+    assert main(["analyze", str(path)]) == 2
+    assert f"{MAX_COLUMNS + 1:,} columns" in one_error_line(capsys)
