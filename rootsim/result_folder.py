@@ -273,9 +273,9 @@ def check_new_result_folder(folder: str | os.PathLike, *, overwrite: bool) -> Pa
         names = sorted(entry.name for entry in os.scandir(folder))
         if names:
             if not overwrite:
-                raise RootsimError(f"{folder}: already holds results ({', '.join(names[:4])}"
-                                   f"{', ...' if len(names) > 4 else ''}); pass --overwrite to replace the earlier "
-                                   "run and every file derived from it, or choose a new --out folder")
+                raise RootsimError(f"{folder}: is not empty ({', '.join(names[:4])}"
+                                   f"{', ...' if len(names) > 4 else ''}); pass --overwrite to replace an earlier "
+                                   "run there and every file derived from it, or choose a new --out folder")
             try:
                 manifest = read_manifest(folder)
             except SegmentTableError:
