@@ -91,13 +91,16 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
     n = None
     for name in COLUMNS:
         values = columns[name]
-        values = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
+        if name == "root_class":  # kept dictionary-encoded: never expanded to one Python string per row
+            values = as_categorical(values, source=source)
+        else:
+            values = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
         if n is None:
             n = len(values)
         elif len(values) != n:
             raise SegmentTableError(f"{source}: column {name} has {len(values)} rows, expected {n}")
         if name == "root_class":
-            out[name] = as_categorical(values, source=source)
+            out[name] = values
             continue
         if name in INT_COLUMNS:
             try:
