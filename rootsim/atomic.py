@@ -5,13 +5,12 @@ from __future__ import annotations
 import contextlib
 import os
 import shutil
-import tempfile
 from pathlib import Path
 from typing import Iterator
 
 from .errors import RootsimError
 
-__all__ = ["atomic_path", "atomic_write_text", "ensure_output_dir"]
+__all__ = ["atomic_path", "atomic_paths", "atomic_write_text", "ensure_output_dir"]
 
 
 def ensure_output_dir(path: str | os.PathLike) -> Path:
@@ -30,23 +29,28 @@ def ensure_output_dir(path: str | os.PathLike) -> Path:
 def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path next to ``target``; on success rename it over ``target``.
 
-    If the body raises, the temporary file is removed and ``target`` is left untouched.
+    If the body raises, the temporary file is removed and ``target`` is left untouched. The temporary name
+    (``.NAME.rootsim-PID-TOKEN.part.SUFFIX``) carries this process's id, so temporaries of the same target
+    left by a killed process are removed here (see :func:`rootsim.result_folder.remove_stale_temporaries`).
     """
+    from .result_folder import remove_stale_temporaries, temporary_name
+
     target = Path(target)
     parent = target.parent if str(target.parent) else Path(".")
     try:
         parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part" + target.suffix, dir=parent)
+        remove_stale_temporaries(parent, prefix=f".{target.name}.")
+        tmp_path = parent / temporary_name(target.name, "part" + target.suffix)
+        fd = os.open(tmp_path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)  # usual permissions (umask applies)
     except OSError as exc:
         raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     os.close(fd)
-    tmp_path = Path(tmp)
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp_path, 0o666 & ~umask)  # mkstemp creates 0600; finished files get the usual permissions
     try:
         yield tmp_path
-        os.replace(tmp_path, target)
+        try:
+            os.replace(tmp_path, target)
+        except OSError as exc:
+            raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     except BaseException:
         with contextlib.suppress(OSError):
             if tmp_path.is_dir():
@@ -60,3 +64,52 @@ def atomic_write_text(target: str | os.PathLike, text: str) -> None:
     """Write ``text`` to ``target`` atomically (UTF-8)."""
     with atomic_path(target) as tmp:
         tmp.write_text(text, encoding="utf-8")
+
+
+@contextlib.contextmanager
+def atomic_paths(targets) -> Iterator[list[Path]]:
+    """All-or-nothing output of several files: yield one temporary path per target, rename them all at the end.
+
+    If the body raises, every temporary file is removed and no target is touched. Before the first rename
+    every target is checked (not a folder, its folder writable), so a set of outputs (the files of one
+    ``export`` or ``plot`` command) appears as a whole or not at all.
+
+    Parameters
+    ----------
+    targets : iterable of path-like
+        Final file names (distinct).
+
+    Raises
+    ------
+    RootsimError
+        A target cannot be written; no target was changed.
+    """
+    from .result_folder import temporary_name
+
+    targets = [Path(t) for t in targets]
+    temps: list[Path] = []
+    try:
+        for target in targets:
+            parent = target.parent if str(target.parent) else Path(".")
+            try:
+                parent.mkdir(parents=True, exist_ok=True)
+                tmp = parent / temporary_name(target.name, "part" + target.suffix)
+                os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))
+            except OSError as exc:
+                raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
+            temps.append(tmp)
+        yield temps
+        for target in targets:
+            if target.is_dir():
+                raise RootsimError(f"{target}: is a folder, expected a file name; nothing was written")
+        for tmp, target in zip(temps, targets):
+            os.replace(tmp, target)
+    except OSError as exc:
+        raise RootsimError(f"cannot write the output files ({exc.strerror or exc})") from None
+    finally:
+        for tmp in temps:
+            with contextlib.suppress(OSError):
+                if tmp.is_dir():
+                    shutil.rmtree(tmp)
+                elif tmp.exists():
+                    tmp.unlink()

@@ -24,8 +24,8 @@ def safe_path_component(name: object, *, what: str = "name") -> str:
     """Return ``name`` as a single safe path component, or raise a one-line :class:`RootsimError`.
 
     Letters, digits, ``. _ + -`` are kept; every other run of characters (spaces, slashes, backslashes,
-    colons, non-ASCII letters after NFKD folding) becomes one ``_``. Leading dots are dropped so the result is
-    never ``.``, ``..`` or a hidden file.
+    colons, non-ASCII letters after NFKD folding) becomes one ``_``. Leading dots and underscores are dropped
+    (``../../x`` becomes ``x``) so the result is never ``.``, ``..`` or a hidden file.
 
     Parameters
     ----------
@@ -46,7 +46,7 @@ def safe_path_component(name: object, *, what: str = "name") -> str:
     if len(text.encode("utf-8", "surrogatepass")) > MAX_NAME_BYTES:
         raise RootsimError(f"{what}: is {len(text)} characters long (allowed: at most {MAX_NAME_BYTES} bytes)")
     folded = unicodedata.normalize("NFKD", text).encode("ascii", "ignore").decode("ascii")
-    cleaned = _ALLOWED.sub("_", folded).lstrip(".").strip("_") or ""
+    cleaned = re.sub(r"^[._]+", "", _ALLOWED.sub("_", folded)).rstrip("_")  # never hidden, never . or ..
     if not cleaned:
         raise RootsimError(f"{what}: {text!r} gives no usable file name (allowed: letters, digits, . _ + -)")
     return cleaned

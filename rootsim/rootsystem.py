@@ -17,7 +17,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .segment_table import COLUMNS, read_segments, validate_columns, write_segments
+from .segment_table import COLUMNS, as_categorical, read_segments, validate_columns, write_segments
 
 __all__ = ["RootSystem", "tip_mask", "continuation_mask"]
 
@@ -46,6 +46,21 @@ def tip_mask(parent_id: np.ndarray, root_id: np.ndarray) -> np.ndarray:
     return ~continued
 
 
+def count_distinct(ids: np.ndarray) -> int:
+    """Number of distinct integers in ``ids`` without sorting them.
+
+    Ids in 0 .. 4n (as the engine and the RSML reader write them) are counted with one ``bincount`` pass,
+    O(n); other ids fall back to ``numpy.unique``.
+    """
+    ids = np.asarray(ids)
+    if ids.size == 0:
+        return 0
+    low, high = int(ids.min()), int(ids.max())
+    if low >= 0 and high <= 4 * ids.size + 1024:
+        return int(np.count_nonzero(np.bincount(ids, minlength=0)))
+    return int(np.unique(ids).size)
+
+
 class RootSystem:
     """A grown or imported root system as columnar arrays.
 
@@ -61,7 +76,10 @@ class RootSystem:
     """
 
     def __init__(self, columns: Mapping[str, Any], metadata: Mapping | None = None, *, validate: bool = True):
-        self._columns = validate_columns(columns) if validate else {k: np.asarray(v) for k, v in columns.items()}
+        if validate:
+            self._columns = validate_columns(columns)
+        else:  # root_class is always dictionary-encoded (a pandas Categorical): one small code per segment
+            self._columns = {k: as_categorical(v) if k == "root_class" else np.asarray(v) for k, v in columns.items()}
         self.metadata: dict = dict(metadata or {})
 
     # -- stored data -------------------------------------------------------------------------
@@ -116,10 +134,7 @@ class RootSystem:
         """The segment table as a :class:`pandas.DataFrame` (``root_class`` categorical)."""
         import pandas as pd
 
-        data = {}
-        for name, values in self._columns.items():
-            data[name] = pd.Categorical(values) if name == "root_class" else values
-        df = pd.DataFrame(data)
+        df = pd.DataFrame(dict(self._columns))
         df.attrs["rootsim"] = self.metadata
         return df
 
@@ -168,7 +183,7 @@ class RootSystem:
         return {
             "n_plants": self.n_plants,
             "n_segments": self.n_segments,
-            "n_roots": int(np.unique(self["root_id"]).size),
+            "n_roots": count_distinct(self["root_id"]),
             "n_tips": self.n_tips,
             "total_length_cm": float(length.sum()),
             "max_depth_cm": float(depth.max()) if len(self) else 0.0,

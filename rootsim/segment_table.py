@@ -12,7 +12,8 @@ parent_id  int64   segment this one continues or branches from; -1 for the first
 plant_id   int64   plant the segment belongs to (0 .. n_plants-1)
 root_id    int64   root (axis) the segment belongs to
 order      int64   0 for roots from the seed or shoot, 1 for their laterals, ...
-root_class string  name of the root class in the parameter file
+root_class category name of the root class in the parameter file (dictionary-encoded:
+                   a pandas Categorical in memory, an Arrow dictionary in Parquet)
 x0 y0 z0   float64 start point, cm; z up, soil surface at z = 0, soil below (z < 0)
 x1 y1 z1   float64 end point, cm
 radius_cm  float64 segment radius, cm
@@ -21,7 +22,11 @@ birth_day  float64 day (since sowing) the segment formed
 ========== ======= ===================================================================
 
 Table-level facts (stand layout, ground area, container, run settings) travel as JSON in
-the Parquet key-value metadata under the key ``rootsim``.
+the Parquet key-value metadata under the key ``rootsim`` (schema: :mod:`rootsim.table_metadata`).
+
+Parquet files are written with page checksums (CRC-32 of every page, part of the Parquet format) and read
+with their verification on, so a damaged file is reported instead of measured. A file inside a result folder
+is also checked against the folder's ``manifest.json`` (:mod:`rootsim.result_folder`).
 """
 
 from __future__ import annotations
@@ -35,6 +40,7 @@ import numpy as np
 
 from .atomic import atomic_path
 from .errors import SegmentTableError
+from .limits import MAX_COORDINATE_CM
 
 __all__ = [
     "COLUMNS",
@@ -42,6 +48,7 @@ __all__ = [
     "INT_COLUMNS",
     "METADATA_KEY",
     "validate_columns",
+    "as_categorical",
     "read_segments",
     "write_segments",
 ]
@@ -50,6 +57,8 @@ INT_COLUMNS = ("segment_id", "parent_id", "plant_id", "root_id", "order")
 FLOAT_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1", "radius_cm", "length_cm", "birth_day")
 COLUMNS = INT_COLUMNS[:5] + ("root_class",) + FLOAT_COLUMNS
 METADATA_KEY = b"rootsim"
+#: Most columns a segment table may have (the layout has 15; analyses may add a few).
+MAX_COLUMNS = 256
 
 
 def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table") -> dict[str, np.ndarray]:
@@ -82,18 +91,16 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
     n = None
     for name in COLUMNS:
         values = columns[name]
-        values = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
+        if name == "root_class":  # kept dictionary-encoded: never expanded to one Python string per row
+            values = as_categorical(values, source=source)
+        else:
+            values = values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
         if n is None:
             n = len(values)
         elif len(values) != n:
             raise SegmentTableError(f"{source}: column {name} has {len(values)} rows, expected {n}")
         if name == "root_class":
-            import pandas as pd
-
-            arr = np.asarray(values, dtype=object)
-            if len(arr) and pd.isna(arr).any():
-                raise SegmentTableError(f"{source}: column root_class has missing values")
-            out[name] = arr
+            out[name] = values
             continue
         if name in INT_COLUMNS:
             try:
@@ -104,6 +111,9 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
                 raise SegmentTableError(f"{source}: column {name} has NaN or infinite values")
             if np.any(arr != np.round(arr)):
                 raise SegmentTableError(f"{source}: column {name} must be integers")
+            if np.any(np.abs(arr) > 2.0**53):
+                raise SegmentTableError(f"{source}: column {name} has values beyond ±2^53 (allowed: ids and orders "
+                                        "that fit a 64-bit integer exactly)")
             out[name] = arr.astype(np.int64)
         else:
             try:
@@ -114,6 +124,11 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
             if bad.any():
                 row = int(np.flatnonzero(bad)[0])
                 raise SegmentTableError(f"{source}: column {name} has NaN or infinite values (first at row {row})")
+            too_big = np.abs(arr) > MAX_COORDINATE_CM
+            if too_big.any():
+                row = int(np.flatnonzero(too_big)[0])
+                raise SegmentTableError(f"{source}: column {name} has {arr[row]:.3g} at row {row} "
+                                        f"(allowed: values within ±{MAX_COORDINATE_CM:g} cm or days)")
             out[name] = arr
     n = int(n or 0)
     if np.any(out["radius_cm"] < 0):
@@ -138,6 +153,44 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
     return out
 
 
+def as_categorical(values, *, source: str = "segment table"):
+    """``root_class`` values as a :class:`pandas.Categorical` of str (kept if already one; no missing values).
+
+    Raises
+    ------
+    SegmentTableError
+        If a value is missing.
+    """
+    import pandas as pd
+
+    if isinstance(values, pd.Series):
+        values = values.array
+    if isinstance(values, pd.Categorical):
+        cat = values
+        if len(cat.categories) and not all(isinstance(c, str) for c in cat.categories):
+            cat = cat.rename_categories([str(c) for c in cat.categories])
+    else:
+        arr = np.asarray(values, dtype=object)
+        if len(arr) and pd.isna(arr).any():
+            raise SegmentTableError(f"{source}: column root_class has missing values")
+        codes, uniques = pd.factorize(arr, sort=True)
+        cat = pd.Categorical.from_codes(codes, categories=pd.Index([str(u) for u in uniques], dtype=object)) \
+            if len(uniques) == len({str(u) for u in uniques}) else pd.Categorical(arr.astype(str))
+    if (cat.codes < 0).any():
+        raise SegmentTableError(f"{source}: column root_class has missing values")
+    return cat
+
+
+def _arrow_root_class(values):
+    import pandas as pd
+    import pyarrow as pa
+
+    cat = as_categorical(values)
+    return pa.DictionaryArray.from_arrays(pa.array(np.asarray(cat.codes, dtype=np.int32)),
+                                          pa.array(np.asarray(cat.categories, dtype=object).astype(str),
+                                                   type=pa.string()))
+
+
 def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *, metadata: Mapping | None = None) -> Path:
     """Write a segment table to Parquet atomically.
 
@@ -156,18 +209,19 @@ def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *
     names = list(COLUMNS) + [c for c in columns if c not in COLUMNS]
     arrays = []
     for name in names:
-        values = np.asarray(columns[name])
         if name == "root_class":
-            arrays.append(pa.array(values.astype(str), type=pa.string()).dictionary_encode())
+            arrays.append(_arrow_root_class(columns[name]))
         else:
-            arrays.append(pa.array(values))
+            arrays.append(pa.array(np.asarray(columns[name])))
     table = pa.Table.from_arrays(arrays, names=names)
     meta = dict(table.schema.metadata or {})
-    meta[METADATA_KEY] = json.dumps(dict(metadata or {}), sort_keys=True).encode()
+    facts = {k: v for k, v in dict(metadata or {}).items() if k != "run_id"}  # a run id names a result folder
+    meta[METADATA_KEY] = json.dumps(facts, sort_keys=True).encode()
     table = table.replace_schema_metadata(meta)
     path = Path(path)
     with atomic_path(path) as tmp:
-        pq.write_table(table, tmp, compression="lz4")  # fast to read back; zstd is 6x slower here
+        # fast to read back (zstd is 6x slower here); page checksums so damage is detected on reading
+        pq.write_table(table, tmp, compression="lz4", write_page_checksum=True)
     return path
 
 
@@ -193,19 +247,68 @@ def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]
         path = path / "segments.parquet"
     if not path.exists():
         raise SegmentTableError(f"{path}: no such file (expected a segments.parquet written by 'rootsim grow' or 'rootsim import-rsml')")
+    manifest = _check_folder(path)
+    from .limits import MAX_SEGMENT_BUDGET
+
     try:
-        table = pq.read_table(path)
+        shape = pq.read_metadata(path)
     except (OSError, pa.ArrowException) as exc:
-        raise SegmentTableError(f"{path}: not a readable Parquet file ({' '.join(str(exc).split())[:200]})") from None
-    raw_meta = (table.schema.metadata or {}).get(METADATA_KEY)
+        raise SegmentTableError(f"{path}: not a readable Parquet file, or damaged "
+                                f"({' '.join(str(exc).split())[:200]})") from None
+    if shape.num_rows > MAX_SEGMENT_BUDGET or shape.num_columns > MAX_COLUMNS:
+        raise SegmentTableError(f"{path}: {shape.num_rows:,} rows and {shape.num_columns:,} columns (allowed: at most "
+                                f"{MAX_SEGMENT_BUDGET:,} segments and {MAX_COLUMNS} columns)")
     try:
-        metadata = json.loads(raw_meta) if raw_meta else {}
-    except ValueError:
-        metadata = {}
+        table = pq.read_table(path, page_checksum_verification=True)
+    except (OSError, pa.ArrowException) as exc:
+        raise SegmentTableError(f"{path}: not a readable Parquet file, or damaged "
+                                f"({' '.join(str(exc).split())[:200]})") from None
+    from .table_metadata import parse_table_metadata
+
+    metadata = parse_table_metadata((table.schema.metadata or {}).get(METADATA_KEY), source=str(path))
+    if manifest is not None:
+        metadata["run_id"] = manifest.run_id
     cols = {}
     for name in table.column_names:
         col = table.column(name)
+        if name == "root_class" and pa.types.is_dictionary(col.type):
+            cols[name] = col.to_pandas().array  # a pandas Categorical, no Python strings per row
+            continue
         if pa.types.is_dictionary(col.type):
             col = col.cast(col.type.value_type)
         cols[name] = col.to_numpy(zero_copy_only=False)
-    return validate_columns(cols, source=str(path)), metadata
+    columns = validate_columns(cols, source=str(path))
+    _check_summary(path, len(columns["segment_id"]), manifest)
+    return columns, metadata
+
+
+def _check_folder(path: Path):
+    """The manifest of the result folder holding ``path`` after checking it (None without one)."""
+    from .result_folder import MANIFEST_NAME, read_manifest, verify_result_folder
+
+    folder = path.parent
+    if not (folder / MANIFEST_NAME).exists():
+        return None
+    manifest = read_manifest(folder)
+    if manifest is None or path.name not in manifest.files:
+        return None
+    return verify_result_folder(folder)
+
+
+def _check_summary(path: Path, n_rows: int, manifest) -> None:
+    """Refuse a ``summary.json`` beside the table that describes another table (an earlier run)."""
+    summary_path = path.parent / "summary.json"
+    if path.name != "segments.parquet" or not summary_path.is_file():
+        return
+    if manifest is not None and "summary.json" in manifest.files:
+        return  # checked against the manifest with the table
+    try:
+        if summary_path.stat().st_size > 1 << 20:
+            return
+        summary = json.loads(summary_path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return
+    count = summary.get("n_segments") if isinstance(summary, dict) else None
+    if isinstance(count, int) and count != n_rows:
+        raise SegmentTableError(f"{path}: has {n_rows:,} segments but {summary_path.name} beside it describes "
+                                f"{count:,} (files of different runs; grow the run again)")

@@ -269,7 +269,9 @@ class Spec(_Model):
         except ValidationError as exc:
             raise _spec_error_from_validation(exc, self.source, prefix=("run",)) from None
         _check_run(run, self.source)
-        return self.model_copy(update={"run": run})
+        updated = self.model_copy(update={"run": run})
+        _check_growable(updated)
+        return updated
 
 
 class _RangeError(ValueError):
@@ -295,10 +297,9 @@ def load_spec(path: str | os.PathLike) -> Spec:
         raise SpecError(str(path), "", "no such file", "a path to a .toml parameter file") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise SpecError(str(path), "", f"cannot read the file ({exc})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise SpecError(str(path), "", f"not valid TOML: {exc}") from None
+    from .toml_input import parse_toml_text
+
+    data = parse_toml_text(text, source=str(path))  # size, nesting and key length bounded before parsing
     return parse_spec(data, source=str(path))
 
 
@@ -322,7 +323,14 @@ def parse_spec(data: Any, *, source: str = "<spec>") -> Spec:
         raise SpecError(source, "source", "unknown key", _closest("source", Spec))
     _check_references(spec)
     _check_run(spec.run, source)
+    _check_growable(spec)
     return spec
+
+
+def _check_growable(spec: Spec) -> None:
+    from .limits import check_growable
+
+    check_growable(spec)
 
 
 def _check_run(run: Run, source: str) -> None:

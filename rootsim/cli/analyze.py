@@ -64,7 +64,9 @@ def _number(text, option: str, unit: str) -> float | None:
         value = float("nan")
     if not (math.isfinite(value) and value > 0):
         raise RootsimError(f"{option} {text!r}: must be a number > 0 ({unit})")
-    return value
+    from ..limits import check_magnitude
+
+    return check_magnitude(value, what=f"{option} {text!r}") if unit == "cm" else value
 
 
 def _box(text: str | None):
@@ -79,6 +81,10 @@ def _box(text: str | None):
         raise RootsimError(f"--box {text!r}: give four numbers XMIN,XMAX,YMIN,YMAX in cm, e.g. --box -10,10,-5,5")
     if not (values[1] > values[0] and values[3] > values[2]):
         raise RootsimError(f"--box {text!r}: need XMIN < XMAX and YMIN < YMAX")
+    from ..limits import check_magnitude
+
+    for value in values:
+        check_magnitude(value, what=f"--box {text!r}")
     return tuple(values)
 
 
@@ -110,11 +116,19 @@ def run(args: argparse.Namespace) -> int:
         "root_length_outside_profile_cm": profile.attrs["root_length_outside_profile_cm"],
     }
     traits["source"] = str(args.dir)
+    traits["run_id"] = system.metadata.get("run_id")  # the run these numbers come from (None outside a result folder)
+    from ..limits import require_finite
+
+    require_finite(profile, what="profile.csv")
+    require_finite(traits, what="traits.json")
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else _out_dir(args.dir))
     csv_path, json_path = out / "profile.csv", out / "traits.json"
     with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json:
         profile.to_csv(tmp_csv, index=False, float_format="%.10g")
         tmp_json.write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+    from ..result_folder import record_derived
+
+    record_derived(args.dir, [csv_path, json_path], command="analyze")
     print(summary_text(str(args.dir), traits, profile))
     print(f"wrote {csv_path} and {json_path}")
     return 0

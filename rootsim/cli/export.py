@@ -117,12 +117,18 @@ def run(args: argparse.Namespace) -> int:
     system = RootSystem.read(args.dir)
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; writing empty files", file=sys.stderr)
-    with progress_bar(total=len(plan), desc="export", unit="file") as bar:
-        for option, path, key, options in plan:
+    from ..atomic import atomic_paths
+    from ..result_folder import record_derived
+
+    with progress_bar(total=len(plan), desc="export", unit="file") as bar, \
+            atomic_paths([path for _, path, _, _ in plan]) as temps:  # every file or none
+        for (option, path, key, options), tmp in zip(plan, temps):
             try:
-                export_file(system, path, format=key, **options)
+                export_file(system, tmp, format=key, **options)
             except OSError as exc:
                 raise RootsimError(f"{path}: cannot write ({exc.strerror or exc})") from None
             bar.update(1)
-            print(path)
+    for _, path, _, _ in plan:
+        print(path)
+    record_derived(args.dir, [path for _, path, _, _ in plan], command="export")
     return 0

@@ -51,6 +51,9 @@ def run(args) -> int:
         raise RootsimError(f"--area-cm2 must be > 0 (got {args.area_cm2:g})")
     spec = load_spec(args.spec).with_overrides(duration_days=args.days, time_step_days=args.step_days)
     parameters = [parse_fit_parameter(p) for p in args.param]
+    from ..result_folder import check_derived_file
+
+    check_derived_file(args.observed)  # a sample file of an earlier run, or damaged, is refused
     observed = read_observed_profile(args.observed)
     result = fit_profile(spec, observed, parameters, replicates=args.replicates, seed=args.seed,
                          max_evaluations=args.max_evaluations, area_cm2=args.area_cm2)

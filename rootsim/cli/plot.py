@@ -100,19 +100,29 @@ def run(args: argparse.Namespace) -> int:
         if len(system) == 0:
             print(f"warning: {path}: no segments; its figures show empty soil", file=sys.stderr)
 
-    written = []
+    figures = []  # every figure is drawn before any file is written: all or nothing
     profile_options = {"layer_cm": args.layer_cm, "area_cm2": args.area_cm2, "box": box}
     if len(systems) == 1:
         fig = plot_rld_profile(systems[0], title=f"Root length density – {labels[0]}", **profile_options)
     else:
         fig = plot_rld_profile(dict(zip(labels, systems)), title="Root length density by variant", **profile_options)
-    written.append(save_figure(fig, out_dir / f"rld_profile.{args.format}"))
+    figures.append((fig, out_dir / f"rld_profile.{args.format}"))
     for label, system in zip(labels, systems):
         name = "projection" if len(systems) == 1 else f"projection_{_file_safe(label)}"
         fig = plot_projection(system, width_scale=args.width_scale, title=f"{label}: x–z projection")
-        written.append(save_figure(fig, out_dir / f"{name}.{args.format}"))
+        figures.append((fig, out_dir / f"{name}.{args.format}"))
+    written = [path for _, path in figures]
+    if len(set(written)) != len(written):
+        raise RootsimError("two variants would write the same figure file; give directories with distinct names")
+    from ..atomic import atomic_paths
+    from ..result_folder import record_derived
+
+    with atomic_paths(written) as temps:
+        for (fig, _), tmp in zip(figures, temps):
+            save_figure(fig, tmp)
     for path in written:
         print(path)
+    record_derived(args.dir, written, command="plot")
     return 0
 
 
@@ -134,4 +144,6 @@ def _default_out_dir(path: str) -> Path:
 
 
 def _file_safe(label: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_." else "_" for c in label)
+    from ..path_names import safe_path_component
+
+    return safe_path_component(label, what=f"--compare: variant label {label[:40]!r}")

@@ -64,5 +64,8 @@ def run(args: argparse.Namespace) -> int:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
     path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
                       style=args.style, tube_scale=args.tube_scale)
+    from ..result_folder import record_derived
+
+    record_derived(args.dir, [path], command="render")
     print(path)
     return 0

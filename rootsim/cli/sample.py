@@ -79,6 +79,11 @@ def _requests(args):
     from ..sampling import parse_core, parse_core_grid, parse_tube, parse_wall
     from ..sampling.minirhizotron import DEFAULT_REFERENCE_CM, DEFAULT_WINDOW_CM
 
+    from ..limits import check_magnitude
+
+    for option in ("wall_slab_cm", "tube_window_cm", "tube_reference_cm", "projection_grid_cm", "projection_band_cm"):
+        if getattr(args, option) is not None:
+            check_magnitude(getattr(args, option), what="--" + option.replace("_", "-"))
     cores = [parse_core(text) for text in args.core]
     grid = parse_core_grid(args.core_grid) if args.core_grid is not None else None
     walls = [parse_wall(text) for text in args.wall]
@@ -104,7 +109,7 @@ def _requests(args):
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..atomic import atomic_path, ensure_output_dir
+    from ..atomic import atomic_paths, ensure_output_dir
     from ..rootsystem import RootSystem
     from ..sampling import core_grid, sample_cores, sample_projection, sample_tube, sample_wall
 
@@ -124,9 +129,16 @@ def run(args: argparse.Namespace) -> int:
                                                      band_cm=args.projection_band_cm)
     src = Path(args.dir)
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else (src.parent if src.suffix == ".parquet" else src))
+    from ..limits import require_finite
+
     for name, df in tables.items():
-        with atomic_path(out / name) as tmp:
+        require_finite(df, what=name)
+    with atomic_paths([out / name for name in tables]) as temps:  # all files or none
+        for tmp, df in zip(temps, tables.values()):
             df.to_csv(tmp, index=False, float_format="%.6g")
+    from ..result_folder import record_derived
+
+    record_derived(args.dir, [out / name for name in tables], command="sample")
     _print_summary(tables, out)
     return 0
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 from ..errors import SamplingError
+from ..limits import check_magnitude
 
 __all__ = ["parse_numbers"]
 
@@ -45,5 +46,6 @@ def parse_numbers(text: str, *, option: str, names: tuple[str, ...], optional: t
             raise SamplingError(f"{option} {text!r}: {name.upper()} must be a number, got {part!r} (form: {form})") from None
         if not math.isfinite(value):
             raise SamplingError(f"{option} {text!r}: {name.upper()} must be finite, got {part!r}")
+        check_magnitude(value, what=f"{option} {text!r}: {name.upper()}")
         out[name] = value
     return out
