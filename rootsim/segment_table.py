@@ -22,6 +22,13 @@ birth_day  float64 day (since sowing) the segment formed
 
 Table-level facts (stand layout, ground area, container, run settings) travel as JSON in
 the Parquet key-value metadata under the key ``rootsim``.
+
+Field stands are periodic: a field stand is the unit cell of an infinite field in which
+its plants repeat every row and plant spacing (:mod:`rootsim.periodic_stand`). Coordinates
+stay unwrapped (each plant's roots around its own seed, reaching past the cell); samplers and
+the voxel RLD add the periodic images where their geometry reaches past the cell. Written
+tables of field stands say so in ``stand.boundary = "periodic"`` and ``stand.cell_cm =
+[xmin, xmax, ymin, ymax]`` (set ``stand.boundary = "bordered"`` for a finite plot).
 """
 
 from __future__ import annotations
@@ -44,6 +51,7 @@ __all__ = [
     "validate_columns",
     "read_segments",
     "write_segments",
+    "with_stand_convention",
 ]
 
 INT_COLUMNS = ("segment_id", "parent_id", "plant_id", "root_id", "order")
@@ -163,12 +171,31 @@ def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *
             arrays.append(pa.array(values))
     table = pa.Table.from_arrays(arrays, names=names)
     meta = dict(table.schema.metadata or {})
+    metadata = with_stand_convention(metadata)
     meta[METADATA_KEY] = json.dumps(dict(metadata or {}), sort_keys=True).encode()
     table = table.replace_schema_metadata(meta)
     path = Path(path)
     with atomic_path(path) as tmp:
         pq.write_table(table, tmp, compression="lz4")  # fast to read back; zstd is 6x slower here
     return path
+
+
+def with_stand_convention(metadata: Mapping | None) -> dict:
+    """Metadata with the periodic-stand convention recorded for field stands (module docstring).
+
+    Adds ``stand.boundary`` (``"periodic"``) and ``stand.cell_cm`` when the table is a field
+    stand with a plant layout and they are absent; other metadata is returned unchanged.
+    """
+    from .periodic_stand import BOUNDARY_PERIODIC, stand_cell
+
+    out = dict(metadata or {})
+    stand = out.get("stand")
+    if not isinstance(stand, Mapping) or "boundary" in stand:
+        return out
+    cell = stand_cell(out)
+    if cell is not None:
+        out["stand"] = {**stand, "boundary": BOUNDARY_PERIODIC, "cell_cm": cell.as_list()}
+    return out
 
 
 def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]:

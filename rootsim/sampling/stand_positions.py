@@ -23,7 +23,7 @@ import numpy as np
 
 from ..errors import SamplingError
 
-__all__ = ["POSITION_KINDS", "parse_position", "stand_position", "is_position_word", "stand_layout"]
+__all__ = ["POSITION_KINDS", "parse_position", "stand_position", "is_position_word", "stand_layout", "replicate_plants"]
 
 POSITION_KINDS = ("in_row_at_plant", "in_row_between_plants", "mid_row")
 _ALIASES = {"at_plant": "in_row_at_plant", "between_plants": "in_row_between_plants", "midrow": "mid_row",
@@ -114,3 +114,23 @@ def stand_position(metadata: Mapping, kind: str, plant: int = -1, *, option: str
     elif kind != "in_row_at_plant":
         raise SamplingError(f"{option}: position {kind!r} is not known (allowed: {', '.join(POSITION_KINDS)})")
     return float(xy[0]), float(xy[1]), plant
+
+
+def replicate_plants(metadata: Mapping, replicates: int, *, seed: int | None, option: str) -> np.ndarray:
+    """Plants for ``replicates`` cores of one position kind, drawn without replacement, shape (replicates,).
+
+    A field team takes replicate cores at the same kind of position next to different plants
+    of a plot; here the plants are drawn from the stand with ``numpy.random.default_rng(seed)``.
+
+    Raises
+    ------
+    SamplingError
+        Fewer plants than replicates, or ``replicates < 1``.
+    """
+    pos, _, _, _ = stand_layout(metadata, option=option)
+    if replicates < 1:
+        raise SamplingError(f"{option}: replicates must be >= 1, got {replicates}")
+    if replicates > len(pos):
+        raise SamplingError(f"{option}: {replicates} replicates need as many plants; the stand has {len(pos)}")
+    rng = np.random.default_rng(seed)
+    return np.sort(rng.choice(len(pos), size=replicates, replace=False))
