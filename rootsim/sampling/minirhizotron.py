@@ -31,9 +31,10 @@ is smooth within a piece). Field artefacts (all off by default):
 * a **gap or loose contact between tube and soil** in the topsoil (``gap_cm`` down to
   ``gap_depth_cm``): the soil starts ``gap_cm`` from the tube wall, so the camera sees only
   the shell from ``R + gap`` to ``R + depth of field``;
-* **roots growing along the tube wall**: a root meeting the tube is deflected and runs along
-  the interface in full view; ``wall_growth_fraction`` of the root length that meets the tube
-  (the length inside radius ``R``, where the tube is) is added to the image length;
+* **roots growing along the tube wall**: where the tube is in contact with the soil (windows
+  without a gap), a root meeting the tube is deflected and runs along the interface in full
+  view; ``wall_growth_fraction`` of the root length that meets the tube (the length inside
+  radius ``R``, where the tube is) is added to the image length of those windows;
 * a **detection limit**: roots thinner than ``detection_limit_cm`` (diameter) are not seen.
 
 Both the gap and wall growth are the causes reported for minirhizotrons under-reading the
@@ -390,6 +391,7 @@ def image_length(a: np.ndarray, b: np.ndarray, tube: Tube, edges: np.ndarray, ga
             lo = np.maximum(np.maximum(t_in, s_in), c_in)
             hi = np.minimum(np.minimum(t_out, s_out), c_out)
             wall += sign * interval_length(lo, hi, seg_len[:, None]).sum(axis=0)
+    wall = np.where(gap_cm > 0, 0.0, wall)  # roots follow the wall only where tube and soil are in contact
     return np.maximum(visible, 0.0), np.maximum(image + tube.wall_growth_fraction * wall, 0.0)
 
 
