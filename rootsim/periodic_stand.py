@@ -23,7 +23,7 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["PeriodicCell", "stand_cell", "segment_images", "BOUNDARY_PERIODIC", "BOUNDARY_BORDERED"]
+__all__ = ["PeriodicCell", "stand_cell", "segment_images", "rows_along_y", "BOUNDARY_PERIODIC", "BOUNDARY_BORDERED"]
 
 BOUNDARY_PERIODIC = "periodic"
 BOUNDARY_BORDERED = "bordered"
@@ -86,15 +86,44 @@ def stand_cell(metadata: Mapping | None) -> PeriodicCell | None:
         return None
     if pos.size == 0 or not (row_sp > 0 and plant_sp > 0):
         return None
-    rows = int(stand.get("rows") or len(np.unique(np.round(pos[:, 0], 6))))
-    per_row = int(stand.get("plants_per_row") or max(1, len(pos) // max(rows, 1)))
-    # Rows along y (the engine's layout: one x per row) unless the positions show rows along x.
-    along_y = len(np.unique(np.round(pos[:, 0], 6))) == rows
+    along_y = rows_along_y(pos, plant_spacing_cm=plant_sp, row_spacing_cm=row_sp)
+    across = np.unique(np.round(pos[:, 0 if along_y else 1], 6))
+    along = np.unique(np.round(pos[:, 1 if along_y else 0], 6))
+    rows = int(stand.get("rows") or len(across))
+    per_row = int(stand.get("plants_per_row") or len(along))
     span_x = rows * row_sp if along_y else per_row * plant_sp
     span_y = per_row * plant_sp if along_y else rows * row_sp
     cx = 0.5 * (pos[:, 0].min() + pos[:, 0].max())
     cy = 0.5 * (pos[:, 1].min() + pos[:, 1].max())
-    return PeriodicCell(cx - span_x / 2, cx + span_x / 2, cy - span_y / 2, cy + span_y / 2)
+    return PeriodicCell(float(cx - span_x / 2), float(cx + span_x / 2), float(cy - span_y / 2), float(cy + span_y / 2))
+
+
+def rows_along_y(positions: np.ndarray, *, plant_spacing_cm: float, row_spacing_cm: float) -> bool:
+    """True when the rows run along y: the gaps between distinct plant coordinates match the spacings best so.
+
+    Parameters
+    ----------
+    positions : ndarray, shape (n, 2)
+        Plant (x, y), cm.
+    plant_spacing_cm, row_spacing_cm : float
+        Spacings, cm.
+
+    Returns
+    -------
+    bool
+        Ties (a single plant, or equal spacings) go to rows along y, the growth engine's layout.
+    """
+    def gap(values: np.ndarray) -> float:
+        u = np.unique(np.round(values, 6))
+        return float(np.diff(u).min()) if u.size > 1 else float("nan")
+
+    gx, gy = gap(positions[:, 0]), gap(positions[:, 1])
+
+    def score(along_gap: float, across_gap: float) -> float:
+        return sum(abs(g - want) for g, want in ((along_gap, plant_spacing_cm), (across_gap, row_spacing_cm))
+                   if np.isfinite(g))
+
+    return score(gy, gx) <= score(gx, gy)
 
 
 def segment_images(p0: np.ndarray, p1: np.ndarray, cell: PeriodicCell | None,

@@ -255,30 +255,42 @@ def _table(say, title: str, header: list[str], rows: list[list[str]]) -> None:
         say("  " + "  ".join(c.rjust(w) for c, w in zip(r, widths)) + "\n")
 
 
+def _print_cores(say, df, bias, out: Path, note: str) -> None:
+    """The cores table: depth rows, the mean RLD of each placement, washed and core-break ÷ stand."""
+    kinds = list(dict.fromkeys(df["placement"]))
+    n_by_kind = df.groupby("placement")["core_id"].nunique()
+    washed = bias[bias["method"] == "core_washed"]
+    broken = bias[bias["method"] == "core_break"]
+    overall = "all" if len(kinds) > 1 else kinds[0]
+    rows = []
+    for (top, bottom), part in washed.groupby(["depth_top_cm", "depth_bottom_cm"], sort=True):
+        cells = [f"{top:g}-{bottom:g}", f"{part['rld_stand_cm_per_cm3'].iloc[0]:.3g}"]
+        for kind in kinds:
+            row = part[part["group"] == kind]
+            cells.append(_pm(row["rld_estimate_mean_cm_per_cm3"].iloc[0], row["rld_estimate_sd_cm_per_cm3"].iloc[0])
+                         if len(row) else "-")
+        for table in (part, broken[(broken["depth_top_cm"] == top) & (broken["depth_bottom_cm"] == bottom)]):
+            row = table[table["group"] == overall]
+            cells.append(_pm(row["ratio_mean"].iloc[0], row["ratio_sd"].iloc[0]) if len(row) else "-")
+        rows.append(cells)
+    counts = ", ".join(f"{int(n_by_kind[k])} {k}" for k in kinds)
+    _table(say, f"cores ({counts}{note}) -> {out / 'cores.csv'}",
+           ["depth cm", "stand"] + [_SHORT.get(k, k) for k in kinds] + ["washed / stand", "break / stand"], rows)
+
+
 def _print_summary(tables: dict, bias, out: Path) -> None:
     """One short table per method (columns explained in --help and the README)."""
     say = sys.stdout.write
+    if bias is not None:
+        say("RLD in cm root per cm3 soil; a ± s = mean ± standard deviation; stand = true stand RLD of the layer\n")
     if "cores.csv" in tables:
-        df = tables["cores.csv"]
-        kinds = list(dict.fromkeys(df["placement"]))
-        n_by_kind = df.groupby("placement")["core_id"].nunique()
-        washed = bias[bias["method"] == "core_washed"]
-        broken = bias[bias["method"] == "core_break"]
-        overall = "all" if len(kinds) > 1 else kinds[0]
-        rows = []
-        for (top, bottom), part in washed.groupby(["depth_top_cm", "depth_bottom_cm"], sort=True):
-            cells = [f"{top:g}-{bottom:g}", f"{part['rld_stand_cm_per_cm3'].iloc[0]:.3g}"]
-            for kind in kinds:
-                row = part[part["group"] == kind]
-                cells.append(_pm(row["rld_estimate_mean_cm_per_cm3"].iloc[0], row["rld_estimate_sd_cm_per_cm3"].iloc[0])
-                             if len(row) else "-")
-            for table in (part, broken[(broken["depth_top_cm"] == top) & (broken["depth_bottom_cm"] == bottom)]):
-                row = table[table["group"] == overall]
-                cells.append(_pm(row["ratio_mean"].iloc[0], row["ratio_sd"].iloc[0]) if len(row) else "-")
-            rows.append(cells)
-        counts = ", ".join(f"{int(n_by_kind[k])} {k}" for k in kinds)
-        _table(say, f"cores ({counts}) -> {out / 'cores.csv'}",
-               ["depth cm", "stand"] + [_SHORT.get(k, k) for k in kinds] + ["washed / stand", "break / stand"], rows)
+        all_cores = tables["cores.csv"]
+        schemes = sorted(all_cores["increment_cm"].unique())
+        for increment in schemes:
+            df = all_cores[all_cores["increment_cm"] == increment]
+            pairs = set(zip(df["depth_top_cm"], df["depth_bottom_cm"]))
+            in_scheme = [pair in pairs for pair in zip(bias["depth_top_cm"], bias["depth_bottom_cm"])]
+            _print_cores(say, df, bias[in_scheme], out, f", {increment:g} cm increments" if len(schemes) > 1 else "")
     if "wall.csv" in tables:
         df = tables["wall.csv"]
         g = df.groupby(["depth_top_cm", "depth_bottom_cm"]).agg(

@@ -65,7 +65,11 @@ def parse_position(token: str, *, option: str) -> tuple[str, int]:
 
 
 def stand_layout(metadata: Mapping, *, option: str) -> tuple[np.ndarray, int, float, float]:
-    """Plant positions (n, 2), along-row axis (0 = x, 1 = y), plant and row spacing, cm, from metadata."""
+    """Plant positions (n, 2), along-row axis (0 = x, 1 = y), plant and row spacing, cm, from metadata.
+
+    The row direction is :func:`rootsim.periodic_stand.rows_along_y` (ties, e.g. a single plant, go to
+    rows along y as the growth engine lays them out).
+    """
     from .core_grid import stand_rows
 
     stand = dict((metadata or {}).get("stand") or {})
@@ -73,9 +77,12 @@ def stand_layout(metadata: Mapping, *, option: str) -> tuple[np.ndarray, int, fl
         raise SamplingError(f"{option}: positions relative to the stand need the stand layout, and the segment "
                             "table metadata has no stand.plant_positions_cm (give X,Y in cm instead)")
     try:
-        return stand_rows(stand)
+        pos, _, plant_sp, row_sp = stand_rows(stand)
     except SamplingError as exc:
         raise SamplingError(f"{option}: {exc}") from None
+    from ..periodic_stand import rows_along_y
+
+    return pos, 1 if rows_along_y(pos, plant_spacing_cm=plant_sp, row_spacing_cm=row_sp) else 0, plant_sp, row_sp
 
 
 def stand_position(metadata: Mapping, kind: str, plant: int = -1, *, option: str = "position") -> tuple[float, float, int]:
