@@ -162,19 +162,20 @@ def segment_images(p0: np.ndarray, p1: np.ndarray, cell: PeriodicCell | None,
     sx1 = np.maximum(p0[:, 0], p1[:, 0])
     sy0 = np.minimum(p0[:, 1], p1[:, 1])
     sy1 = np.maximum(p0[:, 1], p1[:, 1])
-    i_lo = np.ceil((xmin - sx1) / lx).astype(np.int64)
-    i_hi = np.floor((xmax - sx0) / lx).astype(np.int64)
-    j_lo = np.ceil((ymin - sy1) / ly).astype(np.int64)
-    j_hi = np.floor((ymax - sy0) / ly).astype(np.int64)
+    with np.errstate(over="ignore", invalid="ignore"):
+        bounds_f = (np.ceil((xmin - sx1) / lx), np.floor((xmax - sx0) / lx),
+                    np.ceil((ymin - sy1) / ly), np.floor((ymax - sy0) / ly))
+        total_f = float(np.sum(np.maximum(bounds_f[1] - bounds_f[0] + 1, 0) * np.maximum(bounds_f[3] - bounds_f[2] + 1, 0)))
+    if not (np.isfinite(total_f) and total_f <= _MAX_IMAGES):
+        from .errors import SamplingError
+
+        raise SamplingError(f"sampling region x {xmin:g} to {xmax:g}, y {ymin:g} to {ymax:g} cm needs more than "
+                            f"{_MAX_IMAGES} periodic root images; sample a smaller region")
+    i_lo, i_hi, j_lo, j_hi = (b.astype(np.int64) for b in bounds_f)
     ni = np.maximum(i_hi - i_lo + 1, 0)
     nj = np.maximum(j_hi - j_lo + 1, 0)
     count = ni * nj
     total = int(count.sum())
-    if total > _MAX_IMAGES:
-        from .errors import SamplingError
-
-        raise SamplingError(f"sampling region {box} needs {total} periodic root images (limit {_MAX_IMAGES}); "
-                            "sample a smaller region")
     if total == n and np.all(count == 1) and not np.any(i_lo) and not np.any(j_lo):
         return p0, p1, np.arange(n, dtype=np.int64)
     source = np.repeat(np.arange(n, dtype=np.int64), count)
