@@ -144,3 +144,19 @@ def test_positions_need_a_stand_layout():
         sample_cores(system, cores=["mid_row,4,30"])
     with pytest.raises(SamplingError, match="plant 9 does not exist"):
         sample_cores(lines_system(np.zeros((1, 3)), np.ones((1, 3)) * -1, metadata=META), cores=["mid_row:9,4,30"])
+
+
+def test_wall_across_rows_that_run_along_x():
+    # Rows along x (plants 20 cm apart in x, rows 50 cm apart in y): a face across the rows through the point
+    # between plants is the plane x = 10 spanning y -50..50. A root along x at y = 3, 12 cm deep, from x = 0 to
+    # 18 crosses it once; a root along y never does (it runs in the face's direction).
+    meta = {"stand": {"n_plants": 4, "rows": 2, "plants_per_row": 2, "row_spacing_cm": 50.0, "plant_spacing_cm": 20.0,
+                      "plant_positions_cm": [[0.0, -25.0, -5.0], [20.0, -25.0, -5.0], [0.0, 25.0, -5.0],
+                                             [20.0, 25.0, -5.0]]}, "container": {"kind": "field"}}
+    p0 = np.array([[0.0, 3.0, -12.0], [5.0, -20.0, -12.0]])
+    p1 = np.array([[18.0, 3.0, -12.0], [5.0, 20.0, -12.0]])
+    df = sample_wall(lines_system(p0, p1, metadata=meta), walls=["between_plants,20,10"])
+    assert set(df["normal_axis"]) == {"x"} and df["y_cm"].iloc[0] == 10.0
+    assert df["x_left_cm"].min() == -50.0 and df["x_right_cm"].max() == 50.0
+    hit = df[df["intersections"] > 0]
+    assert hit[["x_left_cm", "depth_top_cm", "intersections"]].values.tolist() == [[0.0, 10.0, 1]]
