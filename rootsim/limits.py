@@ -139,10 +139,11 @@ def check_magnitude(value: float, *, what: str) -> float:
 
 
 def require_finite(result, *, what: str) -> None:
-    """Refuse to write a result holding NaN or infinite numbers (a DataFrame, or nested dicts and lists).
+    """Refuse to write a result holding infinite numbers (a DataFrame), or NaN or infinite ones (nested dicts).
 
     The last guard before output: a result computed from extreme but valid inputs is an error, never a file
-    with ``inf`` and exit code 0.
+    with ``inf`` and exit code 0. In tables an empty cell (NaN) stays allowed: it means "not defined", e.g. the
+    standard deviation of a single core or a ratio to a true RLD of zero.
 
     Raises
     ------
@@ -155,7 +156,7 @@ def require_finite(result, *, what: str) -> None:
         numbers = result.select_dtypes(include="number")
         for column in numbers.columns:
             values = numbers[column].to_numpy(dtype=float, na_value=np.nan)
-            if not np.isfinite(values).all():
+            if np.isinf(values).any():
                 raise RootsimError(f"{what}: column {column} would hold non-finite values (an option or the ground "
                                    "area is too extreme; allowed: results that are finite numbers)")
         return

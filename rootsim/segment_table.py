@@ -27,6 +27,13 @@ the Parquet key-value metadata under the key ``rootsim`` (schema: :mod:`rootsim.
 Parquet files are written with page checksums (CRC-32 of every page, part of the Parquet format) and read
 with their verification on, so a damaged file is reported instead of measured. A file inside a result folder
 is also checked against the folder's ``manifest.json`` (:mod:`rootsim.result_folder`).
+
+Field stands are periodic: a field stand is the unit cell of an infinite field in which
+its plants repeat every row and plant spacing (:mod:`rootsim.periodic_stand`). Coordinates
+stay unwrapped (each plant's roots around its own seed, reaching past the cell); samplers and
+the voxel RLD add the periodic images where their geometry reaches past the cell. Written
+tables of field stands say so in ``stand.boundary = "periodic"`` and ``stand.cell_cm =
+[xmin, xmax, ymin, ymax]`` (set ``stand.boundary = "bordered"`` for a finite plot).
 """
 
 from __future__ import annotations
@@ -51,6 +58,7 @@ __all__ = [
     "as_categorical",
     "read_segments",
     "write_segments",
+    "with_stand_convention",
 ]
 
 INT_COLUMNS = ("segment_id", "parent_id", "plant_id", "root_id", "order")
@@ -215,7 +223,7 @@ def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *
             arrays.append(pa.array(np.asarray(columns[name])))
     table = pa.Table.from_arrays(arrays, names=names)
     meta = dict(table.schema.metadata or {})
-    facts = {k: v for k, v in dict(metadata or {}).items() if k != "run_id"}  # a run id names a result folder
+    facts = {k: v for k, v in with_stand_convention(metadata).items() if k != "run_id"}  # a run id names a folder
     meta[METADATA_KEY] = json.dumps(facts, sort_keys=True).encode()
     table = table.replace_schema_metadata(meta)
     path = Path(path)
@@ -223,6 +231,24 @@ def write_segments(columns: Mapping[str, np.ndarray], path: str | os.PathLike, *
         # fast to read back (zstd is 6x slower here); page checksums so damage is detected on reading
         pq.write_table(table, tmp, compression="lz4", write_page_checksum=True)
     return path
+
+
+def with_stand_convention(metadata: Mapping | None) -> dict:
+    """Metadata with the periodic-stand convention recorded for field stands (module docstring).
+
+    Adds ``stand.boundary`` (``"periodic"``) and ``stand.cell_cm`` when the table is a field
+    stand with a plant layout and they are absent; other metadata is returned unchanged.
+    """
+    from .periodic_stand import BOUNDARY_PERIODIC, stand_cell
+
+    out = dict(metadata or {})
+    stand = out.get("stand")
+    if not isinstance(stand, Mapping) or "boundary" in stand:
+        return out
+    cell = stand_cell(out)
+    if cell is not None:
+        out["stand"] = {**stand, "boundary": BOUNDARY_PERIODIC, "cell_cm": cell.as_list()}
+    return out
 
 
 def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]:

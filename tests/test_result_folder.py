@@ -69,7 +69,7 @@ def test_earlier_run_refused_without_overwrite_and_replaced_whole_with_it(tmp_pa
     assert main(["sample", str(out), "--core", "0,0,5,30"]) == 0
     before = {p.name: p.read_bytes() for p in out.iterdir()}
     derived = json.loads((out / "manifest.json").read_text())["derived"]
-    assert set(derived) == {"profile.csv", "traits.json", "cores.csv"}
+    assert set(derived) == {"profile.csv", "traits.json", "orientation.csv", "cores.csv"}
     assert {e["run_id"] for e in derived.values()} == {json.loads((out / "manifest.json").read_text())["run_id"]}
     assert json.loads((out / "traits.json").read_text())["run_id"] == derived["traits.json"]["run_id"]
     capsys.readouterr()

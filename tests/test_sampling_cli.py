@@ -9,8 +9,10 @@ import pytest
 from rootsim.cli import main
 from rootsim.sampling.synthetic import lines_system, random_walk_roots
 
+# A finite (bordered) plot: the analytic values below count only these roots, not periodic images
+# (periodic stands are checked in test_sampling_periodic.py).
 STAND = {"stand": {"n_plants": 2, "plant_positions_cm": [[0, 0, 0], [20, 0, 0]], "row_spacing_cm": 50,
-                   "plant_spacing_cm": 20}}
+                   "plant_spacing_cm": 20, "boundary": "bordered"}}
 
 
 @pytest.fixture()

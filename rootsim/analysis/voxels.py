@@ -106,7 +106,7 @@ def grid_crossing_pieces(p0: np.ndarray, p1: np.ndarray, t_enter: np.ndarray, t_
     return owner[:-1][keep], t[:-1][keep], t[1:][keep]
 
 
-def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None, periodic: bool = True) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Root length density (cm root per cm³ soil) on a regular 3D grid, segments clipped exactly.
 
     Parameters
@@ -119,7 +119,12 @@ def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None) -> tuple[np.ndarray, n
         ``(xmin, xmax, ymin, ymax, zmin, zmax)``, cm. The grid starts at the minimum corner and
         has ``ceil(extent / voxel_cm)`` voxels per axis (so it covers the bounds, rounded up to
         whole voxels on the maximum side). Default: the bounding box of all segments, widened to
-        multiples of ``voxel_cm`` (so, e.g., the soil surface z = 0 is a voxel face).
+        multiples of ``voxel_cm`` (so, e.g., the soil surface z = 0 is a voxel face); for a
+        periodic field stand, the stand's cell in x and y (from its minimum corner).
+    periodic : bool
+        For a field stand, count the periodic images of the roots (:mod:`rootsim.periodic_stand`),
+        so the grid over the cell holds the stand's RLD and no root is lost past the cell
+        edge; False counts the table's roots only (a bordered plot).
 
     Returns
     -------
@@ -141,7 +146,25 @@ def rld_voxel_grid(system: Any, *, voxel_cm, bounds=None) -> tuple[np.ndarray, n
     start = [float_column(system, c) for c in ("x0", "y0", "z0")]
     end = [float_column(system, c) for c in ("x1", "y1", "z1")]
     length = float_column(system, "length_cm")
+    cell = None
+    if periodic:
+        from ..periodic_stand import stand_cell
+        from ..sampling.columns import table_metadata
+
+        cell = stand_cell(table_metadata(system))
+    if cell is not None and bounds is None and len(length):
+        z_lo = _grid(start, end, spacing, None)[0][2]
+        z_hi = max(float(start[2].max()), float(end[2].max()))
+        counts_z = max(int(np.ceil((z_hi - z_lo) / spacing[2] - 1e-9)), 1)
+        bounds = (cell.x_min_cm, cell.x_max_cm, cell.y_min_cm, cell.y_max_cm, z_lo, z_lo + counts_z * spacing[2])
     origin, counts = _grid(start, end, spacing, bounds)
+    if cell is not None and len(length):
+        from ..periodic_stand import segment_images
+
+        top = origin + counts * spacing
+        q0, q1, source = segment_images(np.column_stack(start), np.column_stack(end), cell,
+                                        (origin[0], top[0], origin[1], top[1]))
+        start, end, length = [q0[:, a] for a in range(3)], [q1[:, a] for a in range(3)], length[source]
     from ..limits import check_cell_count
 
     check_cell_count(float(counts[0]) * float(counts[1]) * float(counts[2]), what="voxels of the RLD grid")

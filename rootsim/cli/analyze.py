@@ -27,6 +27,10 @@ Measure a root system as in the field and the lab. Reads DIR/segments.parquet (w
                 convex hull volume, interbranch distance and insertion angle by lateral
                 order, Gale & Grigal beta (cumulative fraction 1 - beta^depth), Fitter's
                 topological indices per plant, and the ground area used.
+  orientation.csv  per layer, the length-weighted angle of the roots from the vertical:
+                mean_abs_cos (0.5 for randomly oriented roots, larger = steeper), mean angle,
+                length shares at 0-30 (steep), 30-60 and 60-90 degrees (flat) and in 15-degree
+                classes; orientation drives the bias of walls, tubes and grid counts.
 
 The ground area is the stand's (plant spacing x row spacing x plants, stored by
 'rootsim grow'). For imported data without a stand, give --area-cm2, or --box to count
@@ -123,14 +127,23 @@ def run(args: argparse.Namespace) -> int:
     require_finite(traits, what="traits.json")
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else _out_dir(args.dir))
     csv_path, json_path = out / "profile.csv", out / "traits.json"
-    with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json:
+    from ..analysis import orientation_by_depth
+
+    orientation = orientation_by_depth(system, layer_cm=layer, max_depth_cm=float(profile["depth_bottom_cm"].iloc[-1]))
+    orientation_path = out / "orientation.csv"
+    with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json, \
+            atomic_path(orientation_path) as tmp_orientation:
         profile.to_csv(tmp_csv, index=False, float_format="%.10g")
         tmp_json.write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+        orientation.to_csv(tmp_orientation, index=False, float_format="%.6g")
     from ..result_folder import record_derived
 
-    record_derived(args.dir, [csv_path, json_path], command="analyze")
+    record_derived(args.dir, [csv_path, json_path, orientation_path], command="analyze")
     print(summary_text(str(args.dir), traits, profile))
-    print(f"wrote {csv_path} and {json_path}")
+    steep = "; ".join(f"{r.depth_top_cm:g}-{r.depth_bottom_cm:g} cm: {r.mean_abs_cos:.2f}"
+                      for r in orientation.head(6).itertuples() if r.root_length_cm > 0)
+    print(f"  orientation, mean |cos| from vertical (0.5 = random, 1 = vertical): {steep}")
+    print(f"wrote {csv_path}, {json_path} and {out / 'orientation.csv'}")
     return 0
 
 

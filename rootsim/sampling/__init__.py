@@ -12,6 +12,13 @@ published conversion, and the true RLD of the same volume by exact clipping.
   (:mod:`rootsim.sampling.minirhizotron`).
 * :func:`sample_projection` – line-intersect length of a 2D projection
   (:mod:`rootsim.sampling.projection`).
+
+In a field stand, cores, walls and tubes see the periodic images of the roots (the stand is one
+cell of an infinite field, :mod:`rootsim.periodic_stand`; ``periodic=False`` for a bordered
+plot). Positions may be given relative to the stand (:mod:`rootsim.sampling.stand_positions`).
+Field artefacts live with their method (prepared wall face, tube image with gap and wall growth,
+core-break and washing recovery, detection limits), all off by default;
+:func:`rootsim.sampling.bias_table.bias_table` reports estimate ÷ stand RLD by depth with spread.
 """
 
 from .core_grid import core_grid, parse_core_grid

@@ -8,7 +8,7 @@ import numpy as np
 
 from ..errors import SamplingError
 
-__all__ = ["segment_endpoints", "table_metadata", "sampling_inputs"]
+__all__ = ["segment_endpoints", "table_metadata", "sampling_inputs", "optional_radius"]
 
 _POINT_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1")
 
@@ -46,10 +46,20 @@ def table_metadata(system: Any) -> dict:
     return dict(meta or {})
 
 
+def optional_radius(system: Any) -> np.ndarray | None:
+    """The ``radius_cm`` column as float64, or None when the table has none."""
+    try:
+        values = system["radius_cm"]
+    except (KeyError, IndexError):
+        return None
+    return np.asarray(values.to_numpy() if hasattr(values, "to_numpy") else values, dtype=np.float64)
+
+
 def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str, form: str,
                     parse: Callable[..., Any], validate: Callable[..., None], describe: Callable[[Any], str],
-                    check_container: bool) -> tuple[list, np.ndarray, np.ndarray]:
-    """Turn sampling geometries into checked objects and read the segment end points.
+                    check_container: bool, periodic: bool = True
+                    ) -> tuple[list, np.ndarray, np.ndarray, np.ndarray | None]:
+    """Turn sampling geometries into checked objects and read the segment end points (with periodic images).
 
     Parameters
     ----------
@@ -57,7 +67,8 @@ def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str,
     items : iterable
         Objects of type ``kind`` or option strings in ``form`` (parsed with ``parse``).
     kind : type
-        Geometry class (Core, Wall, Tube).
+        Geometry class (Core, Wall, Tube); it has ``resolve(metadata, label=...)`` (fills in
+        positions given relative to the stand) and ``footprint()`` (horizontal extent, cm).
     noun : str
         Name used in messages (``"core"``).
     form : str
@@ -70,12 +81,20 @@ def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str,
         Short position text of an item for messages.
     check_container : bool
         Check against the container in the metadata.
+    periodic : bool
+        In a field stand, add the periodic images of the roots that reach the geometries
+        (:mod:`rootsim.periodic_stand`); False samples the table's roots only (a bordered plot).
 
     Returns
     -------
     items : list of ``kind``
     p0, p1 : ndarray, shape (n, 3)
+        Segment end points (images included), cm.
+    radius : ndarray, shape (n,), or None
+        Radius of each returned segment, cm (None if the table has no ``radius_cm``).
     """
+    from ..periodic_stand import segment_images, stand_cell
+
     out = []
     for i, item in enumerate(items):
         if isinstance(item, str):
@@ -85,8 +104,17 @@ def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str,
         out.append(item)
     if not out:
         raise SamplingError(f"no {noun}s given (give at least one {noun}: {form})")
-    meta = table_metadata(system) if check_container else None
+    meta = table_metadata(system)
+    out = [item.resolve(meta, label=f"{noun} {i}") for i, item in enumerate(out)]
     for i, item in enumerate(out):
-        validate(item, label=f"{noun} {i} at {describe(item)}", metadata=meta)
+        validate(item, label=f"{noun} {i} at {describe(item)}", metadata=meta if check_container else None)
     p0, p1 = segment_endpoints(system)
-    return out, p0, p1
+    radius = optional_radius(system)
+    cell = stand_cell(meta) if periodic else None
+    if cell is not None and len(p0):
+        boxes = np.array([item.footprint() for item in out], dtype=np.float64)
+        box = (boxes[:, 0].min(), boxes[:, 1].max(), boxes[:, 2].min(), boxes[:, 3].max())
+        p0, p1, source = segment_images(p0, p1, cell, box)
+        if radius is not None:
+            radius = radius[source]
+    return out, p0, p1, radius

@@ -11,6 +11,23 @@ Candidate segments per core come from a uniform grid over segment midpoints (x, 
 the horizontal extent of the segment``: any point of a segment lies within half its horizontal
 extent of its midpoint, so no segment that reaches the core is missed. Increments are
 half-open in depth (``top <= depth < bottom``) for roots lying exactly in a boundary plane.
+
+Beside the exact (washed) length, two field practices are emulated:
+
+* **Washing recovery.** Washing over a sieve loses part of the finest roots (e.g. Pallant,
+  Holmgren, Schuler, McCracken & Drinkwater 1993, "Using a fine mesh to recover roots",
+  Plant Soil 148:301-306; from memory). ``washing_recovery`` is the recovered fraction of the
+  length of roots of diameter at most ``fine_root_diameter_cm`` (default 1 = all recovered,
+  today's numbers); ``root_length_washed_cm`` and ``rld_washed_cm_per_cm3`` carry the result.
+* **Core-break.** Each increment is broken at mid-depth and the roots seen on the broken
+  face are counted (Drew & Saker 1980, "Assessment of a rapid method, using soil cores, for
+  estimating the amount and distribution of crop roots in the field", Plant Soil 55:297-305,
+  doi:10.1007/BF02181809). Counts ``N`` per face area ``A`` are converted with a ratio ``C``
+  fitted to washed cores, ``RLD = C N / A`` (:func:`fit_core_break_ratio`); the default
+  ``C = 2`` is the stereological value for isotropic roots (Smith & Guttman 1953, see
+  :mod:`rootsim.sampling.wall`). Roots thinner than ``detection_limit_cm`` (diameter) are not
+  seen on the face. A root crosses the face when its end points lie on different sides under
+  ``depth < face`` versus ``>= face``.
 """
 
 from __future__ import annotations
@@ -25,10 +42,13 @@ from ..errors import SamplingError
 from .columns import sampling_inputs
 from .container import check_vertical_cylinder
 from .cylinder import cylinder_parameters, interval_length, linear_parameters
-from .geometry_strings import parse_numbers
+from .geometry_strings import parse_placed_numbers
 from .spatial_index import MidpointGrid
 
-__all__ = ["Core", "parse_core", "sample_cores", "core_increments", "CORE_COLUMNS", "DEFAULT_INCREMENT_CM"]
+__all__ = ["Core", "parse_core", "sample_cores", "core_increments", "fit_core_break_ratio", "CORE_COLUMNS",
+           "DEFAULT_INCREMENT_CM", "ISOTROPIC_BREAK_RATIO"]
+
+ISOTROPIC_BREAK_RATIO = 2.0
 
 DEFAULT_INCREMENT_CM = 10.0
 CORE_COLUMNS = ("core_id", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm", "root_length_cm",
@@ -72,12 +92,33 @@ class Core:
     def radius_cm(self) -> float:
         return self.diameter_cm / 2.0
 
+    def resolve(self, metadata: Mapping, *, label: str = "core") -> "Core":
+        """This core with a stand-relative position (``placement`` set, x and y NaN) turned into coordinates."""
+        if not (math.isnan(self.x_cm) or math.isnan(self.y_cm)):
+            return self
+        from dataclasses import replace
+
+        from .stand_positions import stand_position
+
+        x, y, plant = stand_position(metadata, self.placement, self.plant_id, option=label)
+        return replace(self, x_cm=x, y_cm=y, plant_id=plant)
+
+    def footprint(self) -> tuple[float, float, float, float]:
+        """Horizontal extent (xmin, xmax, ymin, ymax), cm."""
+        r = self.radius_cm
+        return (self.x_cm - r, self.x_cm + r, self.y_cm - r, self.y_cm + r)
+
 
 def parse_core(text: str, *, option: str = "--core", default_increment_cm: float = DEFAULT_INCREMENT_CM) -> Core:
-    """Parse ``"X,Y,DIAMETER,DEPTH[,INCREMENT]"`` (cm) into a :class:`Core` (checked as in :func:`validate_core`)."""
-    v = parse_numbers(text, option=option, names=("x", "y", "diameter", "depth"), optional=("increment",))
+    """Parse ``"X,Y,DIAMETER,DEPTH[,INCREMENT]"`` (cm) into a :class:`Core` (checked as in :func:`validate_core`).
+
+    ``X,Y`` may be a stand position ``KIND[:PLANT]`` (:mod:`rootsim.sampling.stand_positions`),
+    resolved against the stand layout when the core is sampled.
+    """
+    v, place = parse_placed_numbers(text, option=option, names=("diameter", "depth"), optional=("increment",))
+    placement, plant = place if place is not None else ("given", -1)
     core = Core(x_cm=v["x"], y_cm=v["y"], diameter_cm=v["diameter"], depth_cm=v["depth"],
-                increment_cm=v.get("increment", default_increment_cm))
+                increment_cm=v.get("increment", default_increment_cm), placement=placement, plant_id=plant)
     validate_core(core, label=f"{option} {text}")
     return core
 
@@ -126,8 +167,10 @@ def _candidate_lists(p0: np.ndarray, p1: np.ndarray, cores: list[Core]) -> list[
     return [index.candidates(c.x_cm, c.y_cm, c.radius_cm) for c in cores]
 
 
-def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = True):
-    """Root length and RLD in each depth increment of each soil core (exact clipping).
+def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = True, periodic: bool = True,
+                 washing_recovery: float = 1.0, fine_root_diameter_cm: float = 0.02,
+                 core_break_ratio: float = ISOTROPIC_BREAK_RATIO, detection_limit_cm: float = 0.0):
+    """Root length and RLD in each depth increment of each soil core (exact clipping), washed and core-break.
 
     Parameters
     ----------
@@ -137,13 +180,26 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
         The cores; strings are ``"X,Y,DIAMETER,DEPTH[,INCREMENT]"`` (cm).
     check_container : bool
         Refuse cores that leave a pot or rhizobox named in the metadata (default).
+    periodic : bool
+        In a field stand, see the roots of neighbouring cells (:mod:`rootsim.periodic_stand`);
+        False for a bordered plot.
+    washing_recovery : float
+        Recovered fraction (0 to 1) of the length of fine roots when washing (module docstring).
+    fine_root_diameter_cm : float
+        Roots of at most this diameter are "fine" for ``washing_recovery``, cm.
+    core_break_ratio : float
+        ``C`` in ``RLD = C × roots per cm² of broken face`` (dimensionless; 2 for isotropic roots).
+    detection_limit_cm : float
+        Thinnest root diameter seen on a broken face, cm (0 = all).
 
     Returns
     -------
     pandas.DataFrame
         One row per core increment: ``core_id, x_cm, y_cm, diameter_cm, depth_top_cm,
-        depth_bottom_cm, root_length_cm, rld_cm_per_cm3`` then ``volume_cm3``,
-        ``increment_cm``, ``placement``, ``plant_id``. Length in cm, RLD in cm cm⁻³.
+        depth_bottom_cm, root_length_cm, rld_cm_per_cm3`` (exact) then ``volume_cm3``,
+        ``increment_cm``, ``placement``, ``plant_id``, ``root_length_washed_cm``,
+        ``rld_washed_cm_per_cm3``, ``break_face_depth_cm``, ``break_face_roots``,
+        ``rld_core_break_cm_per_cm3``. Length in cm, RLD in cm cm⁻³.
 
     Raises
     ------
@@ -153,19 +209,26 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
     """
     import pandas as pd
 
-    cores, p0, p1 = sampling_inputs(
+    _check_method_options(washing_recovery, fine_root_diameter_cm, core_break_ratio, detection_limit_cm)
+    cores, p0, p1, radius = sampling_inputs(
         system, [_mapping_to_core(c, i) for i, c in enumerate(cores)], kind=Core, noun="core",
         form="X,Y,DIAMETER,DEPTH[,INCREMENT]", parse=parse_core, validate=validate_core,
-        describe=lambda c: f"({c.x_cm:g}, {c.y_cm:g})", check_container=check_container)
+        describe=lambda c: f"({c.x_cm:g}, {c.y_cm:g})" if not math.isnan(c.x_cm) else c.placement,
+        check_container=check_container, periodic=periodic)
+    diameter = np.zeros(len(p0)) if radius is None else 2.0 * radius
     candidates = _candidate_lists(p0, p1, cores)
-    rows: dict[str, list] = {name: [] for name in CORE_COLUMNS + ("volume_cm3", "increment_cm", "placement", "plant_id")}
+    extra = ("volume_cm3", "increment_cm", "placement", "plant_id", "root_length_washed_cm", "rld_washed_cm_per_cm3",
+             "break_face_depth_cm", "break_face_roots", "rld_core_break_cm_per_cm3")
+    rows: dict[str, list] = {name: [] for name in CORE_COLUMNS + extra}
     for core_id, (core, idx) in enumerate(zip(cores, candidates)):
         tops, bottoms = core_increments(core)
-        a, b = p0[idx], p1[idx]
+        a, b, seg_diameter = p0[idx], p1[idx], diameter[idx]
+        faces = 0.5 * (tops + bottoms)
+        break_counts = _face_counts(a, b, seg_diameter >= detection_limit_cm, core, faces)
         # depth = -z along the segment: s0 + t ds
         s0, ds = -a[:, 2], a[:, 2] - b[:, 2]
         keep = (np.maximum(s0, s0 + ds) >= core.top_cm) & (np.minimum(s0, s0 + ds) <= core.depth_cm)
-        a, b, s0, ds = a[keep], b[keep], s0[keep], ds[keep]
+        a, b, s0, ds, seg_diameter = a[keep], b[keep], s0[keep], ds[keep], seg_diameter[keep]
         r_in, r_out = cylinder_parameters(a, b, axis_point=np.array([core.x_cm, core.y_cm, 0.0]),
                                           axis_direction=_VERTICAL_DOWN, radius_cm=core.radius_cm)
         hit = r_out > r_in
@@ -174,7 +237,10 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
         z_in, z_out = linear_parameters(s0[:, None], ds[:, None], tops[None, :], bottoms[None, :])
         inside = interval_length(np.maximum(r_in[:, None], z_in), np.minimum(r_out[:, None], z_out), lengths[:, None])
         length_per_increment = inside.sum(axis=0)
+        recovered = np.where(seg_diameter[hit] <= fine_root_diameter_cm, washing_recovery, 1.0)
+        washed = (inside * recovered[:, None]).sum(axis=0)
         volume = math.pi * core.radius_cm ** 2 * (bottoms - tops)
+        face_area = math.pi * core.radius_cm ** 2
         k = len(tops)
         rows["core_id"] += [core_id] * k
         rows["x_cm"] += [core.x_cm] * k
@@ -188,7 +254,59 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
         rows["increment_cm"] += [core.increment_cm] * k
         rows["placement"] += [core.placement] * k
         rows["plant_id"] += [core.plant_id] * k
+        rows["root_length_washed_cm"] += washed.tolist()
+        rows["rld_washed_cm_per_cm3"] += (washed / volume).tolist()
+        rows["break_face_depth_cm"] += faces.tolist()
+        rows["break_face_roots"] += break_counts.tolist()
+        rows["rld_core_break_cm_per_cm3"] += (core_break_ratio * break_counts / face_area).tolist()
     df = pd.DataFrame(rows)
+    df["break_face_roots"] = df["break_face_roots"].astype(np.int64)
     df["core_id"] = df["core_id"].astype(np.int64)
     df["plant_id"] = df["plant_id"].astype(np.int64)
     return df
+
+
+def _check_method_options(washing_recovery: float, fine_root_diameter_cm: float, core_break_ratio: float,
+                          detection_limit_cm: float) -> None:
+    if not 0.0 <= washing_recovery <= 1.0:
+        raise SamplingError(f"washing recovery must be from 0 to 1, got {washing_recovery:g}")
+    for name, value in (("fine root diameter", fine_root_diameter_cm), ("detection limit", detection_limit_cm)):
+        if not (math.isfinite(value) and value >= 0):
+            raise SamplingError(f"{name} must be >= 0 cm, got {value:g}")
+    if not (math.isfinite(core_break_ratio) and core_break_ratio > 0):
+        raise SamplingError(f"core-break ratio must be > 0, got {core_break_ratio:g}")
+
+
+def _face_counts(a: np.ndarray, b: np.ndarray, visible: np.ndarray, core: Core, faces: np.ndarray) -> np.ndarray:
+    """Number of visible roots crossing each horizontal break face (a disc of the core radius), shape (k,)."""
+    depth_a, depth_b = -a[:, 2], -b[:, 2]
+    counts = np.zeros(len(faces), dtype=np.int64)
+    for i, face in enumerate(faces):
+        cross = np.flatnonzero(visible & ((depth_a < face) != (depth_b < face)))
+        t = (face - depth_a[cross]) / (depth_b[cross] - depth_a[cross])
+        point = a[cross] + t[:, None] * (b[cross] - a[cross])
+        counts[i] = int(np.count_nonzero(np.hypot(point[:, 0] - core.x_cm, point[:, 1] - core.y_cm) <= core.radius_cm))
+    return counts
+
+
+def fit_core_break_ratio(cores) -> float:
+    """Core-break ratio ``C`` fitted to washed cores: least squares through the origin of RLD on roots per cm².
+
+    Parameters
+    ----------
+    cores : pandas.DataFrame
+        Output of :func:`sample_cores` (columns ``rld_washed_cm_per_cm3``, ``break_face_roots``,
+        ``diameter_cm``).
+
+    Returns
+    -------
+    float
+        ``C = Σ x y / Σ x²`` with ``x`` = face roots per cm² and ``y`` = washed RLD (the
+        calibration of Drew & Saker 1980, a line through the origin).
+    """
+    x = cores["break_face_roots"].to_numpy(dtype=np.float64) / (math.pi * (cores["diameter_cm"].to_numpy() / 2) ** 2)
+    y = cores["rld_washed_cm_per_cm3"].to_numpy(dtype=np.float64)
+    denominator = float((x * x).sum())
+    if denominator <= 0:
+        raise SamplingError("core-break ratio: no roots counted on any broken face, nothing to fit")
+    return float((x * y).sum() / denominator)

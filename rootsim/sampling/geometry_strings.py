@@ -7,7 +7,7 @@ import math
 from ..errors import SamplingError
 from ..limits import check_magnitude
 
-__all__ = ["parse_numbers"]
+__all__ = ["parse_numbers", "parse_placed_numbers"]
 
 
 def parse_numbers(text: str, *, option: str, names: tuple[str, ...], optional: tuple[str, ...] = ()) -> dict[str, float]:
@@ -49,3 +49,24 @@ def parse_numbers(text: str, *, option: str, names: tuple[str, ...], optional: t
         check_magnitude(value, what=f"{option} {text!r}: {name.upper()}")
         out[name] = value
     return out
+
+
+def parse_placed_numbers(text: str, *, option: str, names: tuple[str, ...], optional: tuple[str, ...] = ()
+                         ) -> tuple[dict[str, float], tuple[str, int] | None]:
+    """Like :func:`parse_numbers` for ``X,Y,...`` forms whose ``X,Y`` may be a stand position word.
+
+    ``"mid_row,5,60"`` gives ``({"x": nan, "y": nan, ...}, ("mid_row", -1))``; ``"0,10,5,60"``
+    gives the numbers and None (see :mod:`rootsim.sampling.stand_positions`).
+    """
+    from .stand_positions import is_position_word, parse_position
+
+    head, _, rest = str(text).partition(",")
+    if is_position_word(head):
+        place = parse_position(head, option=f"{option} {text!r}")
+        try:
+            values = parse_numbers(rest, option=option, names=names, optional=optional)
+        except SamplingError as exc:
+            form = "POSITION," + ",".join(n.upper() for n in names) + "".join(f"[,{n.upper()}]" for n in optional)
+            raise SamplingError(f"{option} {text!r}: expected {form} ({exc})") from None
+        return {"x": math.nan, "y": math.nan, **values}, place
+    return parse_numbers(text, option=option, names=("x", "y") + names, optional=optional), None
