@@ -58,6 +58,7 @@ def execute_task(task: Task, measure, keep_segments: bool = False) -> dict:
         row.update(status="failed", error="out of memory (lower run.max_segments or the run length)")
         return payload
     row["n_segments"] = int(system.n_segments)
+    row["n_plants"] = int(system.n_plants)
     row.update(traits)
     payload.update(profile=profile, samples=samples)
     if keep_segments:
