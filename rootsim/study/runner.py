@@ -144,7 +144,10 @@ def _pool_runner(workers: int):
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
-    executor = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
+    # fork where available: workers start from this process with rootsim already imported (no re-import of
+    # the caller's script, which spawn would need to be guarded by ``if __name__ == "__main__"``)
+    method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
+    executor = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context(method),
                                    initializer=_warm_worker)
 
     def submit(tasks, measure, keep):
@@ -227,6 +230,7 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
             close()
     if out is None:
         return _combine_payloads(plan, payloads)
+    shutil.rmtree(out / PARTIAL, ignore_errors=True)
     results = read_results(out, plan=plan)
     results.write(out, kind=plan.kind)
     return results
