@@ -106,16 +106,24 @@ def samples_needed(mean: float, sd: float, *, relative_difference: float, power:
     """Samples per variant for a two-sided two-sample t test to detect ``relative_difference`` x ``mean``.
 
     Effect size d = relative_difference x mean / sd (Cohen's d); solved with statsmodels' ``TTestIndPower``.
-    Returns NaN when the mean or SD is zero or not finite, and the answer rounded up to a whole sample.
+    Returns NaN when the mean or SD is zero or not finite (or the solver finds no answer), and the answer
+    rounded up to a whole sample, at least 2.
     """
     from statsmodels.stats.power import TTestIndPower
 
     if not (np.isfinite(mean) and np.isfinite(sd)) or mean <= 0 or sd <= 0:
         return math.nan
+    import warnings
+
     effect = relative_difference * mean / sd
-    n = TTestIndPower().solve_power(effect_size=effect, alpha=alpha, power=power, ratio=1.0,
-                                    alternative="two-sided")
-    return float(math.ceil(float(np.squeeze(n)) - 1e-9))
+    analysis = TTestIndPower()
+    if analysis.power(effect_size=effect, nobs1=2, alpha=alpha, ratio=1.0, alternative="two-sided") >= power:
+        return 2.0  # the smallest sample with a variance estimate already has the power asked for
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        n = float(np.squeeze(analysis.solve_power(effect_size=effect, alpha=alpha, power=power, ratio=1.0,
+                                                  alternative="two-sided")))
+    return float(math.ceil(n - 1e-9)) if math.isfinite(n) else math.nan
 
 
 def power_table(samples: pd.DataFrame | None, profiles: pd.DataFrame, runs: pd.DataFrame, *, reference,
