@@ -29,6 +29,16 @@ def system_at_day(system, day: float):
 def _profile_rows(system, measure: Measure, day: float, area: float) -> dict:
     from ..analysis.profile import depth_layer_lengths
 
+    if measure.intervals_cm:
+        from ..fitting import interval_rld
+
+        tops = np.array([p[0] for p in measure.intervals_cm], float)
+        bottoms = np.array([p[1] for p in measure.intervals_cm], float)
+        rld = interval_rld(system, tops, bottoms, area_cm2=area)
+        return {"day": np.full(tops.size, day), "order": np.full(tops.size, ALL_ORDERS, dtype=np.int64),
+                "depth_top_cm": tops, "depth_bottom_cm": bottoms,
+                "root_length_cm": rld * (bottoms - tops) * area, "rld_cm_per_cm3": rld}
+
     h = measure.layer_cm
     n_layers = int(np.ceil(measure.max_depth_cm / h - 1e-9))
     order = np.asarray(system["order"], dtype=np.int64)
@@ -98,12 +108,13 @@ def measure_run(system, measure: Measure, *, final_day: float) -> tuple[dict, "o
 
     area = system.ground_area_cm2
     wanted = list(measure.traits) if measure.traits is not None else list(DEFAULT_TRAITS)
-    traits = root_traits(system)
+    traits = root_traits(system) if wanted else {}
     row = {}
     for name in wanted:
         value = traits.get(name)
         row[name] = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else np.nan
-    for order, length in traits["length_by_order_cm"].items():
+    by_order = np.bincount(np.asarray(system["order"], dtype=np.int64), weights=np.asarray(system["length_cm"]))
+    for order, length in enumerate(by_order):
         row[f"length_order_{order}_cm"] = float(length)
     if measure.length_below_cm:
         cum = cumulative_depth(-np.asarray(system["z0"]), -np.asarray(system["z1"]), np.asarray(system["length_cm"]))

@@ -14,7 +14,7 @@ Schema (paths are relative to the study file)::
                | files = ["soil_a.toml", ...] (parameter-file layers: soils, seasons)
     [[variants]]                         # design kind "variants"
                name, files = [...] (layers over the base), set = { "key.path" = value, ... }
-    [measure]  layer_cm, max_depth_cm, days, traits, length_below_cm, segments,
+    [measure]  layer_cm, max_depth_cm, days, intervals_cm (instead of layers: [[top, bottom], ...]), traits, length_below_cm, segments,
                cores = [{x_cm, y_cm, diameter_cm, depth_cm, increment_cm}], core_grid = {diameter_cm, depth_cm,
                increment_cm}, walls = ["Y,XMIN,XMAX,DEPTH,CELL"], tubes = ["X,Y,ANGLE,LENGTH,DIAMETER,FIELD"],
                capture = false           # capture outcomes: reserved for the soil-water/nutrient model
@@ -116,6 +116,7 @@ class Measure(_Model):
     layer_cm: float = Field(10.0, gt=0)
     max_depth_cm: float = Field(120.0, gt=0, le=10_000)
     days: list[float] = Field(default_factory=list)
+    intervals_cm: list[list[float]] | None = None
     traits: list[str] | None = None
     length_below_cm: list[float] = Field(default_factory=list)
     segments: bool = False
@@ -130,6 +131,9 @@ class Measure(_Model):
         if self.capture:
             raise ValueError("capture outcomes need the soil water and nutrient model, not available in this "
                              "version (allowed: false)")
+        for pair in self.intervals_cm or []:
+            if len(pair) != 2 or not 0 <= pair[0] < pair[1]:
+                raise ValueError(f"intervals_cm entries must be [top, bottom] with 0 <= top < bottom (got {pair})")
         if any(d <= 0 for d in self.days):
             raise ValueError("days must be > 0")
         if any(d <= 0 for d in self.length_below_cm):
