@@ -62,11 +62,11 @@ def test_global_fit_recovers_two_parameters_within_its_intervals():
     # Observations made with known values (2.0 cm/day, 30 degrees) on other seeds, at two dates, plus noise of
     # the stated SD; the fit's 95 % profile-likelihood intervals must hold the truth and be informative
     # (narrower than 40 % of the search box).
-    truth = parse_spec(SPEC)
+    truth = parse_spec(SPEC).with_overrides(time_step_days=1.0)
     observed = _stand_observations(truth, (8.0, 12.0), range(300, 304), np.random.default_rng(4))
     params = [FitParameter(RATE, 0.5, 4.0), FitParameter(ANGLE, 0.0, 85.0)]
     start = truth  # the start does not matter for a global search
-    result = fit_global(start, observed, params, replicates=2, population=5, generations=4, progress=False)
+    result = fit_global(start, observed, params, replicates=2, population=4, generations=4, progress=False)
     for p, value in ((params[0], 2.0), (params[1], 30.0)):
         low, high = result.intervals[p.key_path]
         assert low <= value <= high
@@ -82,7 +82,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     # the same cores and must bracket the rate the observations were made with (2.0 cm/day).
     from rootsim.analysis import root_traits
 
-    truth = parse_spec(SPEC)
+    truth = parse_spec(SPEC).with_overrides(time_step_days=1.0)
     frames, depths = [], []
     for s in (400, 401, 402, 403):
         system = grow(truth, seed=s)
@@ -95,7 +95,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     spec_file = tmp_path / "trial.toml"
     import tomlkit
 
-    spec_file.write_text("# comments survive\n" + tomlkit.dumps(SPEC))
+    spec_file.write_text("# comments survive\n" + tomlkit.dumps({**SPEC, "run": {**SPEC["run"], "time_step_days": 1.0}}))
     out = tmp_path / "fit"
     target = f"max_depth_cm={np.mean(depths):.3f}:{max(np.std(depths, ddof=1), 0.5):.3f}"
     assert main(["fit", str(spec_file), "--observed", str(tmp_path / "cores.csv"), "--observed-as", "cores",
