@@ -16,7 +16,7 @@ from scipy import stats
 
 from rootsim.cli import main
 from rootsim.study import plan_study, run_plan
-from rootsim.study.statistics import describe, differences, hedges_g, power_table, samples_needed
+from rootsim.study.statistics import describe, differences, hedges_g, holm_adjust, power_table, samples_needed
 from study_helpers import TINY_STUDY, write_study
 
 
@@ -55,6 +55,10 @@ def test_differences_match_welch_and_holm():
         running = max(running, min(1.0, (3 - k) * raw[i]))
         adjusted[i] = running
     assert out.loc[["a", "b", "c"], "p_holm"].to_numpy() == pytest.approx(adjusted)
+    from statsmodels.stats.multitest import multipletests  # the independent library's Holm
+
+    some = np.array([0.01, 0.04, 0.03, 0.005, 0.2, 0.04])
+    assert holm_adjust(some) == pytest.approx(multipletests(some, method="holm")[1])
     # Hedges' g (Hedges 1981): pooled-SD standardized difference times 1 - 3 / (4 (n1 + n2) - 9)
     a = table.x[table.variant == "a"].to_numpy()
     pooled = math.sqrt((5 * a.var(ddof=1) + 5 * ref.var(ddof=1)) / 10)
