@@ -203,15 +203,20 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
     keep = plan.measure.segments
     out = None
     pending = list(plan.tasks)
-    if out_dir is not None:
-        out = ensure_output_dir(out_dir)
-        _prepare(out, plan, resume)
-        pending = [t for t in plan.tasks if not _is_done(out, t)]
-    payloads: dict[str, dict] = {}
     runner, close = None, None
-    if pending and scheduler is not None:
+    if scheduler is not None:  # connect first: an unreachable scheduler leaves no folder behind
         runner, close = _dask_runner(scheduler)
-    elif pending and workers > 1:
+    try:
+        if out_dir is not None:
+            out = ensure_output_dir(out_dir)
+            _prepare(out, plan, resume)
+            pending = [t for t in plan.tasks if not _is_done(out, t)]
+    except BaseException:
+        if close is not None:
+            close()
+        raise
+    payloads: dict[str, dict] = {}
+    if pending and runner is None and workers > 1:
         runner, close = _pool_runner(min(workers, len(pending)))
     bar = progress_bar(total=len(plan.tasks), desc=plan.kind, unit="run", enabled=progress)
     try:
