@@ -3,7 +3,7 @@
 Invented scenario: the "Eastmoor pan trial" asks which of four cereal-like variants (steep or shallow nodal
 roots, dense or sparse laterals) puts more root length below a compacted plough pan at 25-35 cm, how sure we
 can be, and how many soil cores a field team would need to see a 20 % difference in RLD at each depth.
-The study file is params/study_compaction.toml (based on params/soil_compacted_pan.toml, which is itself
+The study file is params/studies/eastmoor_pan_trial.toml (based on params/soil_compacted_pan.toml, which is itself
 based on params/cereal_fibrous.toml).
 
 Run from the repository root (about a minute on two cores):
@@ -21,7 +21,7 @@ from pathlib import Path
 from rootsim.study import plan_study, read_results, run_plan
 from rootsim.study.report import compare_study, comparison_tables
 
-STUDY = Path(__file__).resolve().parents[1] / "params" / "study_compaction.toml"
+STUDY = Path(__file__).resolve().parents[1] / "params" / "studies" / "eastmoor_pan_trial.toml"
 
 
 def main(argv=None) -> int:

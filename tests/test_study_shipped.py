@@ -14,7 +14,7 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 def test_shipped_study_plans_four_variants_in_a_pan_soil():
-    plan = plan_study(ROOT / "params" / "study_compaction.toml")
+    plan = plan_study(ROOT / "params" / "studies" / "eastmoor_pan_trial.toml")
     assert plan.variants == ["shallow_dense", "shallow_sparse", "steep_dense", "steep_sparse"]
     assert len(plan.tasks) == 16 and len({t.seed for t in plan.tasks}) == 16
     soil = load_spec(ROOT / "params" / "soil_compacted_pan.toml")
