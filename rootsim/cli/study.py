@@ -20,9 +20,9 @@ and what to measure per run (profile layers, traits, virtual cores / walls / tub
       global sensitivity of a trait to the study's factor ranges (SALib), through the same runner
 
 examples:
-  rootsim study run params/study_compaction.toml --out results/study --workers 2
+  rootsim study run params/studies/eastmoor_pan_trial.toml --out results/study --workers 2
   rootsim study compare results/study --reference shallow_sparse
-  rootsim study sensitivity params/study_compaction.toml --method morris --trait d50_depth_cm --out results/sens
+  rootsim study sensitivity params/studies/eastmoor_pan_trial.toml --method morris --trait d50_depth_cm --out results/sens
 """
 
 

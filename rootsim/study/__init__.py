@@ -8,7 +8,7 @@
 Typical use::
 
     from rootsim.study import plan_study, run_plan
-    results = run_plan(plan_study("params/study_compaction.toml"), "results/study", workers=2)
+    results = run_plan(plan_study("params/studies/eastmoor_pan_trial.toml"), "results/study", workers=2)
     results.runs        # one row per run
 """
 
