@@ -22,7 +22,8 @@ and what to measure per run (profile layers, traits, virtual cores / walls / tub
 examples:
   rootsim study run params/studies/eastmoor_pan_trial.toml --out results/study --workers 2
   rootsim study compare results/study --reference shallow_sparse
-  rootsim study sensitivity params/studies/eastmoor_pan_trial.toml --method morris --trait d50_depth_cm --out results/sens
+  rootsim study sensitivity params/studies/eastmoor_screening.toml --method morris --trait d50_depth_cm \\
+      --samples 4 --workers 2 --out results/screening
 """
 
 
