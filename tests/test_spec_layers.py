@@ -76,3 +76,18 @@ def test_bad_bases_are_one_line_errors(tmp_path, capsys, files, target, words):
     assert err.startswith("error: ") and err.count("\n") == 1 and "based_on" in err
     for w in words:
         assert w in err
+
+
+def test_fitted_file_of_a_layered_file_still_finds_its_base(tmp_path):
+    from rootsim.fitting import fitted_toml
+
+    (tmp_path / "in").mkdir()
+    (tmp_path / "out").mkdir()
+    layered = tmp_path / "in" / "v.toml"
+    (tmp_path / "in" / "base.toml").write_text((PARAMS / "taproot_laterals.toml").read_text())
+    layered.write_text('# my variant\nbased_on = "base.toml"\n[root_classes.taproot]\nradius_cm = 0.07\n')
+    written = tmp_path / "out" / "fitted.toml"
+    written.write_text(fitted_toml(layered, {"root_classes.taproot.radius_cm": 0.09}))
+    spec = load_spec(written)
+    assert spec.root_classes["taproot"].radius_cm.value == 0.09
+    assert written.read_text().startswith("# my variant")

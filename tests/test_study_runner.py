@@ -105,7 +105,7 @@ def test_killed_study_resumes_to_the_uninterrupted_result(tmp_path):
     run_plan(plan_study(study), reference, progress=False)
     out = tmp_path / "killed"
     rng = np.random.default_rng(20261202)
-    for delay in rng.uniform(1.0, 3.0, size=3):
+    for delay in rng.uniform(1.0, 3.0, size=2):
         cmd, env = _study_cmd(study, out, "--resume")
         proc = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
         time.sleep(delay)
