@@ -199,3 +199,21 @@ def test_batch_is_the_runner_with_safe_names_and_resume(tmp_path, capsys):
     assert main(["batch", str(nul), "--days", "4", "--out", str(tmp_path / "n")]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error: ") and "control characters" in err and err.count("\n") == 1
+
+
+def test_parameter_file_layers_as_a_factor(tmp_path):
+    # soils or seasons as a factor: each level is a parameter-file layer over the base
+    (tmp_path / "loose.toml").write_text("[[soil.layers]]\ndepth_top_cm = 0.0\ndepth_bottom_cm = 200.0\n"
+                                         "penetration_resistance_mpa = 0.3\n")
+    (tmp_path / "pan.toml").write_text("[[soil.layers]]\ndepth_top_cm = 20.0\ndepth_bottom_cm = 30.0\n"
+                                       "penetration_resistance_mpa = 3.0\n")
+    text = TINY_STUDY.replace('[[factors]]\nname = "spacing"\nkey = "root_classes.taproot.interbranch_distance_cm"\n'
+                              'levels = [0.5, 1.5]', '[[factors]]\nname = "soil"\nfiles = ["loose.toml", "pan.toml"]')
+    plan = plan_study(write_study(tmp_path, text))
+    by_variant = {t.variant: t for t in plan.tasks}
+    assert sorted(by_variant) == ["angle-45_soil-loose", "angle-45_soil-pan", "angle-80_soil-loose", "angle-80_soil-pan"]
+    pan = by_variant["angle-80_soil-pan"]
+    assert pan.factors == {"angle": 80.0, "soil": "pan"}
+    assert [(l.depth_top_cm, l.penetration_resistance_mpa) for l in pan.spec.soil.layers] == [(20.0, 3.0)]
+    assert by_variant["angle-80_soil-loose"].spec.soil.layers[0].penetration_resistance_mpa == 0.3
+    assert pan.spec.stand == by_variant["angle-45_soil-loose"].spec.stand  # the rest of the base is kept

@@ -65,3 +65,35 @@ max_depth_cm = 40.0
     assert main(["study", "sensitivity", str(study), "--method", "morris", "--trait", "nope", "--samples", "4",
                  "--out", str(out), "--resume"]) == 2
     assert "not measured" in capsys.readouterr().err
+
+
+def test_sobol_through_the_cli_and_its_sample_size_rule(tmp_path, capsys):
+    study = write_study(tmp_path, f'''
+name = "sobol_smoke"
+base = "{PARAMS / 'taproot_laterals.toml'}"
+master_seed = 6
+[run]
+duration_days = 6
+[design]
+kind = "latin_hypercube"
+samples = 2
+[[factors]]
+name = "taproot_rate"
+key = "root_classes.taproot.elongation_rate_cm_per_day"
+range = [1.0, 3.0]
+[[factors]]
+name = "lateral_radius"
+key = "root_classes.lateral_first.radius_cm"
+range = [0.01, 0.05]
+''')
+    assert main(["study", "sensitivity", str(study), "--method", "sobol", "--trait", "total_length_cm",
+                 "--samples", "3", "--out", str(tmp_path / "bad")]) == 2
+    assert "power of 2" in capsys.readouterr().err and not (tmp_path / "bad").exists()
+    out = tmp_path / "sobol"
+    assert main(["study", "sensitivity", str(study), "--method", "sobol", "--trait", "total_length_cm",
+                 "--samples", "4", "--out", str(out)]) == 0
+    table = pd.read_csv(out / "sensitivity.csv")
+    assert list(table.columns) == ["trait", "factor", "first_order", "first_order_conf", "total", "total_conf"]
+    assert len(pd.read_parquet(out / "runs.parquet")) == 4 * (2 + 2)  # Saltelli: N (d + 2) points
+    radius = table.set_index("factor").loc["lateral_radius"]
+    assert radius.total == pytest.approx(0.0, abs=1e-12)  # radius cannot change total length
