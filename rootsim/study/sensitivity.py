@@ -14,7 +14,6 @@ the runs are parallel and resumable like any study. The trait of a point is its 
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
