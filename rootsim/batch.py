@@ -1,4 +1,8 @@
-"""Batches: many architecture variants x stochastic replicates, serially or on Dask.
+"""Batches: many architecture variants x stochastic replicates, serially, on a process pool or on Dask.
+
+A batch is a thin form of a study: :func:`run_batch` runs its (variant, replicate) tasks through
+:func:`rootsim.study.runner.run_plan`, so a killed batch resumes (``resume=True``) and a folder of another batch
+is refused.
 
 Replicate ``r`` of a variant is grown with the seed
 ``SeedSequence(run_seed).spawn(r + 1)[r].generate_state(1)[0]``, where ``run_seed`` is the variant's
@@ -8,14 +12,13 @@ never on which other variants are in the batch, on the number of workers or on t
 
 from __future__ import annotations
 
-import json
 import os
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from .atomic import atomic_write_text, ensure_output_dir
+from .errors import RootsimError
 from .spec import Spec
 
 __all__ = ["replicate_seed", "BatchRun", "plan_batch", "run_batch"]
@@ -49,8 +52,6 @@ def plan_batch(specs: list[Spec], *, replicates: int = 1, seed: int | None = Non
     seed : int, optional
         Batch seed replacing each variant's ``run.seed``.
     """
-    from .errors import RootsimError
-
     names = [s.name for s in specs]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
@@ -66,95 +67,52 @@ def plan_batch(specs: list[Spec], *, replicates: int = 1, seed: int | None = Non
     return runs
 
 
-def _grow_one(run: BatchRun, out_dir: str | None) -> dict:
-    from .growth import grow
-
-    system = grow(run.spec, seed=run.seed, progress=False)
-    row = {"variant": run.variant, "replicate": run.replicate, "seed": run.seed}
-    summary = system.summary()
-    row.update({k: v for k, v in summary.items() if k != "length_by_order_cm"})
-    for order, length in summary["length_by_order_cm"].items():
-        row[f"length_order_{order}_cm"] = length
-    try:
-        from .analysis import root_traits
-
-        traits = root_traits(system)
-        for key in ("d50_depth_cm", "d95_depth_cm", "width_cm", "convex_hull_volume_cm3", "gale_grigal_beta"):
-            if key in traits and np.isscalar(traits[key]):
-                row[key] = float(traits[key])
-    except Exception:  # noqa: BLE001 - traits are a bonus here; the segment table is the result
-        pass
-    if out_dir is not None:
-        run_dir = Path(out_dir) / run.variant / f"replicate_{run.replicate:03d}"
-        run_dir.mkdir(parents=True, exist_ok=True)
-        system.write(run_dir / "segments.parquet")
-        atomic_write_text(run_dir / "summary.json", json.dumps({**summary, "seed": run.seed,
-                                                                "variant": run.variant}, indent=2) + "\n")
-        row["directory"] = str(run_dir)
-    return row
-
-
-def _dask_client(workers: int, scheduler: str | None):
-    """A Dask client on a new local cluster of ``workers`` processes, or on the scheduler at ``scheduler``."""
-    from dask.distributed import Client, LocalCluster
-
-    from .errors import RootsimError
-
-    if scheduler is None:
-        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
-        return Client(cluster), cluster
-    try:
-        return Client(scheduler, timeout="10s"), None
-    except (OSError, TimeoutError, ValueError, TypeError) as exc:
-        raise RootsimError(f"cannot connect to the Dask scheduler at {scheduler} "
-                           f"({' '.join(str(exc).split())[:120]})") from None
-
-
 def run_batch(runs: list[BatchRun], *, out_dir: str | os.PathLike | None = None, workers: int = 1,
-              scheduler: str | None = None, progress: bool | None = None):
+              scheduler: str | None = None, progress: bool | None = None, resume: bool = False,
+              keep_segments: bool = True):
     """Grow every run; return a :class:`pandas.DataFrame` with one row per run (sorted by variant, replicate).
+
+    A batch is a thin form of a study (:mod:`rootsim.study.runner`): the same execution, per-run atomic commit,
+    resume and refusal of a folder holding another batch or study.
 
     Parameters
     ----------
     runs : list of BatchRun
         From :func:`plan_batch`.
     out_dir : path-like, optional
-        Write ``OUT/<variant>/replicate_<r>/segments.parquet`` and ``summary.json`` per run, and
-        ``OUT/batch.csv``.
+        Write ``OUT/<variant>/replicate_<r>/`` per run (``segments.parquet``, ``summary.json``, ``run.json``,
+        ``profile.parquet``), then ``OUT/batch.csv`` and ``OUT/runs.parquet``. Variant names become folder names
+        through :func:`rootsim.path_names.safe_path_component`.
     workers : int
-        1: serial in this process. More: a local Dask cluster with that many worker processes.
+        1: serial in this process. More: a process pool with that many workers.
     scheduler : str, optional
         Address of a running Dask scheduler (e.g. ``tcp://10.0.0.5:8786``) to run on instead.
     progress : bool, optional
         Progress bar on stderr (default: when stderr is a terminal).
+    resume : bool
+        Finish a killed batch in ``out_dir`` (finished runs are kept).
+    keep_segments : bool
+        Write each run's segment table (default).
     """
-    import pandas as pd
+    from .study.design import StudyPlan, Task
+    from .study.runner import run_plan
+    from .study.schema import Measure
+    from .path_names import safe_path_component
 
-    from .progress import progress_bar
-
-    rows = []
-    client = cluster = None
-    if workers > 1 or scheduler is not None:
-        client, cluster = _dask_client(workers, scheduler)
-    out = None if out_dir is None else str(ensure_output_dir(out_dir))  # only once the workers are there
-    with progress_bar(total=len(runs), desc="batch", unit="run", enabled=progress) as bar:
-        if client is None:
-            for run in runs:
-                rows.append(_grow_one(run, out))
-                bar.update(1)
-        else:
-            from dask.distributed import as_completed
-
-            try:
-                futures = [client.submit(_grow_one, run, out, pure=False) for run in runs]
-                for fut in as_completed(futures):
-                    rows.append(fut.result())
-                    bar.update(1)
-            finally:
-                client.close()
-                if cluster is not None:
-                    cluster.close()
-    table = pd.DataFrame(rows).sort_values(["variant", "replicate"], kind="stable").reset_index(drop=True)
-    if out is not None:
-        atomic_write_text(Path(out) / "batch.csv", table.to_csv(index=False))
-    return table
+    measure = Measure(traits=["n_plants", "n_tips", "total_length_cm", "max_depth_cm", "d50_depth_cm",
+                              "d95_depth_cm", "width_cm", "convex_hull_volume_cm3", "gale_grigal_beta"],
+                      segments=keep_segments)
+    tasks, seen = [], {}
+    for run in runs:
+        folder = safe_path_component(run.variant, what=f"{run.spec.source}: name")
+        if seen.setdefault(folder, run.variant) != run.variant:
+            raise RootsimError(f"{run.spec.source}: name: variants {seen[folder]!r} and {run.variant!r} give the same "
+                               f"folder name {folder!r} (allowed: names that differ in letters, digits or . _ + -)")
+        tasks.append(Task(f"{folder}__r{run.replicate:03d}", run.variant, 0, run.replicate, run.seed, {}, run.spec,
+                          None, folder=f"{folder}/replicate_{run.replicate:03d}"))
+    tasks.sort(key=lambda t: (t.variant, t.replicate))
+    plan = StudyPlan("batch", tasks, measure, [], kind="batch")
+    table = run_plan(plan, out_dir, workers=workers, scheduler=scheduler, resume=resume, progress=progress).runs
+    if out_dir is not None:
+        table["directory"] = [str(Path(out_dir) / f) for f in table["folder"]]
+    return table.drop(columns=["folder"])

@@ -23,7 +23,7 @@ from .distributions import Fixed, Normal, Uniform
 from .errors import RootsimError, SpecError
 from .spec import Spec, parse_spec
 
-__all__ = ["FitParameter", "parse_fit_parameter", "read_observed_profile", "with_parameter", "interval_rld",
+__all__ = ["FitParameter", "parse_fit_parameter", "read_observed_profile", "read_observations", "with_parameter", "interval_rld",
            "fit_profile", "FitResult", "fitted_toml"]
 
 
@@ -50,11 +50,29 @@ def parse_fit_parameter(text: str) -> FitParameter:
     return FitParameter(key.strip(), lo, hi)
 
 
-def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
-    """Read an observed RLD profile (CSV with ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``).
+def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  # noqa: F821
+    """Read observed RLD (CSV): ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, and optionally
 
-    Any CSV written by ``rootsim analyze`` (profile.csv) or ``rootsim sample`` (cores.csv) has these columns.
-    Rows with the same depth interval (e.g. several cores) are averaged.
+    * ``day`` – days after sowing of the sampling date (several dates may be given; default: the run's end);
+    * ``rld_sd_cm_per_cm3`` – standard deviation of each observation (> 0), used as a weight 1 / SD²;
+    * ``x_cm``, ``y_cm``, ``diameter_cm`` – the core each row was measured in (as in ``rootsim sample``'s
+      cores.csv); needed with ``as_cores=True``, when the simulated observation is taken with the same cores.
+
+    Rows of the same date, core position and depth interval (replicate cores) are averaged; their SDs are
+    combined as the root mean square divided by the square root of their number (SD of the mean).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``day`` (NaN where not given), ``x_cm``, ``y_cm``, ``diameter_cm`` (NaN for a whole-stand
+        profile), ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, ``rld_sd_cm_per_cm3`` (NaN where not
+        given), sorted by day, core and depth.
+
+    Raises
+    ------
+    RootsimError
+        Missing file or columns, no rows, non-finite or negative values, or overlapping depth intervals within
+        one date and core (one line naming the file and the rows).
     """
     import pandas as pd
 
@@ -64,21 +82,73 @@ def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
     except FileNotFoundError:
         raise RootsimError(f"{path}: no such file (expected a CSV with depth_top_cm, depth_bottom_cm, "
                            "rld_cm_per_cm3)") from None
+    except pd.errors.EmptyDataError:
+        raise RootsimError(f"{path}: empty file (expected a header depth_top_cm, depth_bottom_cm, rld_cm_per_cm3 "
+                           "and at least one row)") from None
     except (OSError, ValueError, pd.errors.ParserError) as exc:
         raise RootsimError(f"{path}: not a readable CSV ({' '.join(str(exc).split())[:120]})") from None
     need = ["depth_top_cm", "depth_bottom_cm", "rld_cm_per_cm3"]
+    core_cols = ["x_cm", "y_cm", "diameter_cm"]
+    if as_cores:
+        need = need + core_cols
     missing = [c for c in need if c not in table]
     if missing:
         raise RootsimError(f"{path}: missing column(s) {', '.join(missing)} (required: {', '.join(need)})")
-    table = table[need].apply(pd.to_numeric, errors="coerce")
+    if table.empty:
+        raise RootsimError(f"{path}: header but no rows (need at least one observation)")
+    optional = [c for c in ("day", "rld_sd_cm_per_cm3") if c in table]
+    table = table[need + optional].apply(pd.to_numeric, errors="coerce").astype(float)
     if table.isna().any().any() or not np.isfinite(table.to_numpy()).all():
-        raise RootsimError(f"{path}: depth_top_cm, depth_bottom_cm and rld_cm_per_cm3 must be finite numbers")
+        bad = int(np.flatnonzero(~np.isfinite(table.to_numpy()).all(axis=1))[0])
+        raise RootsimError(f"{path}: row {bad + 2}: {', '.join(need + optional)} must be finite numbers")
     if (table["depth_bottom_cm"] <= table["depth_top_cm"]).any() or (table["depth_top_cm"] < 0).any():
         raise RootsimError(f"{path}: every row needs 0 <= depth_top_cm < depth_bottom_cm")
     if (table["rld_cm_per_cm3"] < 0).any():
         raise RootsimError(f"{path}: rld_cm_per_cm3 must be >= 0")
-    if table.empty:
-        raise RootsimError(f"{path}: no rows")
+    if "day" in table and not (table["day"] > 0).all():
+        raise RootsimError(f"{path}: day must be > 0 (days after sowing)")
+    if "rld_sd_cm_per_cm3" in table and not (table["rld_sd_cm_per_cm3"] > 0).all():
+        raise RootsimError(f"{path}: rld_sd_cm_per_cm3 must be > 0")
+    if as_cores and not (table["diameter_cm"] > 0).all():
+        raise RootsimError(f"{path}: diameter_cm must be > 0")
+    for col in ["day", "rld_sd_cm_per_cm3"] + core_cols:
+        if col not in table:
+            table[col] = np.nan
+    keys = ["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]
+    table["_sd2"] = table["rld_sd_cm_per_cm3"] ** 2
+    grouped = table.groupby(keys, as_index=False, dropna=False).agg(
+        rld_cm_per_cm3=("rld_cm_per_cm3", "mean"), _sd2=("_sd2", "mean"), _n=("rld_cm_per_cm3", "size"))
+    grouped["rld_sd_cm_per_cm3"] = np.sqrt(grouped["_sd2"] / grouped["_n"])
+    grouped = grouped.drop(columns=["_sd2", "_n"]).sort_values(keys, kind="stable").reset_index(drop=True)
+    for _, block in grouped.groupby(["day", "x_cm", "y_cm", "diameter_cm"], dropna=False, sort=False):
+        top, bottom = block["depth_top_cm"].to_numpy(), block["depth_bottom_cm"].to_numpy()
+        clash = np.flatnonzero(top[1:] < bottom[:-1])
+        if clash.size:
+            i = int(clash[0])
+            raise RootsimError(f"{path}: overlapping depth intervals {top[i]:g}-{bottom[i]:g} cm and "
+                               f"{top[i + 1]:g}-{bottom[i + 1]:g} cm (allowed: identical intervals, averaged as "
+                               "replicates, or intervals that do not overlap)")
+    return grouped[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm", "rld_cm_per_cm3",
+                    "rld_sd_cm_per_cm3"]]
+
+
+def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
+    """Read an observed RLD profile (CSV with ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``).
+
+    Any CSV written by ``rootsim analyze`` (profile.csv) or ``rootsim sample`` (cores.csv) has these columns.
+    Rows with the same depth interval (e.g. several cores) are averaged. See :func:`read_observations` for
+    dates, weights and cores (used by the global fit).
+    """
+    import pandas as pd
+
+    path = Path(path)
+    try:
+        head = pd.read_csv(path, nrows=0)
+    except (OSError, ValueError, pd.errors.ParserError):
+        head = None
+    table = read_observations(path)
+    if head is not None and "day" in head and table["day"].nunique() > 1:
+        raise RootsimError(f"{path}: observations on several days; fit them with --method global")
     return (table.groupby(["depth_top_cm", "depth_bottom_cm"], as_index=False)["rld_cm_per_cm3"].mean()
             .sort_values("depth_top_cm", kind="stable").reset_index(drop=True))
 
@@ -135,19 +205,36 @@ def with_parameter(spec: Spec, key_path: str, value: float) -> Spec:
 def interval_rld(system, top_cm: np.ndarray, bottom_cm: np.ndarray, *, area_cm2: float) -> np.ndarray:
     """RLD (cm/cm³) of ``system`` in arbitrary depth intervals, root length clipped exactly along segments.
 
+    The interval boundaries cut the soil into a few elementary layers; segments inside one layer (most of
+    them) are summed with one ``numpy.bincount`` on the layer index, and only segments crossing a boundary are
+    split (length shared in proportion to the depth range inside each layer). No sorting of all end points.
+
     Parameters
     ----------
     system : RootSystem or mapping of columns
     top_cm, bottom_cm : ndarray, shape (k,)
-        Interval depths, cm (positive downward).
+        Interval depths, cm (positive downward); intervals are half-open ``[top, bottom)``.
     area_cm2 : float
         Ground area the profile refers to.
     """
-    from .analysis.depth_distribution import cumulative_depth
-
-    cum = cumulative_depth(-np.asarray(system["z0"]), -np.asarray(system["z1"]), np.asarray(system["length_cm"]))
     top, bottom = np.asarray(top_cm, float), np.asarray(bottom_cm, float)
-    return (cum.at(bottom) - cum.at(top)) / ((bottom - top) * area_cm2)
+    d0, d1 = -np.asarray(system["z0"], float), -np.asarray(system["z1"], float)
+    length = np.asarray(system["length_cm"], float)
+    upper, lower = np.minimum(d0, d1), np.maximum(d0, d1)
+    edges = np.unique(np.concatenate([top, bottom]))
+    # bin j (1..m-1) is [edges[j-1], edges[j]); 0 is above the first edge, m below the last
+    first = np.searchsorted(edges, upper, side="right")
+    last = np.searchsorted(edges, lower, side="right")
+    inside = first == last
+    per_bin = np.bincount(first[inside], weights=length[inside], minlength=edges.size + 1).astype(np.float64)
+    cross = np.flatnonzero(~inside)
+    if cross.size:
+        a, b, w = upper[cross, None], lower[cross, None], length[cross, None] / (lower[cross] - upper[cross])[:, None]
+        overlap = np.clip(np.minimum(b, edges[None, 1:]) - np.maximum(a, edges[None, :-1]), 0.0, None)
+        per_bin[1:edges.size] += (w * overlap).sum(axis=0)
+    cumulative = np.concatenate([[0.0], np.cumsum(per_bin[1:edges.size])])  # length between edges[0] and each edge
+    at = lambda depth: cumulative[np.searchsorted(edges, depth)]  # noqa: E731 - depth is one of the edges
+    return (at(bottom) - at(top)) / ((bottom - top) * area_cm2)
 
 
 @dataclass
@@ -265,6 +352,8 @@ def fitted_toml(spec_path, values: dict[str, float]) -> str:
     import tomlkit
 
     doc = tomlkit.parse(Path(spec_path).read_text(encoding="utf-8"))
+    if isinstance(doc.get("based_on"), str):  # the fitted file is written elsewhere: keep its base reachable
+        doc["based_on"] = str((Path(spec_path).parent / str(doc["based_on"])).resolve())
     for key_path, value in values.items():
         parts = key_path.split(".")
         node = doc

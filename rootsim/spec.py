@@ -36,7 +36,7 @@ from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distri
 from .errors import SpecError
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
-           "load_spec", "parse_spec", "PARAMETER_RANGES"]
+           "load_spec", "load_spec_layers", "merge_layers", "parse_spec", "PARAMETER_RANGES"]
 
 
 def _to_distribution(value):
@@ -283,24 +283,114 @@ class _RangeError(ValueError):
 # -- loading -------------------------------------------------------------------------------------
 
 def load_spec(path: str | os.PathLike) -> Spec:
-    """Read and validate a TOML parameter file.
+    """Read and validate a TOML parameter file (with its ``based_on`` layers, see :func:`load_spec_layers`).
 
     Raises
     ------
     SpecError
-        For a missing or unreadable file, invalid TOML, or any invalid key or value.
+        For a missing or unreadable file, invalid TOML, a missing or cyclic base file, or any invalid key or value.
     """
-    path = Path(path)
+    data, _ = load_spec_layers(path)
+    return parse_spec(data, source=str(path))
+
+
+def _read_toml_table(path: Path, *, referrer: str | None = None) -> dict:
+    where = (referrer, "based_on") if referrer else (str(path), "")
     try:
         text = path.read_bytes().decode("utf-8")
     except FileNotFoundError:
+        if referrer:
+            raise SpecError(referrer, "based_on", f"base file {str(path)!r} does not exist",
+                            "a parameter file path, relative to the file naming it") from None
         raise SpecError(str(path), "", "no such file", "a path to a .toml parameter file") from None
     except (OSError, UnicodeDecodeError) as exc:
-        raise SpecError(str(path), "", f"cannot read the file ({exc})") from None
+        raise SpecError(*where, f"cannot read {path} ({exc})") from None
     from .toml_input import parse_toml_text
 
-    data = parse_toml_text(text, source=str(path))  # size, nesting and key length bounded before parsing
-    return parse_spec(data, source=str(path))
+    return parse_toml_text(text, source=str(path))  # size, nesting and key length bounded before parsing
+
+
+def merge_layers(base: dict, top: dict, *, origins: dict | None = None, top_name: str = "", prefix: str = ""):
+    """Merge parameter table ``top`` over ``base`` (a new dict; inputs untouched).
+
+    Tables merge key by key, recursively; any other value (number, string, array, array of tables such as
+    ``soil.layers`` or ``emergence``, a distribution table ``{mean, standard_deviation}`` or ``{low, high}``)
+    in ``top`` replaces the base value whole. ``origins`` (dotted key path ->
+    file name), if given, is updated with ``top_name`` for every leaf ``top`` sets.
+    """
+    out = dict(base)
+    for key, value in top.items():
+        path = f"{prefix}.{key}" if prefix else str(key)
+        if isinstance(value, dict) and isinstance(out.get(key), dict) and not _is_distribution(value):
+            out[key] = merge_layers(out[key], value, origins=origins, top_name=top_name, prefix=path)
+        else:
+            out[key] = value
+            if origins is not None:
+                for stale in [k for k in origins if k == path or k.startswith(path + ".")]:
+                    del origins[stale]
+                _record_origins(value, path, top_name, origins)
+    return out
+
+
+def _is_distribution(value) -> bool:
+    return isinstance(value, dict) and bool({"mean", "low", "high"} & set(value))
+
+
+def _record_origins(value, path: str, name: str, origins: dict) -> None:
+    if isinstance(value, dict) and value and not _is_distribution(value):
+        for key, sub in value.items():
+            _record_origins(sub, f"{path}.{key}", name, origins)
+    else:
+        origins[path] = name
+
+
+def load_spec_layers(path: str | os.PathLike, *, _chain: tuple = ()) -> tuple[dict, dict]:
+    """Read a parameter file and the files it is ``based_on``, merged table by table.
+
+    A file may say ``based_on = "other.toml"`` (a path relative to the file itself) and set only the keys it
+    changes; :func:`merge_layers` lays it over its base, which may itself be based on another file.
+
+    Returns
+    -------
+    data : dict
+        The merged parameter table (without ``based_on``), ready for :func:`parse_spec`.
+    origins : dict
+        Dotted key path of every value set in a file -> the file that set it (for ``rootsim check``).
+
+    Raises
+    ------
+    SpecError
+        A missing base file or a cycle of bases (one line naming the file and ``based_on``), or an invalid file.
+    """
+    path = Path(path)
+    key = os.path.realpath(path)
+    if key in _chain:
+        names = [str(p) for p in _chain[_chain.index(key):]] + [key]
+        raise SpecError(str(_chain[-1]), "based_on", "cycle of base files: " + " -> ".join(Path(n).name for n in names),
+                        "a chain of bases that ends in a file without based_on")
+    if len(_chain) >= 32:
+        raise SpecError(str(path), "based_on", "more than 32 layers of base files", "at most 32")
+    data = _read_toml_table(path) if not _chain else _read_toml_table(path, referrer=_chain_source(_chain))
+    base_name = data.pop("based_on", None)
+    if base_name is None:
+        origins: dict = {}
+        _record_origins(data, "", str(path), origins)
+        return data, {k.lstrip("."): v for k, v in origins.items()}
+    if not isinstance(base_name, str) or not base_name.strip():
+        raise SpecError(str(path), "based_on", f"must be a file name (got {base_name!r})",
+                        "a parameter file path, relative to this file")
+    base_path = path.parent / base_name
+    if not base_path.is_file() and os.path.realpath(base_path) not in _chain:
+        raise SpecError(str(path), "based_on", f"base file {base_name!r} does not exist (looked for {base_path})",
+                        "a parameter file path, relative to this file")
+    base, origins = load_spec_layers(base_path, _chain=_chain + (key,))
+    if base.get("name") is not None and "name" not in data:
+        data["name"] = path.stem  # a layer is its own variant: do not inherit the base's name
+    return merge_layers(base, data, origins=origins, top_name=str(path)), origins
+
+
+def _chain_source(chain: tuple) -> str:
+    return str(chain[-1])
 
 
 def parse_spec(data: Any, *, source: str = "<spec>") -> Spec:

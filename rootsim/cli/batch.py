@@ -4,11 +4,14 @@ from __future__ import annotations
 
 COMMAND = "batch"
 ORDER = 15
-HELP = "grow several parameter files x stochastic replicates (optionally on Dask) and tabulate them"
+HELP = "grow several parameter files x stochastic replicates (process pool or Dask) and tabulate them"
 DESCRIPTION = """\
 Grow every parameter file given, each --replicates times with independent seeds, and write
   OUT/<variant>/replicate_<r>/segments.parquet and summary.json   one directory per run
-  OUT/batch.csv                                                   one row per run: totals, depths, traits
+  OUT/batch.csv, OUT/runs.parquet                                 one row per run: totals, depths, traits
+
+A batch is a thin form of 'rootsim study run': each run folder is committed whole, a killed batch is
+finished with --resume, and a folder holding another batch or study is refused.
 
 Replicate r of a variant always gets the same seed (derived from the file's run.seed, or --seed), so
 results do not depend on --workers or on which other variants are in the batch.
@@ -29,8 +32,10 @@ def register(parser) -> None:
     parser.add_argument("--step-days", type=float, metavar="D", help="override run.time_step_days")
     parser.add_argument("--max-segments", type=int, metavar="N", help="override run.max_segments")
     parser.add_argument("--workers", type=int, default=1, metavar="N",
-                        help="local Dask worker processes (default 1: run serially in this process)")
+                        help="worker processes (default 1: run serially in this process)")
     parser.add_argument("--scheduler", metavar="ADDRESS", help="run on an existing Dask scheduler instead")
+    parser.add_argument("--resume", action="store_true",
+                        help="finish a killed batch in --out (finished runs are kept, not rerun)")
 
 
 def run(args) -> int:
@@ -43,7 +48,7 @@ def run(args) -> int:
     specs = [load_spec(p).with_overrides(duration_days=args.days, time_step_days=args.step_days,
                                          max_segments=args.max_segments) for p in args.specs]
     runs = plan_batch(specs, replicates=args.replicates, seed=args.seed)
-    table = run_batch(runs, out_dir=args.out, workers=args.workers, scheduler=args.scheduler)
+    table = run_batch(runs, out_dir=args.out, workers=args.workers, scheduler=args.scheduler, resume=args.resume)
     cols = [c for c in ("variant", "replicate", "n_segments", "total_length_cm", "max_depth_cm", "d50_depth_cm")
             if c in table]
     print(table[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}"))

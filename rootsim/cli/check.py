@@ -11,6 +11,9 @@ soil and root classes is printed; on error one line names the file, the key and 
 
   error: params/x.toml: root_classes.primary.radus_cm: unknown key (allowed: did you mean 'radius_cm'? ...)
 
+A file that says based_on = "other.toml" is merged over its base table by table; check then also
+lists every merged value and the file that set it.
+
 example:
   rootsim check params/cereal_fibrous.toml
 """
@@ -55,10 +58,26 @@ def describe_spec(spec) -> str:
     return "\n".join(lines)
 
 
-def run(args) -> int:
-    from ..spec import load_spec
+def describe_layers(data: dict, origins: dict) -> str:
+    """The merged values of a layered parameter file, each with the file that set it."""
+    lines = ["merged values (file that set each value):"]
+    for key_path in sorted(origins):
+        node = data
+        for part in key_path.split("."):
+            node = node.get(part) if isinstance(node, dict) else None
+        shown = repr(node) if isinstance(node, str) else str(node)
+        shown = shown if len(shown) <= 60 else shown[:57] + "..."
+        lines.append(f"  {key_path} = {shown}   [{origins[key_path]}]")
+    return "\n".join(lines)
 
-    spec = load_spec(args.spec)
+
+def run(args) -> int:
+    from ..spec import load_spec_layers, parse_spec
+
+    data, origins = load_spec_layers(args.spec)
+    spec = parse_spec(data, source=str(args.spec))
     print(f"ok: {args.spec}")
     print(describe_spec(spec))
+    if len(set(origins.values())) > 1:
+        print(describe_layers(data, origins))
     return 0

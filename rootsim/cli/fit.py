@@ -17,10 +17,20 @@ from 'rootsim sample'; rows with the same depths are averaged). Writes
 
 A normal distribution's mean is fitted (its standard deviation kept); a uniform one is shifted.
 
-example:
+--method global searches the whole box of bounds by differential evolution, each generation run as one
+batch through the study runner (--workers N or --scheduler ADDRESS). It also takes observations on several
+dates (a 'day' column), per-observation standard deviations as weights (a 'rld_sd_cm_per_cm3' column),
+observations taken with cores at their positions (--observed-as cores: columns x_cm, y_cm, diameter_cm, as
+in cores.csv), trait targets (--target d50_depth_cm=22:2), and reports a 95% profile-likelihood interval
+for each fitted value; it also writes OUT/fit_observed_vs_fitted.png.
+
+examples:
   rootsim fit params/cereal_fibrous.toml --observed field/plot12_cores.csv --days 45 \\
       --param root_classes.nodal.initial_angle_from_vertical_deg=40:80 \\
       --param root_classes.lateral_first.max_length_cm=5:25 --replicates 2 --out results/fit
+  rootsim fit params/soil_compacted_pan.toml --observed field/cores_two_dates.csv --observed-as cores \
+      --method global --workers 2 --param root_classes.nodal.initial_angle_from_vertical_deg=25:75 \
+      --param root_classes.nodal.elongation_rate_cm_per_day=1.5:4 --out results/fit_global
 """
 
 
@@ -35,7 +45,18 @@ def register(parser) -> None:
     parser.add_argument("--seed", type=int, metavar="S", help="base seed of the replicates")
     parser.add_argument("--days", type=float, metavar="N", help="override run.duration_days (match the sampling date)")
     parser.add_argument("--step-days", type=float, metavar="D", help="override run.time_step_days")
-    parser.add_argument("--area-cm2", type=float, metavar="A", help="ground area for the simulated RLD")
+    parser.add_argument("--area-cm2", type=float, metavar="A", help="ground area for the simulated RLD (local)")
+    parser.add_argument("--method", choices=("local", "global"), default="local",
+                        help="local: Powell from the file's values (default); global: differential evolution")
+    parser.add_argument("--observed-as", choices=("stand", "cores"), default="stand",
+                        help="global: compare with the whole-stand profile or with cores at the observed positions")
+    parser.add_argument("--target", action="append", default=[], metavar="TRAIT=VALUE:SD",
+                        help="global: a trait to reproduce, with its SD (repeatable)")
+    parser.add_argument("--population", type=int, default=6, metavar="N",
+                        help="global: population per parameter (default 6)")
+    parser.add_argument("--generations", type=int, default=6, metavar="N", help="global: generations (default 6)")
+    parser.add_argument("--workers", type=int, default=1, metavar="N", help="global: worker processes")
+    parser.add_argument("--scheduler", metavar="ADDRESS", help="global: an existing Dask scheduler")
 
 
 def run(args) -> int:
@@ -54,6 +75,10 @@ def run(args) -> int:
     from ..result_folder import check_derived_file
 
     check_derived_file(args.observed)  # a sample file of an earlier run, or damaged, is refused
+    if args.method == "global":
+        return _run_global(args, spec, parameters)
+    if args.target or args.observed_as != "stand":
+        raise RootsimError("--target and --observed-as cores need --method global")
     observed = read_observed_profile(args.observed)
     result = fit_profile(spec, observed, parameters, replicates=args.replicates, seed=args.seed,
                          max_evaluations=args.max_evaluations, area_cm2=args.area_cm2)
@@ -68,4 +93,45 @@ def run(args) -> int:
     for key, value in result.values.items():
         print(f"{key} = {value:.4g}")
     print(f"objective {result.objective:.4g} (cm/cm3)^2 after {result.evaluations} evaluations; wrote {out}")
+    return 0
+
+
+def _run_global(args, spec, parameters) -> int:
+    import json
+    from pathlib import Path
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from ..atomic import atomic_path, atomic_write_text, ensure_output_dir
+    from ..errors import RootsimError
+    from ..fitting import fitted_toml, read_observations
+    from ..study.global_fit import fit_global, observed_vs_fitted_figure, parse_trait_target
+
+    if args.area_cm2 is not None:
+        raise RootsimError("--area-cm2 is for --method local (the global fit uses the stand's area or the cores)")
+    targets = [parse_trait_target(t) for t in args.target]
+    observed = read_observations(args.observed, as_cores=args.observed_as == "cores")
+    result = fit_global(spec, observed, parameters, as_cores=args.observed_as == "cores", targets=targets,
+                        replicates=args.replicates, seed=args.seed, population=args.population,
+                        generations=args.generations, workers=args.workers, scheduler=args.scheduler,
+                        source=str(args.observed))
+    figure = observed_vs_fitted_figure(result.profile)
+    FigureCanvasAgg(figure)
+    out = ensure_output_dir(args.out)
+    report = {"spec_file": str(args.spec), "observed": str(args.observed), "method": "differential evolution",
+              "observed_as": args.observed_as, "values": result.values,
+              "interval_95": {k: list(v) for k, v in result.intervals.items()},
+              "objective_chi2": result.objective, "evaluations": result.evaluations,
+              "replicates": args.replicates, "targets": {t.name: [t.value, t.sd] for t in targets},
+              "fitted_traits": result.traits, "bounds": {p.key_path: [p.low, p.high] for p in parameters}}
+    atomic_write_text(Path(out) / "fit_history.csv", result.history.to_csv(index=False))
+    atomic_write_text(Path(out) / "fit_profile.csv", result.profile.to_csv(index=False))
+    atomic_write_text(Path(out) / "fitted_spec.toml", fitted_toml(args.spec, result.values))
+    with atomic_path(Path(out) / "fit_observed_vs_fitted.png") as tmp:
+        figure.savefig(tmp, format="png")
+    atomic_write_text(Path(out) / "fit.json", json.dumps(report, indent=2) + "\n")
+    for key, value in result.values.items():
+        low, high = result.intervals[key]
+        print(f"{key} = {value:.4g} (95% interval {low:.4g} to {high:.4g})")
+    print(f"chi-square {result.objective:.4g} after {result.evaluations} evaluations; wrote {out}")
     return 0

@@ -1,0 +1,228 @@
+"""``rootsim study compare``: tables, figures and one self-contained HTML report of a finished study.
+
+Everything is computed and drawn in memory first, then written into a fresh folder that replaces the old
+report in one rename, so a failed comparison never leaves a half-written report.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import os
+import shutil
+import uuid
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import RootsimError
+from .runner import read_results
+from .statistics import differences, power_table, summarize
+
+__all__ = ["compare_study", "comparison_tables", "report_html"]
+
+#: Trait columns compared when present (in this order); other numeric trait columns follow.
+_ID_COLUMNS = {"run_id", "variant", "replicate", "seed", "folder", "status", "error", "n_segments", "n_plants",
+               "directory"}
+
+
+def _trait_columns(runs: pd.DataFrame, factor_names) -> list[str]:
+    skip = _ID_COLUMNS | set(factor_names)
+    return [c for c in runs.columns if c not in skip and pd.api.types.is_numeric_dtype(runs[c])
+            and runs[c].notna().any()]
+
+
+def comparison_tables(results, *, reference=None, difference: float = 0.2, power: float = 0.8,
+                      alpha: float = 0.05) -> dict[str, pd.DataFrame]:
+    """The comparison tables of a study: trait and RLD-layer summaries, differences, power.
+
+    Returns
+    -------
+    dict of DataFrame
+        ``trait_summary``, ``trait_differences``, ``rld_summary``, ``rld_differences``, ``power``.
+    """
+    for name, value, low, high in (("--difference", difference, 0, 10), ("--power", power, 0, 1),
+                                   ("--alpha", alpha, 0, 1)):
+        if not (low < value < high):
+            raise RootsimError(f"{name} must be between {low} and {high} (exclusive), got {value:g}")
+    runs = results.runs
+    ok = runs[runs["status"] == "ok"]
+    variants = list(dict.fromkeys(runs["variant"]))
+    if reference is None:
+        reference = variants[0]
+    if reference not in variants:
+        raise RootsimError(f"--reference {reference!r}: no such variant (allowed: {', '.join(variants)})")
+    if ok.empty:
+        raise RootsimError("no successful runs to compare (see the error column of runs.parquet)")
+    confidence = 1 - alpha
+    traits = _trait_columns(ok, results.factor_names)
+    prof = results.profiles
+    prof = prof[(prof["order"] == -1) & (prof["day"] == prof["day"].max()) & prof["run_id"].isin(ok["run_id"])]
+    labels = prof["depth_top_cm"].map("{:g}".format) + "-" + prof["depth_bottom_cm"].map("{:g}".format) + " cm"
+    wide = prof.assign(layer=labels.to_numpy()).pivot_table(index=["run_id", "variant"], columns="layer",
+                                                            values="rld_cm_per_cm3", sort=False).reset_index()
+    layers = list(dict.fromkeys(labels))
+    return {
+        "trait_summary": summarize(ok, traits, order=variants, confidence=confidence),
+        "trait_differences": differences(ok, traits, reference=reference, order=variants, confidence=confidence),
+        "rld_summary": summarize(wide, layers, order=variants, confidence=confidence).rename(columns={"measure": "layer"}),
+        "rld_differences": differences(wide, layers, reference=reference, order=variants,
+                                       confidence=confidence).rename(columns={"measure": "layer"}),
+        "power": power_table(results.samples, results.profiles[results.profiles["run_id"].isin(ok["run_id"])], ok,
+                             reference=reference, relative_difference=difference, power=power, alpha=alpha),
+    }
+
+
+def _figure_profiles(results, summary: pd.DataFrame):
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(6.0, 5.0), dpi=100)
+    ax = fig.add_subplot()
+    for variant, block in summary.groupby("variant", sort=False):
+        bounds = block["layer"].str.replace(" cm", "").str.split("-", expand=True).astype(float)
+        mid = bounds.mean(axis=1).to_numpy()
+        line, = ax.plot(block["mean"], mid, marker="o", ms=3, label=str(variant))
+        ax.fill_betweenx(mid, block["ci_low"], block["ci_high"], color=line.get_color(), alpha=0.2, lw=0)
+    ax.invert_yaxis()
+    ax.set_xlabel("RLD, cm cm$^{-3}$ (mean, 95% CI band over replicates)")
+    ax.set_ylabel("depth, cm")
+    ax.legend(fontsize=8)
+    fig.tight_layout()
+    return fig
+
+
+def _figure_traits(runs: pd.DataFrame, traits: list[str], variants: list):
+    from matplotlib.figure import Figure
+
+    shown = traits[:6]
+    cols = 2
+    rows = max(1, -(-len(shown) // cols))
+    fig = Figure(figsize=(7.0, 2.4 * rows), dpi=100)
+    rng = np.random.default_rng(0)  # horizontal jitter of the points only
+    for i, trait in enumerate(shown):
+        ax = fig.add_subplot(rows, cols, i + 1)
+        for k, v in enumerate(variants):
+            y = runs.loc[runs["variant"] == v, trait].to_numpy(float)
+            ax.plot(k + rng.uniform(-0.12, 0.12, y.size), y, "o", ms=3, alpha=0.7)
+            if y.size:
+                ax.plot([k - 0.25, k + 0.25], [np.nanmean(y)] * 2, "k-", lw=1.5)
+        ax.set_xticks(range(len(variants)))
+        ax.set_xticklabels([str(v) for v in variants], rotation=30, ha="right", fontsize=7)
+        ax.set_title(trait, fontsize=8)
+    fig.tight_layout()
+    return fig
+
+
+def _figure_power(power: pd.DataFrame, difference: float):
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(6.0, 4.0), dpi=100)
+    ax = fig.add_subplot()
+    labels = [f"{a:g}-{b:g}" for a, b in zip(power["depth_top_cm"], power["depth_bottom_cm"])]
+    y = np.arange(len(labels))
+    ax.barh(y - 0.2, power["cores_needed"].fillna(0), height=0.4, label="cores per variant")
+    ax.barh(y + 0.2, power["plants_needed"].fillna(0), height=0.4, label="plants per variant")
+    ax.set_yticks(y)
+    ax.set_yticklabels(labels)
+    ax.invert_yaxis()
+    ax.set_xscale("symlog", linthresh=10)
+    ax.set_xlabel(f"samples needed to detect a {difference:.0%} RLD difference (80% power)")
+    ax.set_ylabel("depth layer, cm")
+    ax.legend(fontsize=8)
+    fig.tight_layout()
+    return fig
+
+
+def _png(fig) -> bytes:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    FigureCanvasAgg(fig)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    return buf.getvalue()
+
+
+def report_html(title: str, intro: str, sections: list[tuple[str, str, object]]) -> str:
+    """A self-contained HTML page: ``sections`` are (heading, text, DataFrame or PNG bytes); no external links."""
+    parts = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
+             '<meta name="viewport" content="width=device-width, initial-scale=1">',
+             f"<title>{html.escape(title)}</title>",
+             "<style>body{font-family:sans-serif;margin:1em;max-width:60em}img{max-width:100%;height:auto}"
+             ".scroll{overflow-x:auto}table{border-collapse:collapse;font-size:0.85em}"
+             "td,th{border:1px solid #ccc;padding:2px 6px;text-align:right}</style></head><body>",
+             f"<h1>{html.escape(title)}</h1>", f"<p>{html.escape(intro)}</p>"]
+    for heading, text, content in sections:
+        parts.append(f"<h2>{html.escape(heading)}</h2>")
+        if text:
+            parts.append(f"<p>{html.escape(text)}</p>")
+        if isinstance(content, bytes):
+            data = base64.b64encode(content).decode("ascii")
+            parts.append(f'<img alt="{html.escape(heading)}" src="data:image/png;base64,{data}">')
+        elif isinstance(content, pd.DataFrame):
+            parts.append('<div class="scroll">' + content.to_html(index=False, float_format=lambda v: f"{v:.4g}",
+                                                                    na_rep="", border=0) + "</div>")
+    parts.append("<p><small>Simulated results are research aids, not agronomic advice.</small></p></body></html>")
+    return "\n".join(parts) + "\n"
+
+
+def compare_study(folder, out, *, reference=None, difference: float = 0.2, power: float = 0.8,
+                  alpha: float = 0.05) -> str:
+    """Write the comparison of the study in ``folder`` into ``out`` (CSV tables, PNG figures, report.html).
+
+    Returns a short text summary. Raises :class:`RootsimError` for a folder that is not a finished study or a
+    bad option; nothing is written then.
+    """
+    results = read_results(folder)
+    tables = comparison_tables(results, reference=reference, difference=difference, power=power, alpha=alpha)
+    variants = list(dict.fromkeys(results.runs["variant"]))
+    reference = reference or variants[0]
+    ok = results.runs[results.runs["status"] == "ok"]
+    traits = _trait_columns(ok, results.factor_names)
+    figures = {"rld_profiles.png": _png(_figure_profiles(results, tables["rld_summary"])),
+               "traits.png": _png(_figure_traits(ok, traits, variants)),
+               "power.png": _png(_figure_power(tables["power"], difference))}
+    name = results.manifest.get("name", "study")
+    failed = int((results.runs["status"] != "ok").sum())
+    intro = (f"{len(results.runs)} runs of {len(variants)} variants ({failed} failed); reference variant: {reference}. "
+             f"Intervals are 95% t intervals over replicate stands; differences use Welch's t with Holm's correction "
+             f"within each trait; effect sizes are Hedges' g.")
+    html_text = report_html(f"Study {name}: comparison", intro, [
+        ("RLD profiles by variant", "Mean RLD per depth layer at the last date, with 95% CI bands.",
+         figures["rld_profiles.png"]),
+        ("RLD by depth layer", "", tables["rld_summary"]),
+        (f"RLD differences to {reference}", "", tables["rld_differences"]),
+        ("Traits", "", figures["traits.png"]),
+        ("Trait summary", "", tables["trait_summary"]),
+        (f"Trait differences to {reference}", "", tables["trait_differences"]),
+        ("Sampling power", f"Cores and plants per variant needed to detect a {difference:.0%} difference in RLD "
+         f"with {power:.0%} power at alpha = {alpha:g} (two-sided two-sample t test), from the reference "
+         f"variant's spread.", figures["power.png"]),
+        ("Sampling power table", "", tables["power"]),
+    ])
+    out = Path(out)
+    tmp = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.part"
+    try:
+        tmp.mkdir(parents=True)
+        for key, table in tables.items():
+            table.to_csv(tmp / f"{key}.csv", index=False)
+        for key, data in figures.items():
+            (tmp / key).write_bytes(data)
+        (tmp / "report.html").write_text(html_text, encoding="utf-8")
+        old = None
+        if out.exists():
+            old = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.old"
+            os.rename(out, old)
+        os.rename(tmp, out)
+        if old is not None:
+            shutil.rmtree(old, ignore_errors=True)
+    except OSError as exc:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise RootsimError(f"{out}: cannot write the report ({exc.strerror or exc})") from None
+    diff = tables["trait_differences"]
+    lines = [f"compared {len(variants)} variants against {reference}; wrote {out}/report.html and CSV tables"]
+    for _, r in diff[diff["significant_holm"]].head(8).iterrows():
+        lines.append(f"  {r['variant']}: {r['measure']} {r['difference']:+.4g} "
+                     f"(95% CI {r['ci_low']:.4g} to {r['ci_high']:.4g}, Holm p = {r['p_holm']:.3g})")
+    return "\n".join(lines)

@@ -1,0 +1,159 @@
+"""Study comparisons: interval coverage, Welch/Holm against scipy and the published procedure, sampling power
+against statsmodels and by simulation, and the HTML report parsed as a browser would."""
+
+from __future__ import annotations
+
+import base64
+import io
+import math
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import stats
+
+from rootsim.cli import main
+from rootsim.study import plan_study, run_plan
+from rootsim.study.statistics import describe, differences, hedges_g, holm_adjust, power_table, samples_needed
+from study_helpers import TINY_STUDY, write_study
+
+
+def test_t_intervals_cover_the_mean_about_95_percent_of_the_time():
+    # Coverage of the t interval on normal samples is exactly 95 % (Student 1908); checked by seeded simulation
+    # with 2000 samples of n = 5: binomial SD of the coverage is 0.49 %.
+    rng = np.random.default_rng(1908)
+    hits = 0
+    for _ in range(2000):
+        d = describe(rng.normal(3.0, 2.0, size=5))
+        hits += d["ci_low"] <= 3.0 <= d["ci_high"]
+    assert abs(hits / 2000 - 0.95) < 0.015
+
+
+def test_differences_match_welch_and_holm():
+    rng = np.random.default_rng(3)
+    table = pd.DataFrame({"variant": np.repeat(["ref", "a", "b", "c"], 6),
+                          "x": np.concatenate([rng.normal(10, 1, 6), rng.normal(13, 2, 6), rng.normal(10.5, 1, 6),
+                                               rng.normal(7, 3, 6)])})
+    out = differences(table, ["x"], reference="ref").set_index("variant")
+    ref = table.x[table.variant == "ref"]
+    raw = []
+    for v in ("a", "b", "c"):
+        x = table.x[table.variant == v]
+        welch = stats.ttest_ind(x, ref, equal_var=False)  # scipy's Welch test (independent implementation)
+        assert out.loc[v, "p_value"] == pytest.approx(welch.pvalue, rel=1e-9)
+        assert out.loc[v, "difference"] == pytest.approx(x.mean() - ref.mean())
+        ci = welch.confidence_interval(0.95)
+        assert (out.loc[v, "ci_low"], out.loc[v, "ci_high"]) == pytest.approx((ci.low, ci.high), rel=1e-9)
+        raw.append(welch.pvalue)
+    # Holm (1979): sort p ascending, multiply the k-th smallest by (m - k + 1), running maximum, cap at 1
+    order = np.argsort(raw)
+    adjusted = np.empty(3)
+    running = 0.0
+    for k, i in enumerate(order):
+        running = max(running, min(1.0, (3 - k) * raw[i]))
+        adjusted[i] = running
+    assert out.loc[["a", "b", "c"], "p_holm"].to_numpy() == pytest.approx(adjusted)
+    from statsmodels.stats.multitest import multipletests  # the independent library's Holm
+
+    some = np.array([0.01, 0.04, 0.03, 0.005, 0.2, 0.04])
+    assert holm_adjust(some) == pytest.approx(multipletests(some, method="holm")[1])
+    # Hedges' g (Hedges 1981): pooled-SD standardized difference times 1 - 3 / (4 (n1 + n2) - 9)
+    a = table.x[table.variant == "a"].to_numpy()
+    pooled = math.sqrt((5 * a.var(ddof=1) + 5 * ref.var(ddof=1)) / 10)
+    assert hedges_g(a, ref.to_numpy()) == pytest.approx((a.mean() - ref.mean()) / pooled * (1 - 3 / 39))
+
+
+def test_samples_needed_against_statsmodels_and_by_simulation():
+    from statsmodels.stats.power import tt_ind_solve_power
+
+    mean, sd, rel = 2.0, 1.0, 0.5  # effect size d = 1.0
+    n = samples_needed(mean, sd, relative_difference=rel)
+    assert n == math.ceil(tt_ind_solve_power(effect_size=1.0, alpha=0.05, power=0.8))  # 17 (Cohen 1988: 17)
+    assert n == 17
+    # by simulation: with n samples per group, Welch's t test detects the difference about 80 % of the time
+    rng = np.random.default_rng(80)
+    a = rng.normal(mean, sd, (4000, int(n)))
+    b = rng.normal(mean * (1 + rel), sd, (4000, int(n)))
+    rate = np.mean(stats.ttest_ind(a, b, axis=1).pvalue < 0.05)
+    assert 0.785 <= rate <= 0.845  # n is rounded up, so power is a little above 0.80 (SD of the rate 0.6 %)
+    assert math.isnan(samples_needed(0.0, 1.0, relative_difference=0.2))
+
+
+def test_power_table_uses_core_and_stand_spread():
+    # two replicate stands of 4 plants, two cores each; one layer 0-10 cm
+    profiles = pd.DataFrame({"run_id": ["r0", "r1"], "variant": "ref", "replicate": [0, 1], "day": 10.0, "order": -1,
+                             "depth_top_cm": 0.0, "depth_bottom_cm": 10.0, "root_length_cm": [1.0, 1.0],
+                             "rld_cm_per_cm3": [1.0, 1.4]})
+    samples = pd.DataFrame({"run_id": ["r0", "r0", "r1", "r1"], "variant": "ref", "replicate": [0, 0, 1, 1],
+                            "day": 10.0, "sampler": "core", "sampler_id": [0, 1, 0, 1], "depth_top_cm": 0.0,
+                            "depth_bottom_cm": 10.0, "root_length_cm": [10.0, 20.0, 30.0, 40.0],
+                            "volume_cm3": 10.0})
+    runs = pd.DataFrame({"run_id": ["r0", "r1"], "variant": "ref", "status": "ok", "n_plants": 4})
+    row = power_table(samples, profiles, runs, reference="ref", relative_difference=0.25).iloc[0]
+    core_sd = np.std([1.0, 2.0, 3.0, 4.0], ddof=1)
+    assert row.core_mean_cm_per_cm3 == pytest.approx(2.5) and row.core_sd_cm_per_cm3 == pytest.approx(core_sd)
+    from statsmodels.stats.power import TTestIndPower
+
+    assert row.cores_needed == math.ceil(TTestIndPower().solve_power(0.25 * 2.5 / core_sd, alpha=0.05, power=0.8))
+    plant_sd = np.std([1.0, 1.4], ddof=1) * 2.0  # stand of 4 independent plants: plant SD = stand SD x sqrt(4)
+    assert row.plant_sd_cm_per_cm3 == pytest.approx(plant_sd)
+    assert row.plants_needed == math.ceil(TTestIndPower().solve_power(0.25 * 1.2 / plant_sd, alpha=0.05, power=0.8))
+
+
+@pytest.fixture(scope="module")
+def tiny_study(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("compare")
+    run_plan(plan_study(write_study(folder, TINY_STUDY.replace("replicates = 2", "replicates = 3"))),
+             folder / "study", progress=False)
+    return folder / "study"
+
+
+def test_compare_writes_a_self_contained_report(tiny_study, capsys):
+    from lxml import html as lxml_html
+    from matplotlib.image import imread
+
+    assert main(["study", "compare", str(tiny_study), "--reference", "angle-80_spacing-1.5"]) == 0
+    out = tiny_study / "compare"
+    for name in ("trait_summary", "trait_differences", "rld_summary", "rld_differences", "power"):
+        assert (out / f"{name}.csv").is_file()
+    summary = pd.read_csv(out / "trait_summary.csv")
+    runs = pd.read_parquet(tiny_study / "runs.parquet")
+    mine = summary[(summary.variant == "angle-45_spacing-0.5") & (summary.measure == "total_length_cm")].iloc[0]
+    values = runs.total_length_cm[runs.variant == "angle-45_spacing-0.5"]
+    assert mine["mean"] == pytest.approx(values.mean()) and mine["sd"] == pytest.approx(values.std(ddof=1))
+    assert mine["n"] == 3
+    diffs = pd.read_csv(out / "trait_differences.csv")
+    assert set(diffs.reference) == {"angle-80_spacing-1.5"} and "angle-80_spacing-1.5" not in set(diffs.variant)
+    text = (out / "report.html").read_text()
+    doc = lxml_html.fromstring(text)
+    assert doc.find(".//meta[@name='viewport']") is not None  # readable on a phone
+    images = doc.findall(".//img")
+    assert len(images) == 3
+    for img in images:
+        src = img.get("src")
+        assert src.startswith("data:image/png;base64,")
+        picture = imread(io.BytesIO(base64.b64decode(src.split(",", 1)[1])), format="png")
+        assert picture.shape[0] > 100 and picture.shape[1] > 100
+    refs = [e.get(a) for e in doc.iter() for a in ("src", "href") if e.get(a)]
+    assert all(r.startswith("data:") for r in refs)  # nothing fetched from the network or the disk
+    assert len(doc.findall(".//table")) == 5
+    chromium = shutil.which("chromium") or (Path("/usr/bin/chromium") if Path("/usr/bin/chromium").exists() else None)
+    if chromium:  # a real headless browser, where the system has one
+        import subprocess
+
+        done = subprocess.run([str(chromium), "--headless", "--no-sandbox", "--dump-dom", (out / "report.html").as_uri()],
+                              capture_output=True, text=True, timeout=60)
+        assert done.returncode == 0 and "<img" in done.stdout
+
+
+def test_compare_bad_input_is_one_line_and_writes_nothing(tiny_study, tmp_path, capsys):
+    assert main(["study", "compare", str(tiny_study), "--reference", "nope", "--out", str(tmp_path / "c")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: ") and "nope" in err and "angle-45_spacing-0.5" in err and err.count("\n") == 1
+    assert not (tmp_path / "c").exists()
+    assert main(["study", "compare", str(tmp_path), "--out", str(tmp_path / "c")]) == 2
+    assert "not a study folder" in capsys.readouterr().err
+    assert main(["study", "compare", str(tiny_study), "--difference", "0", "--out", str(tmp_path / "c")]) == 2
+    assert not (tmp_path / "c").exists()
