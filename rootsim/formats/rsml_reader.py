@@ -423,17 +423,19 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
             if text is None:
                 continue
             k_parent = int(counts[parent[r]])
+            if _WHOLE_NUMBER.fullmatch(text):
+                value = _whole_number(text)
+                if value is not None and 0 <= value < k_parent:
+                    hinted[j] = True
+                    hint_value[j] = min(value, k_parent - 2)
+                    continue
             where = f"{_where(source, elements[r])} > properties > branch-segment-index"
             if not _WHOLE_NUMBER.fullmatch(text):
                 raise FormatError(f"{where}: value {text.strip()[:40]!r} is not a whole number "
                                   f"(allowed: 0 to {k_parent - 1}, a point of the parent's polyline)")
-            value = _whole_number(text)
-            if value is None or not 0 <= value < k_parent:
-                shown = text.strip() if len(text.strip()) <= 40 else text.strip()[:37] + "..."
-                raise FormatError(f"{where}: value {shown} is not a point of the parent's polyline "
-                                  f"(allowed: 0 to {k_parent - 1})")
-            hinted[j] = True
-            hint_value[j] = min(value, k_parent - 2)
+            shown = text.strip() if len(text.strip()) <= 40 else text.strip()[:37] + "..."
+            raise FormatError(f"{where}: value {shown} is not a point of the parent's polyline "
+                              f"(allowed: 0 to {k_parent - 1})")
         attach_seg[lateral[hinted]] = hint_value[hinted]
         search = lateral[~hinted]
         if len(search):
