@@ -19,7 +19,8 @@ Construction is vectorized over all roots at once:
    closed surfaces touching at its sharp bends; all are watertight with outward normals.
 4. Each piece gets flat end caps (triangle fans around a centre vertex).
 
-PLY and glTF files carry vertex colours by root order (:data:`ORDER_COLOURS_RGB`).
+PLY files carry vertex colours by root order (:data:`ORDER_COLOURS_RGB`); glTF files one
+material of that colour per root order, in metres with +Y up (:mod:`rootsim.formats.gltf`).
 An empty root system gives a valid file with no triangles in every mesh format (for .glb: an
 asset with one empty scene).
 """
@@ -339,12 +340,9 @@ def _empty_mesh_bytes(suffix: str) -> bytes:
                 b"element face 0\nproperty list uchar int vertex_indices\nend_header\n")
     if suffix == ".obj":
         return b"# rootsim tube mesh (empty root system)\n"
-    # glTF 2.0 binary: 12-byte header, then one JSON chunk (padded with spaces to 4 bytes) holding
-    # an asset with a single empty scene.
-    doc = b'{"asset":{"version":"2.0","generator":"rootsim"},"scene":0,"scenes":[{"nodes":[]}]}'
-    doc += b" " * (-len(doc) % 4)
-    chunk = len(doc).to_bytes(4, "little") + b"JSON" + doc
-    return b"glTF" + (2).to_bytes(4, "little") + (12 + len(chunk)).to_bytes(4, "little") + chunk
+    from .gltf import empty_glb_bytes
+
+    return empty_glb_bytes()  # glTF 2.0 binary: an asset with one empty scene
 
 
 def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_cm: float = 0.0,
@@ -355,7 +353,8 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
     ----------
     system : RootSystem
     path : path-like
-        ``.stl`` (binary), ``.ply`` (binary), ``.obj`` or ``.glb``; units are cm.
+        ``.stl`` (binary), ``.ply`` (binary) or ``.obj`` in cm with z up; ``.glb`` (binary glTF 2.0)
+        in metres with +Y up as that standard requires (see :mod:`rootsim.formats.gltf`).
     sides, merge_short_cm, sharp_turn_deg
         See :func:`tube_mesh_arrays`.
 
@@ -383,12 +382,11 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
         elif suffix == ".ply":
             _write_ply(tmp, arrays.vertices, arrays.faces, colours=order_colours(arrays.vertex_order))
         else:
-            import trimesh
+            from .gltf import write_glb
 
-            rgba = np.concatenate([order_colours(arrays.vertex_order),
-                                   np.full((len(arrays.vertices), 1), 255, dtype=np.uint8)], axis=1)
-            mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, vertex_colors=rgba, process=False, validate=False)
-            mesh.export(str(tmp), file_type=suffix[1:])
+            orders = np.arange(int(arrays.face_order.max()) + 1)
+            write_glb(tmp, arrays.vertices, arrays.faces, arrays.face_order, order_colours(orders),
+                      group_names=[f"root order {k}" for k in orders.tolist()])
     return path
 
 
