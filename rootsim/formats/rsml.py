@@ -101,6 +101,12 @@ def decimal_strings(values) -> list[str]:
     return strings
 
 
+def _xml_text(value) -> str:
+    """``value`` as text without the characters XML 1.0 does not allow (controls other than tab/newline)."""
+    text = str(value)
+    return "".join(ch for ch in text if ch >= " " or ch in "\t\n\r") if any(ch < " " for ch in text) else text
+
+
 def _root_tree(system, lines):
     """Parent polyline of every polyline (-1 for roots starting at the plant) and the branch index."""
     parent = np.asarray(system["parent_id"], dtype=np.int64)
@@ -126,7 +132,7 @@ def _metadata_xml(path: Path, resolution: float, user: str) -> str:
         f"    <last-modified>{stamp}</last-modified>\n"
         "    <software>rootsim</software>\n"
         f"    <user>{escape(user)}</user>\n"
-        f"    <file-key>{escape(path.stem)}</file-key>\n"
+        f"    <file-key>{escape(_xml_text(path.stem))}</file-key>\n"
         "    <property-definitions>\n"
         "      <property-definition><label>branch-segment-index</label><type>integer</type>"
         "<default>-1</default></property-definition>\n"
@@ -169,13 +175,13 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
         resolution = float("nan")
     if not np.isfinite(resolution) or resolution <= 0:
         raise FormatError(f"{path}: RSML resolution must be a number > 0")
-    user = " ".join(str(user).split()) or "unknown"
+    user = " ".join(_xml_text(user).split()) or "unknown"
     lines = polylines_from_segments(system)
     parent_poly, branch_index = _root_tree(system, lines)
     first = lines.first_segment
     plant = np.asarray(system["plant_id"], dtype=np.int64)[first]
     root_id = np.asarray(system["root_id"], dtype=np.int64)[first]
-    labels = np.asarray(system["root_class"]).astype(str)[first]
+    labels = [_xml_text(label) for label in np.asarray(system["root_class"]).astype(str)[first].tolist()]
     points = lines.points * resolution if resolution != 1.0 else lines.points
     if not np.all(np.isfinite(points)):
         raise FormatError(f"{path}: coordinates times resolution {resolution!r} are not finite numbers")
