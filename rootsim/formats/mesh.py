@@ -311,27 +311,31 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     # Ring vertex: centre + radius * (w - (w.m / t.m) t), with w the ring direction in the edge's
     # transported frame, m the ring plane normal (mitre bisector or the tangent), t the tangent.
     # With e1 = cos(theta) u + sin(theta) v (the transported frame) and e2 = t x e1, the direction
-    # at polygon angle alpha is cos(alpha) e1 + sin(alpha) e2.
+    # at polygon angle alpha is w = cos(alpha) e1 + sin(alpha) e2. The projection is linear in w,
+    # so vertex = centre + cos(alpha) E1 + sin(alpha) E2 with E_i = radius (e_i - (e_i.m / t.m) t)
+    # per ring, and the (rings, sides, 3) array is written in place in one pass per term.
     re = ring_edge
     t_r = tangent[re]
     th = theta[re][:, None]
     e1 = np.cos(th) * u[re] + np.sin(th) * v[re]
     e2 = np.cross(t_r, e1)
+    del th
+    t_dot_m = np.einsum("rk,rk->r", t_r, ring_plane)
+    scale = ring_radius / t_dot_m
+    big1 = e1 * ring_radius[:, None] - (np.einsum("rk,rk->r", e1, ring_plane) * scale)[:, None] * t_r
+    big2 = e2 * ring_radius[:, None] - (np.einsum("rk,rk->r", e2, ring_plane) * scale)[:, None] * t_r
+    del e1, e2, t_r
     alpha = (2 * np.pi / n_sides) * np.arange(n_sides)
-    w = e1[:, None, :] * np.cos(alpha)[None, :, None]  # (rings, sides, 3), built in place below
-    w += e2[:, None, :] * np.sin(alpha)[None, :, None]
-    del e1, e2, th
-    shift = np.einsum("rsk,rk->rs", w, ring_plane)
-    shift /= np.einsum("rk,rk->r", t_r, ring_plane)[:, None]
-    w -= shift[..., None] * t_r[:, None, :]
-    del shift
-    w *= ring_radius[:, None, None]
-    w += ring_center[:, None, :]
-    ring_vertices = w
+    vertices = np.empty((n_rings * n_sides + 2 * n_pieces, 3))
+    ring_vertices = vertices[:n_rings * n_sides].reshape(n_rings, n_sides, 3)
+    np.multiply(big1[:, None, :], np.cos(alpha)[None, :, None], out=ring_vertices)
+    ring_vertices += big2[:, None, :] * np.sin(alpha)[None, :, None]
+    ring_vertices += ring_center[:, None, :]
+    del big1, big2
 
     piece_last_edge = np.append(pf[1:] - 1, n_edges - 1)
-    centers = np.concatenate([a[pf], b[piece_last_edge]])
-    vertices = np.concatenate([ring_vertices.reshape(-1, 3), centers])
+    vertices[n_rings * n_sides:n_rings * n_sides + n_pieces] = a[pf]  # cap centres
+    vertices[n_rings * n_sides + n_pieces:] = b[piece_last_edge]
     cap_start = n_rings * n_sides + np.arange(n_pieces)
     cap_end = cap_start + n_pieces
 
