@@ -468,19 +468,19 @@ def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
         vertices = vertices.astype(np.float32)
         for start in range(0, len(faces), _STL_BLOCK):
             block = faces[start:start + _STL_BLOCK]
-            record = np.empty(len(block), dtype=_STL_RECORD)
-            record["attribute"] = 0
-            tri = record["vertices"]
-            for corner in range(3):
-                tri[:, corner] = vertices[block[:, corner]]
+            tri = np.take(vertices, block.ravel(), axis=0).reshape(-1, 3, 3)  # contiguous (b, 3, 3)
             e1 = tri[:, 1] - tri[:, 0]
             e2 = tri[:, 2] - tri[:, 0]
-            normal = record["normal"]
+            normal = np.empty_like(e1)
             normal[:, 0] = e1[:, 1] * e2[:, 2] - e1[:, 2] * e2[:, 1]
             normal[:, 1] = e1[:, 2] * e2[:, 0] - e1[:, 0] * e2[:, 2]
             normal[:, 2] = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
             norm = np.sqrt(np.einsum("ij,ij->i", normal, normal))
             normal /= np.where(norm > 0, norm, 1.0)[:, None]
+            record = np.empty(len(block), dtype=_STL_RECORD)
+            record["normal"] = normal
+            record["vertices"] = tri
+            record["attribute"] = 0
             record.tofile(fh)
 
 
