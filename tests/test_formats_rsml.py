@@ -236,6 +236,10 @@ MORE_BAD = {
                    'domain="polyline"><sample>0.1</sample><sample>thin</sample></function></functions></root>'
                    "</plant></scene></rsml>",
                    "plant 1 > root 7 > function diameter: sample 'thin' is not a number"),
+    "huge_coordinate": ('<rsml><metadata><unit>m</unit></metadata><scene><plant id="1"><root id="7"><geometry>'
+                        '<polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1e307"/></polyline></geometry>'
+                        "</root></plant></scene></rsml>",
+                        "plant 1 > root 7 > geometry: a coordinate is too large to measure once converted to cm"),
     "no_geometry": ('<rsml><scene><plant id="1"><root id="7"/></plant></scene></rsml>',
                     "plant 1 > root 7: no <geometry><polyline>"),  # refused with strict=True
 }

@@ -382,11 +382,19 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
                 _missing(source, elements[r], polylines[r], "z", ns)
     x_values = _to_float(xs, counts, elements, bad_coordinate("x"))
     y_values = _to_float(ys, counts, elements, bad_coordinate("y"))
-    if is_3d:
-        points = np.column_stack([x_values, y_values, z_values]) * scale
-    else:  # an image: image y (downwards) becomes depth
-        points = np.column_stack([x_values, np.zeros_like(x_values), -y_values]) * scale
+    with np.errstate(over="ignore"):  # overflow is reported below, naming the root
+        if is_3d:
+            points = np.column_stack([x_values, y_values, z_values]) * scale
+        else:  # an image: image y (downwards) becomes depth
+            points = np.column_stack([x_values, np.zeros_like(x_values), -y_values]) * scale
     del xs, ys, zs, x_values, y_values
+    # Finite coordinates can still overflow once scaled to cm or squared for a length.
+    span = np.abs(points).max(axis=1) if len(points) else np.zeros(0)
+    too_big = ~(span < 1e150)
+    if too_big.any():
+        r = int(np.searchsorted(point_offsets, np.flatnonzero(too_big)[0], side="right") - 1)
+        raise FormatError(f"{_where(source, elements[r])} > geometry: a coordinate is too large to measure once "
+                          "converted to cm (allowed: up to 1e150 cm)")
 
     point_radius = np.full(len(points), float(default_radius_cm))
     point_birth = np.zeros(len(points))
@@ -402,9 +410,15 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
                            lambda el, text, name=name: f"{_where(source, el)} > function {name}: sample {text!r} "
                                                        "is not a number")
         idx = np.repeat(point_offsets[roots], lengths) + (np.arange(len(values)) - np.repeat(np.cumsum(lengths) - lengths, lengths))
-        target[idx] = values * scale / 2.0 if name == "diameter" else values
+        with np.errstate(over="ignore"):
+            target[idx] = values * scale / 2.0 if name == "diameter" else values
         if name == "diameter":
             has_diameter[idx] = True
+    for name, values in (("diameter", point_radius), ("birth_day", point_birth)):
+        if not np.all(np.isfinite(values)):
+            r = int(np.searchsorted(point_offsets, np.flatnonzero(~np.isfinite(values))[0], side="right") - 1)
+            raise FormatError(f"{_where(source, elements[r])} > function {name}: a sample is too large once "
+                              "converted to cm")
     if np.any(point_radius < 0):
         r = int(np.searchsorted(point_offsets, np.flatnonzero(point_radius < 0)[0], side="right") - 1)
         raise FormatError(f"{_where(source, elements[r])} > function diameter: negative diameter")
