@@ -73,6 +73,7 @@ def test_export_empty_system(tmp_path):
     (["--vtk", "{t}/r.vtp", "--mesh-sides", "6"], "apply to --mesh"),
     (["--vtk", "{t}/blocker/r.vtp"], "cannot write"),
     (["--vtk", "{t}/a.vtp", "--rsml", "{t}/blocker/r.rsml"], "cannot write"),
+    (["--vtk", "{t}/a.vtp", "--rsml-user", "someone"], "--rsml-user applies to --rsml"),
 ])
 def test_export_errors(results, tmp_path, capsys, args, message):
     _, out = results
@@ -129,3 +130,14 @@ def test_rootsystem_export_method_and_dataframe_input(tmp_path):
 
     mesh = trimesh.load(export_file(system.to_dataframe(), tmp_path / "roots.stl"))
     assert mesh.is_watertight
+
+
+def test_export_rsml_user_and_control_characters(results, tmp_path):
+    # The mandatory <user> element carries --rsml-user; characters XML 1.0 forbids are dropped so
+    # the file stays well-formed (read back with the standard library's XML parser).
+    import xml.etree.ElementTree as ET
+
+    _, out = results
+    target = tmp_path / "r.rsml"
+    assert main(["export", str(out), "--rsml", str(target), "--rsml-user", "trial\x01 team A"]) == 0
+    assert ET.parse(target).getroot().findtext("metadata/user") == "trial team A"

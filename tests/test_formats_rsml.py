@@ -73,7 +73,7 @@ def test_file_has_the_standard_structure(tmp_path):
         total += np.linalg.norm(np.diff(xyz, axis=0), axis=1).sum()
         fn = root.find("functions/function[@name='diameter']")
         assert fn.get("domain") == "polyline"
-        samples = [float(s.text) for s in fn.findall("sample")]
+        samples = [float(s.get("value")) for s in fn.findall("sample")]  # the schema: value attribute
         assert len(samples) == len(pts)
         assert np.allclose(samples, 2 * radius_by_root[int(root.get("id"))])
         assert root.get("label") in {"primary", "lateral", "fine_lateral"}
@@ -102,20 +102,21 @@ TWO_D_PIXELS = """<?xml version="1.0"?>
 
 def test_two_dimensional_image_file_with_units(tmp_path):
     # Hand-computed: 10 pixels per mm -> 1 pixel = 0.01 cm. Primary: (0,0) -> (0,100) -> (0,300) px
-    # = 1 cm + 2 cm down. Lateral starts 3 px off the primary at y=150 px: a 0.03 cm connecting
-    # segment from (0, 150) px, then (3,150) -> (43,180) px = 50 px = 0.5 cm (3-4-5 triangle).
+    # = 1 cm + 2 cm down. The lateral starts 3 px off the primary at y=150 px; its traced polyline
+    # (3,150) -> (43,180) px = 50 px = 0.5 cm (3-4-5 triangle) is kept as it is: no connecting
+    # length, its first segment starts at its first traced point and hangs on the primary's 2nd segment.
     path = tmp_path / "traced.rsml"
     path.write_text(TWO_D_PIXELS)
     system = import_file(path)
-    assert len(system) == 2 + 2
-    assert np.allclose(system["length_cm"], [1.0, 2.0, 0.03, 0.5])
+    assert len(system) == 2 + 1
+    assert np.allclose(system["length_cm"], [1.0, 2.0, 0.5])
     assert np.allclose(system["z1"][:2], [-1.0, -3.0])  # image y (down) becomes depth
-    assert np.array_equal(system["order"], [0, 0, 1, 1])
-    assert list(system["root_class"]) == ["order_0", "order_0", "branch", "branch"]
-    assert system["parent_id"].tolist() == [-1, 0, 1, 2]  # lateral hangs on the primary's 2nd segment
-    assert np.allclose([system["x0"][2], system["z0"][2]], [0.0, -1.5])
+    assert np.array_equal(system["order"], [0, 0, 1])
+    assert list(system["root_class"]) == ["order_0", "order_0", "branch"]
+    assert system["parent_id"].tolist() == [-1, 0, 1]  # lateral hangs on the primary's 2nd segment
+    assert np.allclose([system["x0"][2], system["z0"][2]], [0.03, -1.5])
     # Radius = diameter / 2 at the segment's end point (mm -> cm): 4 px / 2 = 2 px = 0.02 cm.
-    assert np.allclose(system["radius_cm"][3], 0.02)
+    assert np.allclose(system["radius_cm"][2], 0.02)
     assert np.allclose(system["radius_cm"][:2], 0.025)  # stated default, no diameter function
     assert system.metadata["import"]["default_radius_cm"] == 0.025
 
@@ -149,12 +150,27 @@ BAD_FILES = {
     "not_xml": ("this is not <xml", "not an XML file"),
     "wrong_top": ("<svg><scene/></svg>", "expected <rsml>"),
     "no_scene": ("<rsml><metadata><unit>cm</unit></metadata></rsml>", "no <scene>"),
-    "one_point": (
+    "one_point_strict": (
         '<rsml><scene><plant id="1"><root id="1"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/>'
         '</polyline></geometry></root><root id="2"><geometry><polyline><point x="0" y="0" z="0"/><point x="1" y="0" z="-1"/>'
         '</polyline></geometry></root><root id="3"><geometry><polyline><point x="0" y="0" z="0"/></polyline></geometry>'
         "</root></plant></scene></rsml>",
         "plant 1 > root 3 > geometry: polyline has 1 point (need >= 2)",
+    ),
+    "hint_overflow": (
+        '<rsml><scene><plant id="1"><root id="1"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/>'
+        '</polyline></geometry><root id="2"><properties><branch-segment-index value="99999999999999999999999"/>'
+        '</properties><geometry><polyline><point x="0" y="0" z="-1"/><point x="1" y="0" z="-1"/></polyline></geometry>'
+        "</root></root></plant></scene></rsml>",
+        "plant 1 > root 1 > root 2 > properties > branch-segment-index: value 99999999999999999999999 is not a "
+        "point of the parent's polyline (allowed: 0 to 1)",
+    ),
+    "hint_text": (
+        '<rsml><scene><plant id="1"><root id="1"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/>'
+        '</polyline></geometry><root ID="b"><properties><branch-segment-index value="first"/>'
+        '</properties><geometry><polyline><point x="0" y="0" z="-1"/><point x="1" y="0" z="-1"/></polyline></geometry>'
+        "</root></root></plant></scene></rsml>",
+        "plant 1 > root 1 > root b > properties > branch-segment-index: value 'first' is not a whole number",
     ),
     "text_coordinate": (
         '<rsml><scene><plant><root><geometry><polyline><point x="0" y="0" z="0"/><point x="one" y="0" z="-1"/>'
@@ -163,9 +179,9 @@ BAD_FILES = {
     ),
     "samples": (
         '<rsml><scene><plant id="p"><root id="r"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/>'
-        '</polyline></geometry><functions><function name="diameter" domain="polyline"><sample>0.1</sample></function>'
+        '</polyline></geometry><functions><function name="diameter" domain="polyline"><sample value="-0.1"/></function>'
         "</functions></root></plant></scene></rsml>",
-        "plant p > root r > function diameter: 1 samples for 2 points",
+        "plant p > root r > function diameter: negative diameter",
     ),
     "unit": ("<rsml><metadata><unit>furlong</unit></metadata><scene/></rsml>", "unknown unit 'furlong'"),
 }
@@ -177,7 +193,8 @@ def test_cli_bad_files_exit_2_and_write_nothing(tmp_path, capsys, case):
     path = tmp_path / "bad.rsml"
     path.write_text(text)
     out = tmp_path / "out"
-    assert main(["import-rsml", str(path), "--out", str(out)]) == 2
+    strict = ["--strict"] if case.endswith("_strict") else []
+    assert main(["import-rsml", str(path), "--out", str(out), *strict]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error: ") and len(err.strip().splitlines()) == 1
     assert f"{path}: " in err and message in err
@@ -189,10 +206,11 @@ def test_cli_missing_file(tmp_path, capsys):
     assert capsys.readouterr().err.startswith("error: ")
 
 
-def test_namespaced_file_and_nested_connection(tmp_path):
+def test_namespaced_file_and_nested_laterals_off_the_parent(tmp_path):
     # A default XML namespace on every element, and a second-order lateral whose first point is
     # 0.3 cm off its parent (hand-computed: parent runs along x at z = -1; lateral starts at
-    # (0.5, 0, -1.3), nearest parent point (0.5, 0, -1), so a 0.3 cm connecting segment is added).
+    # (0.5, 0, -1.3)): its traced 1 cm is kept, no connecting length is added, and it hangs on
+    # the parent's only segment.
     text = """<rsml xmlns="urn:example:rsml"><scene><plant>
       <root label="tap"><geometry><polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1"/></polyline></geometry>
         <root><geometry><polyline><point x="0" y="0" z="-1"/><point x="2" y="0" z="-1"/></polyline></geometry>
@@ -202,16 +220,15 @@ def test_namespaced_file_and_nested_connection(tmp_path):
     path = tmp_path / "ns.rsml"
     path.write_text(text)
     system = import_file(path)
-    assert np.allclose(system["length_cm"], [1.0, 2.0, 0.3, 1.0])
-    assert system["order"].tolist() == [0, 1, 2, 2]
-    assert system["parent_id"].tolist() == [-1, 0, 1, 2]
-    assert list(system["root_class"]) == ["tap", "order_1", "order_2", "order_2"]
-    assert np.allclose([system["x0"][2], system["z0"][2]], [0.5, -1.0])
-    assert system.metadata["import"]["connecting_segments"] == 1
+    assert np.allclose(system["length_cm"], [1.0, 2.0, 1.0])
+    assert system["order"].tolist() == [0, 1, 2]
+    assert system["parent_id"].tolist() == [-1, 0, 1]
+    assert list(system["root_class"]) == ["tap", "order_1", "order_2"]
+    assert np.allclose([system["x0"][2], system["z0"][2]], [0.5, -1.3])
 
 
 MORE_BAD = {
-    "missing_z": ('<rsml><scene><plant id="1"><root id="7"><geometry><polyline><point x="0" y="0" z="0"/>'
+    "missing_z": ('<rsml><scene><plant id="1"><root id="7"><geometry><polyline><point x="0" y="0" z="-0.5"/>'
                   '<point x="0" y="1"/></polyline></geometry></root></plant></scene></rsml>',
                   "plant 1 > root 7 > geometry: point 2 has no z coordinate"),
     "bad_sample": ('<rsml><scene><plant id="1"><root id="7"><geometry><polyline><point x="0" y="0" z="0"/>'
@@ -219,8 +236,12 @@ MORE_BAD = {
                    'domain="polyline"><sample>0.1</sample><sample>thin</sample></function></functions></root>'
                    "</plant></scene></rsml>",
                    "plant 1 > root 7 > function diameter: sample 'thin' is not a number"),
+    "huge_coordinate": ('<rsml><metadata><unit>m</unit></metadata><scene><plant id="1"><root id="7"><geometry>'
+                        '<polyline><point x="0" y="0" z="0"/><point x="0" y="0" z="-1e307"/></polyline></geometry>'
+                        "</root></plant></scene></rsml>",
+                        "plant 1 > root 7 > geometry: a coordinate is too large to measure once converted to cm"),
     "no_geometry": ('<rsml><scene><plant id="1"><root id="7"/></plant></scene></rsml>',
-                    "plant 1 > root 7: no <geometry><polyline>"),
+                    "plant 1 > root 7: no <geometry><polyline>"),  # refused with strict=True
 }
 
 
@@ -230,7 +251,7 @@ def test_more_bad_files(tmp_path, case):
     path = tmp_path / "bad.rsml"
     path.write_text(text)
     with pytest.raises(FormatError) as info:
-        import_file(path)
+        import_file(path, strict=True)
     assert str(info.value) == f"{path}: {message}" or str(info.value).startswith(f"{path}: {message}")
 
 

@@ -22,12 +22,14 @@ Export a grown (or imported) root system to open file formats. Give one or more 
   --rld-grid FILE.vti    root length density on a voxel grid (cm root per cm3 soil), VTK ImageData,
                          for volume rendering; needs --voxel-cm.
   --mesh FILE            closed tubes around every root with its radius, by suffix .stl, .ply, .obj
-                         or .glb (binary glTF), in cm; .ply and .glb are coloured by root order.
-                         --mesh-sides sets the polygon (default 8);
+                         (cm, z up) or .glb (binary glTF 2.0: metres, +Y up, as that standard
+                         requires); .ply and .glb are coloured by root order. A lateral's tube
+                         starts at its parent's surface. --mesh-sides sets the polygon (default 8);
                          --merge-short-cm joins consecutive short segments into longer pieces,
                          which makes meshes of large stands much smaller.
   --rsml FILE.rsml       Root System Markup Language (laterals nested in their parent roots, with
-                         diameters), readable by RSML tools and by 'rootsim import-rsml'.
+                         diameters), valid against the standard's XML Schema, readable by RSML
+                         tools and by 'rootsim import-rsml'; --rsml-user names who made it.
 
 DIR is a results directory (holding segments.parquet) or a segments.parquet file. Every file is
 written completely or not at all. A system without segments gives valid empty files.
@@ -46,6 +48,8 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--voxel-cm", type=float, metavar="V", help="voxel edge length for --rld-grid, cm")
     parser.add_argument("--mesh", metavar="FILE", help="write tube meshes (.stl, .ply, .obj or .glb)")
     parser.add_argument("--rsml", metavar="FILE.rsml", help="write RSML")
+    parser.add_argument("--rsml-user", metavar="NAME", default=None,
+                        help="who made the RSML file, for its <user> element (default: unknown)")
     parser.add_argument("--mesh-sides", type=int, default=8, metavar="N", help="sides of each tube (3-256, default 8)")
     parser.add_argument("--merge-short-cm", type=float, default=0.0, metavar="L",
                         help="merge consecutive segments into mesh pieces about L cm long (default 0: no merging)")
@@ -70,6 +74,8 @@ def _plan(args) -> list[tuple[str, Path, str, dict]]:
         options: dict = {}
         if option == "--mesh":
             options = {"sides": args.mesh_sides, "merge_short_cm": args.merge_short_cm}
+        elif option == "--rsml" and args.rsml_user is not None:
+            options = {"user": args.rsml_user}
         elif option == "--rld-grid":
             if args.voxel_cm is None:
                 raise RootsimError("--rld-grid needs --voxel-cm V (voxel edge length in cm, e.g. 2)")
@@ -81,6 +87,8 @@ def _plan(args) -> list[tuple[str, Path, str, dict]]:
         raise RootsimError("nothing to export: give at least one of --vtk, --rld-grid, --mesh, --rsml")
     if args.mesh is None and (args.mesh_sides != 8 or args.merge_short_cm != 0):
         raise RootsimError("--mesh-sides and --merge-short-cm apply to --mesh; give --mesh FILE")
+    if args.rsml_user is not None and args.rsml is None:
+        raise RootsimError("--rsml-user applies to --rsml; give --rsml FILE.rsml")
     if args.voxel_cm is not None and args.rld_grid is None:
         raise RootsimError("--voxel-cm applies to --rld-grid; give --rld-grid FILE.vti")
     if args.mesh is not None:

@@ -18,13 +18,19 @@ and 'rootsim export' read like a grown system.
   - root class = the root's label attribute, else order_0, order_1, ...
   - radius = diameter / 2 from the root's "diameter" function; roots without one get
     --default-radius-cm (a note says so)
-  - a lateral starts at the nearest point of its parent root's polyline
-  - units from <metadata><unit> and <resolution> (coordinate / resolution = value in unit);
-    files in pixels need --cm-per-pixel
-  - 2-D files (points without z) are read as images: image y (downwards) becomes depth
+  - traced geometry is kept as it is: a lateral's segments are its own polyline, and its link
+    to the parent (branch-segment-index, else the nearest parent segment) adds no length
+  - units from <metadata><unit> and <resolution> (coordinate / resolution = value in unit),
+    every unit the RSML standard lists (m ... nm, inch); files in pixels need --cm-per-pixel
+  - 2-D files (all points at z = 0 or without z) are images: image y (downwards) becomes depth
+  - a function with fewer samples than points leaves the rest without values (radius then
+    --default-radius-cm), extra samples are ignored, as the standard says
+  - roots that cannot be measured (no geometry, fewer than 2 points) are skipped with one
+    warning line that counts them; --strict refuses such files
 
 Nothing is written if the file has an error; the message names the element, e.g.
-"roots.rsml: plant 1 > root 3 > geometry: polyline has 1 point (need >= 2)".
+"roots.rsml: plant 1 > root 3 > properties > branch-segment-index: value 99 is not a point of
+the parent's polyline (allowed: 0 to 11)".
 
 examples:
   rootsim import-rsml traced/plant_a.rsml --out results/plant_a
@@ -41,21 +47,32 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help=f"radius of roots without a diameter function, cm (default {DEFAULT_RADIUS_CM:g})")
     parser.add_argument("--cm-per-pixel", type=float, default=None, metavar="S",
                         help="pixel size in cm, for files whose unit is pixel")
+    parser.add_argument("--strict", action="store_true",
+                        help="refuse files with roots that cannot be measured instead of skipping them")
 
 
 def run(args: argparse.Namespace) -> int:
+    import warnings
+
     from ..atomic import ensure_output_dir
     from ..formats.rsml import read_rsml
+    from ..formats.rsml_reader import skipped_roots_message
     from ..segment_table import write_segments
 
-    system = read_rsml(args.file, default_radius_cm=args.default_radius_cm, cm_per_pixel=args.cm_per_pixel)
+    with warnings.catch_warnings():  # the skipped-roots warning is printed below as one line
+        warnings.simplefilter("ignore", UserWarning)
+        system = read_rsml(args.file, default_radius_cm=args.default_radius_cm, cm_per_pixel=args.cm_per_pixel,
+                           strict=args.strict)
     out = ensure_output_dir(args.out)
     target = write_segments({c: system[c] for c in system.columns}, Path(out) / "segments.parquet",
                             metadata=system.metadata)
     facts = system.metadata.get("import", {})
+    skipped = skipped_roots_message(args.file, facts)
+    if skipped:
+        print(f"warning: {skipped}", file=sys.stderr)
     if facts.get("default_radius_cm") is not None:
-        print(f"note: {args.file}: roots without a diameter function got radius {facts['default_radius_cm']:g} cm "
-              "(--default-radius-cm)", file=sys.stderr)
+        print(f"note: {args.file}: {facts.get('segments_without_diameter', 0):,} segments without a diameter value got "
+              f"radius {facts['default_radius_cm']:g} cm (--default-radius-cm)", file=sys.stderr)
     s = system.summary()
     print(f"{target}: {s['n_plants']} plant(s), {s['n_roots']:,} roots, {s['n_segments']:,} segments, "
           f"{s['total_length_cm']:.1f} cm")

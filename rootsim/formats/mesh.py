@@ -19,7 +19,8 @@ Construction is vectorized over all roots at once:
    closed surfaces touching at its sharp bends; all are watertight with outward normals.
 4. Each piece gets flat end caps (triangle fans around a centre vertex).
 
-PLY and glTF files carry vertex colours by root order (:data:`ORDER_COLOURS_RGB`).
+PLY files carry vertex colours by root order (:data:`ORDER_COLOURS_RGB`); glTF files one
+material of that colour per root order, in metres with +Y up (:mod:`rootsim.formats.gltf`).
 An empty root system gives a valid file with no triangles in every mesh format (for .glb: an
 asset with one empty scene).
 """
@@ -163,7 +164,49 @@ def _unit(v):
     return v / np.where(norm > 0, norm, 1.0), norm[..., 0]
 
 
-def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sharp_turn_deg: float = 60.0) -> TubeMesh:
+def _trim_at_parent_surface(system, lines, pts, offsets, src_poly) -> int:
+    """Move each lateral's first point out to its parent's tube surface, in place; count moved.
+
+    A lateral's polyline starts at its branch point on the parent's centre line, so its tube
+    would run through the parent's tube. The start is moved along the lateral's first edge to
+    the point at distance ``R`` (the parent segment's radius) from the parent segment's line:
+    the smallest ``s > 0`` with ``|(a - c + s d) x e| = R`` (``a`` start, ``d`` unit direction of
+    the first edge, ``c`` and ``e`` a point and the unit direction of the parent segment), a
+    quadratic in ``s``. The lateral's tube then begins with its cap centred on the parent's
+    surface: the tubes touch with no tube inside the other. Laterals starting outside the
+    parent, running along it, or whose first edge would keep less than a tenth of its length are
+    left as they are.
+    """
+    first_row = lines.first_segment[src_poly]
+    parent_row = np.asarray(system["parent_id"], dtype=np.int64)[first_row]
+    root_id = np.asarray(system["root_id"], dtype=np.int64)
+    has_parent = parent_row >= 0
+    lateral = np.flatnonzero(has_parent)
+    lateral = lateral[root_id[parent_row[lateral]] != root_id[first_row[lateral]]]
+    if not len(lateral):
+        return 0
+    bearing = parent_row[lateral]
+    c0 = np.column_stack([np.asarray(system[k], dtype=np.float64)[bearing] for k in ("x0", "y0", "z0")])
+    c1 = np.column_stack([np.asarray(system[k], dtype=np.float64)[bearing] for k in ("x1", "y1", "z1")])
+    big_r = np.asarray(system["radius_cm"], dtype=np.float64)[bearing]
+    e, parent_length = _unit(c1 - c0)
+    a = pts[offsets[lateral]]
+    d, edge_length = _unit(pts[offsets[lateral] + 1] - a)
+    w = np.cross(a - c0, e)
+    m = np.cross(d, e)
+    mm = np.einsum("ij,ij->i", m, m)
+    wm = np.einsum("ij,ij->i", w, m)
+    c = np.einsum("ij,ij->i", w, w) - big_r**2
+    with np.errstate(invalid="ignore", divide="ignore"):
+        step = (-wm + np.sqrt(np.maximum(wm**2 - mm * c, 0.0))) / mm
+    ok = (c < 0) & (mm > 1e-12) & (parent_length > 0) & (edge_length > 0) & (step > 0) & (step < 0.9 * edge_length)
+    moved = lateral[ok]
+    pts[offsets[moved]] = a[ok] + step[ok, None] * d[ok]
+    return int(ok.sum())
+
+
+def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sharp_turn_deg: float = 60.0,
+                     trim_junctions: bool = True) -> TubeMesh:
     """Vertices and faces of closed tubes around every root.
 
     Parameters
@@ -175,6 +218,9 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
         Merge consecutive segments into pieces about this long (0: keep every segment).
     sharp_turn_deg : float
         Bends sharper than this split the tube (flat caps at the joint) instead of mitring.
+    trim_junctions : bool
+        Start each lateral's tube at its parent's surface instead of the parent's centre line
+        (see :func:`_trim_at_parent_surface`), so tubes do not run inside each other.
 
     Returns
     -------
@@ -185,6 +231,8 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     radius_col = np.asarray(system["radius_cm"], dtype=np.float64)
     edge_radius = np.maximum(radius_col[lines.segment_order], MIN_RADIUS_CM)
     pts, offsets, radius, src_poly = _simplify(lines.points, lines.point_offsets, edge_radius, merge)
+    if trim_junctions and len(src_poly):
+        _trim_at_parent_surface(system, lines, pts, offsets[:-1], src_poly)
     first_seg = lines.first_segment[src_poly]
     poly_root = np.asarray(system["root_id"], dtype=np.int64)[first_seg]
     poly_order = np.asarray(system["order"], dtype=np.int64)[first_seg]
@@ -263,51 +311,67 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     # Ring vertex: centre + radius * (w - (w.m / t.m) t), with w the ring direction in the edge's
     # transported frame, m the ring plane normal (mitre bisector or the tangent), t the tangent.
     # With e1 = cos(theta) u + sin(theta) v (the transported frame) and e2 = t x e1, the direction
-    # at polygon angle alpha is cos(alpha) e1 + sin(alpha) e2.
+    # at polygon angle alpha is w = cos(alpha) e1 + sin(alpha) e2. The projection is linear in w,
+    # so vertex = centre + cos(alpha) E1 + sin(alpha) E2 with E_i = radius (e_i - (e_i.m / t.m) t)
+    # per ring, and the (rings, sides, 3) array is written in place in one pass per term.
     re = ring_edge
     t_r = tangent[re]
     th = theta[re][:, None]
     e1 = np.cos(th) * u[re] + np.sin(th) * v[re]
     e2 = np.cross(t_r, e1)
+    del th
+    t_dot_m = np.einsum("rk,rk->r", t_r, ring_plane)
+    scale = ring_radius / t_dot_m
+    big1 = e1 * ring_radius[:, None] - (np.einsum("rk,rk->r", e1, ring_plane) * scale)[:, None] * t_r
+    big2 = e2 * ring_radius[:, None] - (np.einsum("rk,rk->r", e2, ring_plane) * scale)[:, None] * t_r
+    del e1, e2, t_r
     alpha = (2 * np.pi / n_sides) * np.arange(n_sides)
-    w = e1[:, None, :] * np.cos(alpha)[None, :, None]  # (rings, sides, 3), built in place below
-    w += e2[:, None, :] * np.sin(alpha)[None, :, None]
-    del e1, e2, th
-    shift = np.einsum("rsk,rk->rs", w, ring_plane)
-    shift /= np.einsum("rk,rk->r", t_r, ring_plane)[:, None]
-    w -= shift[..., None] * t_r[:, None, :]
-    del shift
-    w *= ring_radius[:, None, None]
-    w += ring_center[:, None, :]
-    ring_vertices = w
+    vertices = np.empty((n_rings * n_sides + 2 * n_pieces, 3))
+    ring_vertices = vertices[:n_rings * n_sides].reshape(n_rings, n_sides, 3)
+    np.multiply(big1[:, None, :], np.cos(alpha)[None, :, None], out=ring_vertices)
+    ring_vertices += big2[:, None, :] * np.sin(alpha)[None, :, None]
+    ring_vertices += ring_center[:, None, :]
+    del big1, big2
 
     piece_last_edge = np.append(pf[1:] - 1, n_edges - 1)
-    centers = np.concatenate([a[pf], b[piece_last_edge]])
-    vertices = np.concatenate([ring_vertices.reshape(-1, 3), centers])
+    vertices[n_rings * n_sides:n_rings * n_sides + n_pieces] = a[pf]  # cap centres
+    vertices[n_rings * n_sides + n_pieces:] = b[piece_last_edge]
     cap_start = n_rings * n_sides + np.arange(n_pieces)
     cap_end = cap_start + n_pieces
 
+    # Faces, written in place: per edge 2 * sides side triangles, then a start and an end cap
+    # (a triangle fan) per piece.
     kk = np.arange(n_sides)
     kn = (kk + 1) % n_sides
-    ra = (end_ring - 1)[:, None] * n_sides
-    rb = end_ring[:, None] * n_sides
-    side1 = np.stack([ra + kk, ra + kn, rb + kk], axis=-1)
-    side2 = np.stack([ra + kn, rb + kn, rb + kk], axis=-1)
-    sides_faces = np.concatenate([side1, side2], axis=1).reshape(-1, 3)
-    rs = start_ring[:, None] * n_sides
-    re_ = end_ring[piece_last_edge][:, None] * n_sides
-    cs = np.broadcast_to(cap_start[:, None], (n_pieces, n_sides))
-    ce = np.broadcast_to(cap_end[:, None], (n_pieces, n_sides))
-    caps_start = np.stack([cs, rs + kn, rs + kk], axis=-1).reshape(-1, 3)
-    caps_end = np.stack([ce, re_ + kk, re_ + kn], axis=-1).reshape(-1, 3)
-    faces = np.concatenate([sides_faces, caps_start, caps_end]).astype(np.int64, copy=False)
+    n_side_faces = 2 * n_sides * n_edges
+    faces = np.empty((n_side_faces + 2 * n_sides * n_pieces, 3), dtype=np.int64)
+    side = faces[:n_side_faces].reshape(n_edges, 2, n_sides, 3)
+    ra = ((end_ring - 1) * n_sides)[:, None]
+    rb = ra + n_sides
+    side[:, 0, :, 0] = ra + kk
+    side[:, 0, :, 1] = ra + kn
+    side[:, 0, :, 2] = rb + kk
+    side[:, 1, :, 0] = ra + kn
+    side[:, 1, :, 1] = rb + kn
+    side[:, 1, :, 2] = rb + kk
+    caps = faces[n_side_faces:].reshape(2, n_pieces, n_sides, 3)
+    rs = (start_ring * n_sides)[:, None]
+    re_ = (end_ring[piece_last_edge] * n_sides)[:, None]
+    caps[0, :, :, 0] = cap_start[:, None]
+    caps[0, :, :, 1] = rs + kn
+    caps[0, :, :, 2] = rs + kk
+    caps[1, :, :, 0] = cap_end[:, None]
+    caps[1, :, :, 1] = re_ + kk
+    caps[1, :, :, 2] = re_ + kn
 
+    edge_root = poly_root[edge_poly]
+    edge_order = poly_order[edge_poly]
     piece_poly = edge_poly[pf]
-    face_poly = np.concatenate([np.repeat(edge_poly, 2 * n_sides), np.repeat(piece_poly, n_sides),
-                                np.repeat(piece_poly, n_sides)])
-    vertex_poly = np.concatenate([np.repeat(edge_poly[ring_edge], n_sides), piece_poly, piece_poly])
-    return TubeMesh(vertices, faces, poly_root[face_poly], poly_order[face_poly], poly_order[vertex_poly],
-                    n_pieces, n_edges)
+    face_root = np.concatenate([np.repeat(edge_root, 2 * n_sides), np.repeat(np.tile(poly_root[piece_poly], 2), n_sides)])
+    face_order = np.concatenate([np.repeat(edge_order, 2 * n_sides),
+                                 np.repeat(np.tile(poly_order[piece_poly], 2), n_sides)])
+    vertex_order = np.concatenate([np.repeat(edge_order[ring_edge], n_sides), np.tile(poly_order[piece_poly], 2)])
+    return TubeMesh(vertices, faces, face_root, face_order, vertex_order, n_pieces, n_edges)
 
 
 #: Vertex colours by root order (order 0, 1, 2, ...; repeating), RGB. The colour-blind-safe
@@ -339,24 +403,22 @@ def _empty_mesh_bytes(suffix: str) -> bytes:
                 b"element face 0\nproperty list uchar int vertex_indices\nend_header\n")
     if suffix == ".obj":
         return b"# rootsim tube mesh (empty root system)\n"
-    # glTF 2.0 binary: 12-byte header, then one JSON chunk (padded with spaces to 4 bytes) holding
-    # an asset with a single empty scene.
-    doc = b'{"asset":{"version":"2.0","generator":"rootsim"},"scene":0,"scenes":[{"nodes":[]}]}'
-    doc += b" " * (-len(doc) % 4)
-    chunk = len(doc).to_bytes(4, "little") + b"JSON" + doc
-    return b"glTF" + (2).to_bytes(4, "little") + (12 + len(chunk)).to_bytes(4, "little") + chunk
+    from .gltf import empty_glb_bytes
+
+    return empty_glb_bytes()  # glTF 2.0 binary: an asset with one empty scene
 
 
 def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_cm: float = 0.0,
-               sharp_turn_deg: float = 60.0) -> Path:
+               sharp_turn_deg: float = 60.0, trim_junctions: bool = True) -> Path:
     """Write tubes around every root as STL, PLY, OBJ or binary glTF (by suffix), atomically.
 
     Parameters
     ----------
     system : RootSystem
     path : path-like
-        ``.stl`` (binary), ``.ply`` (binary), ``.obj`` or ``.glb``; units are cm.
-    sides, merge_short_cm, sharp_turn_deg
+        ``.stl`` (binary), ``.ply`` (binary) or ``.obj`` in cm with z up; ``.glb`` (binary glTF 2.0)
+        in metres with +Y up as that standard requires (see :mod:`rootsim.formats.gltf`).
+    sides, merge_short_cm, sharp_turn_deg, trim_junctions
         See :func:`tube_mesh_arrays`.
 
     Returns
@@ -368,7 +430,8 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
     if suffix not in SUFFIXES:
         raise FormatError(f"{path}: unknown mesh suffix {path.suffix!r} (allowed: {', '.join(SUFFIXES)})")
     try:
-        arrays = tube_mesh_arrays(system, sides=sides, merge_short_cm=merge_short_cm, sharp_turn_deg=sharp_turn_deg)
+        arrays = tube_mesh_arrays(system, sides=sides, merge_short_cm=merge_short_cm, sharp_turn_deg=sharp_turn_deg,
+                                  trim_junctions=trim_junctions)
     except FormatError as exc:
         raise FormatError(f"{path}: {exc}") from None
     if len(arrays.faces) == 0:
@@ -383,12 +446,11 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
         elif suffix == ".ply":
             _write_ply(tmp, arrays.vertices, arrays.faces, colours=order_colours(arrays.vertex_order))
         else:
-            import trimesh
+            from .gltf import write_glb
 
-            rgba = np.concatenate([order_colours(arrays.vertex_order),
-                                   np.full((len(arrays.vertices), 1), 255, dtype=np.uint8)], axis=1)
-            mesh = trimesh.Trimesh(arrays.vertices, arrays.faces, vertex_colors=rgba, process=False, validate=False)
-            mesh.export(str(tmp), file_type=suffix[1:])
+            orders = np.arange(int(arrays.face_order.max()) + 1)
+            write_glb(tmp, arrays.vertices, arrays.faces, arrays.face_order, order_colours(orders),
+                      group_names=[f"root order {k}" for k in orders.tolist()])
     return path
 
 
@@ -405,12 +467,20 @@ def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
         fh.write(np.uint32(len(faces)).tobytes())
         vertices = vertices.astype(np.float32)
         for start in range(0, len(faces), _STL_BLOCK):
-            tri = vertices[faces[start:start + _STL_BLOCK]]  # (b, 3, 3)
-            normal = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
-            norm = np.linalg.norm(normal, axis=1, keepdims=True)
-            record = np.zeros(len(tri), dtype=_STL_RECORD)
-            record["normal"] = normal / np.where(norm > 0, norm, 1.0)
+            block = faces[start:start + _STL_BLOCK]
+            tri = np.take(vertices, block.ravel(), axis=0).reshape(-1, 3, 3)  # contiguous (b, 3, 3)
+            e1 = tri[:, 1] - tri[:, 0]
+            e2 = tri[:, 2] - tri[:, 0]
+            normal = np.empty_like(e1)
+            normal[:, 0] = e1[:, 1] * e2[:, 2] - e1[:, 2] * e2[:, 1]
+            normal[:, 1] = e1[:, 2] * e2[:, 0] - e1[:, 0] * e2[:, 2]
+            normal[:, 2] = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
+            norm = np.sqrt(np.einsum("ij,ij->i", normal, normal))
+            normal /= np.where(norm > 0, norm, 1.0)[:, None]
+            record = np.empty(len(block), dtype=_STL_RECORD)
+            record["normal"] = normal
             record["vertices"] = tri
+            record["attribute"] = 0
             record.tofile(fh)
 
 

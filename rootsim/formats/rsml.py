@@ -2,18 +2,20 @@
 
 RSML is an open XML format for root architecture (Lobet et al. 2015, "Root System Markup
 Language: toward a unified root architecture description language", Plant Physiology
-167(3):617-627, DOI 10.1104/pp.114.253625). Layout written here::
+167(3):617-627, DOI 10.1104/pp.114.253625). Files written here validate against the
+standard's XML Schema (``rsml.xsd``); rootsim's own data sit where the schema allows them::
 
     <rsml>
-      <metadata> version, unit (cm), resolution (1), last-modified, software (rootsim),
-                 file-key, property-definitions, rootsim-table-metadata (JSON) </metadata>
+      <metadata> version, unit (cm), resolution (1), last-modified, software (rootsim), user,
+                 file-key, property-definitions </metadata>
       <scene>
+        <properties><segment-table-metadata format="json">{stand, run, ...}</segment-table-metadata></properties>
         <plant id="0">
           <root id="12" label="primary">            one element per root polyline
             <properties><branch-segment-index value="4"/></properties>   (laterals only)
             <geometry><polyline><point x="..." y="..." z="..."/> ...</polyline></geometry>
             <functions>
-              <function name="diameter" domain="polyline"><sample>0.1</sample> ...</function>
+              <function name="diameter" domain="polyline"><sample value="0.1"/> ...</function>
               <function name="birth_day" domain="polyline"> ... </function>
             </functions>
             <root ...> laterals, nested inside their parent root </root>
@@ -24,10 +26,14 @@ Language: toward a unified root architecture description language", Plant Physio
 
 Conventions (both directions): a root's polyline has one point per segment end plus its start
 point; sample ``j >= 1`` of a function belongs to the segment ending at point ``j``, sample 0 to
-the first segment. A lateral's polyline starts at its branch point on the parent root;
+the first segment. A grown lateral's polyline starts at its branch point on the parent root;
 ``branch-segment-index`` (0-based, along the parent's polyline) names the parent segment so
 that a branch exactly at a joint keeps its parent segment through a round trip.
-Coordinates are written with the shortest decimal that reads back to the same double.
+Numbers are written as plain decimals (the schema's ``xs:decimal``: no exponent) with the
+shortest digits that read back to the same double.
+
+The schema asks for at least one plant with one root: a root system without segments is
+written with an empty ``<scene>``, which rootsim reads back but a schema validator refuses.
 """
 
 from __future__ import annotations
@@ -44,33 +50,62 @@ from ..atomic import atomic_path
 from ..errors import FormatError
 from .polylines import polylines_from_segments
 
-__all__ = ["write_rsml", "read_rsml", "SUFFIXES", "UNIT_CM", "DEFAULT_RADIUS_CM"]
+__all__ = ["write_rsml", "read_rsml", "decimal_strings", "SUFFIXES", "UNIT_CM", "PIXEL_UNITS", "DEFAULT_RADIUS_CM"]
 
 SUFFIXES = (".rsml",)
 
-#: Length of one unit in cm, for the units accepted in ``<metadata><unit>``.
+#: Length of one unit in cm, for the units accepted in ``<metadata><unit>`` (lower case): the
+#: metric units the RSML standard lists from metre to nanometre and the inch, by symbol and by
+#: name in both spellings, singular and plural.
 UNIT_CM = {
-    "cm": 1.0, "centimeter": 1.0, "centimetre": 1.0,
-    "mm": 0.1, "millimeter": 0.1, "millimetre": 0.1,
-    "m": 100.0, "meter": 100.0, "metre": 100.0,
-    "um": 1e-4, "µm": 1e-4, "micrometer": 1e-4, "micron": 1e-4,
-    "inch": 2.54, "in": 2.54,
+    **dict.fromkeys(("m", "meter", "metre", "meters", "metres"), 100.0),
+    **dict.fromkeys(("cm", "centimeter", "centimetre", "centimeters", "centimetres"), 1.0),
+    **dict.fromkeys(("mm", "millimeter", "millimetre", "millimeters", "millimetres"), 0.1),
+    **dict.fromkeys(("um", "\u00b5m", "\u03bcm", "micrometer", "micrometre", "micrometers", "micrometres",
+                     "micron", "microns"), 1e-4),
+    **dict.fromkeys(("nm", "nanometer", "nanometre", "nanometers", "nanometres"), 1e-7),
+    **dict.fromkeys(("in", "inch", "inches"), 2.54),
 }
 PIXEL_UNITS = ("pixel", "pixels", "px")
 
 #: Radius given to imported roots without a diameter function, cm.
 DEFAULT_RADIUS_CM = 0.025
 
-#: A lateral whose first point is farther than this from its parent gets a connecting segment, cm.
-ATTACH_TOLERANCE_CM = 1e-6
-
-_POINT = '<point x="%r" y="%r" z="%r"/>'
-_SAMPLE = "<sample>%r</sample>"
+_POINT = '<point x="%s" y="%s" z="%s"/>'
+_SAMPLE = '<sample value="%s"/>'
 
 
 # --------------------------------------------------------------------------------------------
 # export
 # --------------------------------------------------------------------------------------------
+
+def decimal_strings(values) -> list[str]:
+    """Shortest round-trip decimals without exponent (``xs:decimal`` lexical form), one per value.
+
+    Parameters
+    ----------
+    values : array_like of float, shape (n,)
+        Finite numbers.
+
+    Returns
+    -------
+    list of str
+        ``repr`` where it has no exponent (|v| in [1e-4, 1e16) or 0), else
+        :func:`numpy.format_float_positional` with ``unique=True`` (the same shortest digits).
+    """
+    values = np.asarray(values, dtype=np.float64).ravel()
+    strings = list(map(repr, values.tolist()))
+    magnitude = np.abs(values)
+    for i in np.flatnonzero(((magnitude < 1e-4) & (magnitude > 0)) | (magnitude >= 1e16)).tolist():
+        strings[i] = np.format_float_positional(values[i], unique=True, trim="0")
+    return strings
+
+
+def _xml_text(value) -> str:
+    """``value`` as text without the characters XML 1.0 does not allow (controls other than tab/newline)."""
+    text = str(value)
+    return "".join(ch for ch in text if ch >= " " or ch in "\t\n\r") if any(ch < " " for ch in text) else text
+
 
 def _root_tree(system, lines):
     """Parent polyline of every polyline (-1 for roots starting at the plant) and the branch index."""
@@ -87,38 +122,47 @@ def _root_tree(system, lines):
     return parent_poly, branch_index
 
 
-def _metadata_xml(system, path: Path, resolution: float) -> str:
-    meta = getattr(system, "metadata", None) or {}
+def _metadata_xml(path: Path, resolution: float, user: str) -> str:
     stamp = datetime.datetime.now(datetime.timezone.utc).replace(microsecond=0).isoformat()
-    table_meta = escape(json.dumps(meta, sort_keys=True, default=str))
     return (
         "  <metadata>\n"
         "    <version>1</version>\n"
         "    <unit>cm</unit>\n"
-        f"    <resolution>{resolution!r}</resolution>\n"
+        f"    <resolution>{decimal_strings([resolution])[0]}</resolution>\n"
         f"    <last-modified>{stamp}</last-modified>\n"
         "    <software>rootsim</software>\n"
-        f"    <file-key>{escape(path.stem)}</file-key>\n"
+        f"    <user>{escape(user)}</user>\n"
+        f"    <file-key>{escape(_xml_text(path.stem))}</file-key>\n"
         "    <property-definitions>\n"
         "      <property-definition><label>branch-segment-index</label><type>integer</type>"
         "<default>-1</default></property-definition>\n"
         "    </property-definitions>\n"
-        f"    <rootsim-table-metadata>{table_meta}</rootsim-table-metadata>\n"
         "  </metadata>\n"
     )
 
 
-def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0) -> Path:
+def _scene_properties_xml(system) -> str:
+    meta = getattr(system, "metadata", None) or {}
+    if not meta:
+        return ""
+    table_meta = escape(json.dumps(meta, sort_keys=True, default=str))
+    return (f'    <properties><segment-table-metadata format="json">{table_meta}'
+            "</segment-table-metadata></properties>\n")
+
+
+def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user: str = "unknown") -> Path:
     """Write the root system as RSML (one ``<plant>`` per plant, laterals nested), atomically.
 
     Parameters
     ----------
     system : RootSystem
     path : path-like
-        Target ``.rsml`` file. An empty system gives a valid file with an empty ``<scene>``.
+        Target ``.rsml`` file. An empty system gives a file with an empty ``<scene>``.
     resolution : float
         Value of ``<metadata><resolution>``: coordinates are written in cm times this
         (1 = plain cm).
+    user : str
+        Value of the mandatory ``<metadata><user>`` (who made the file).
 
     Returns
     -------
@@ -131,15 +175,19 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0) -> P
         resolution = float("nan")
     if not np.isfinite(resolution) or resolution <= 0:
         raise FormatError(f"{path}: RSML resolution must be a number > 0")
+    user = " ".join(_xml_text(user).split()) or "unknown"
     lines = polylines_from_segments(system)
     parent_poly, branch_index = _root_tree(system, lines)
     first = lines.first_segment
     plant = np.asarray(system["plant_id"], dtype=np.int64)[first]
     root_id = np.asarray(system["root_id"], dtype=np.int64)[first]
-    labels = np.asarray(system["root_class"]).astype(str)[first]
-    coords = (lines.points * resolution).tolist() if resolution != 1.0 else lines.points.tolist()
-    diameter = (2.0 * np.asarray(system["radius_cm"], dtype=np.float64)[lines.point_segment]).tolist()
-    birth = np.asarray(system["birth_day"], dtype=np.float64)[lines.point_segment].tolist()
+    labels = [_xml_text(label) for label in np.asarray(system["root_class"]).astype(str)[first].tolist()]
+    points = lines.points * resolution if resolution != 1.0 else lines.points
+    if not np.all(np.isfinite(points)):
+        raise FormatError(f"{path}: coordinates times resolution {resolution!r} are not finite numbers")
+    coords = decimal_strings(points)
+    diameter = decimal_strings(2.0 * np.asarray(system["radius_cm"], dtype=np.float64)[lines.point_segment] * resolution)
+    birth = decimal_strings(np.asarray(system["birth_day"], dtype=np.float64)[lines.point_segment])
     offsets = lines.point_offsets.tolist()
     # Children of each polyline, in order along the parent.
     kids = np.flatnonzero(parent_poly >= 0)
@@ -162,7 +210,7 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0) -> P
         if branch_index[p] >= 0:
             head.append(f'{pad}  <properties><branch-segment-index value="{branch_index[p]}"/></properties>\n')
         head.append(f"{pad}  <geometry>\n{pad}    <polyline>\n")
-        head.append(((pad + "      " + _POINT + "\n") * k) % tuple(v for xyz in coords[a:b] for v in xyz))
+        head.append(((pad + "      " + _POINT + "\n") * k) % tuple(coords[3 * a:3 * b]))
         head.append(f"{pad}    </polyline>\n{pad}  </geometry>\n{pad}  <functions>\n")
         head.append(f'{pad}    <function name="diameter" domain="polyline">{(_SAMPLE * k) % tuple(diameter[a:b])}</function>\n')
         head.append(f'{pad}    <function name="birth_day" domain="polyline">{(_SAMPLE * k) % tuple(birth[a:b])}</function>\n')
@@ -171,8 +219,10 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0) -> P
 
     with atomic_path(path) as tmp, open(tmp, "w", encoding="utf-8") as fh:
         fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<rsml>\n')
-        fh.write(_metadata_xml(system, path, resolution))
+        fh.write(_metadata_xml(path, resolution, user))
         fh.write("  <scene>\n")
+        if plant_ids:
+            fh.write(_scene_properties_xml(system))
         for plant_id in plant_ids:
             fh.write(f'    <plant id="{plant_id}">\n')
             for top in tops_by_plant.get(plant_id, []):
