@@ -194,7 +194,7 @@ def plot_rld_profile(
             ax = axes[0]
             ax.plot(total, mid, color="black", linewidth=2.0, marker="o", markersize=3.5, label="all roots")
             for i, k in enumerate(orders):
-                ax.plot(per_order.get(k, np.zeros_like(total)), mid, color=colours[i + 1], linewidth=1.3,
+                ax.plot(per_order.get(k, np.zeros_like(total)), mid, color=_order_colour(k), linewidth=1.3,
                         marker="o", markersize=2.5, linestyle="--", label=f"order {k}")
         else:
             axes[0].plot(total, mid, color=colours[v], linewidth=1.8, marker="o", markersize=3, label=label)
@@ -224,11 +224,17 @@ def _profile_bottom(profiles: Mapping[str, Any]) -> float:
 
 
 def _qualitative_colours(n: int) -> list:
-    """``n`` distinguishable colours (matplotlib's tab10, then tab20)."""
-    import matplotlib
+    """``n`` colours of the one palette (:mod:`rootsim.palette`, colour-blind safe), RGB in [0, 1]."""
+    from .palette import category_colours
 
-    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
-    return [cmap(i % cmap.N) for i in range(n)]
+    return [tuple(c) for c in category_colours(n)]
+
+
+def _order_colour(order: int) -> tuple:
+    """RGB colour (floats in [0, 1]) of root order ``order`` in the one palette."""
+    from .palette import order_colours
+
+    return tuple(order_colours([order])[0] / 255.0)
 
 
 # --------------------------------------------------------------------------------------------

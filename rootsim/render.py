@@ -5,7 +5,7 @@
 
 The scene: one polyline per root (geometry from :func:`rootsim.formats.vtk.polydata_from_segments`),
 drawn as lines, thicker for lower root orders, coloured by root order, root class, plant
-(categorical legend) or age (scalar bar, days); a translucent soil-surface plane at z = 0; a
+(categorical legend, colours from :mod:`rootsim.palette`) or age (scalar bar, days); a translucent soil-surface plane at z = 0; a
 labelled depth ruler in cm from the surface down to (a round number past) the deepest root; an
 optional title. An empty root system gives the empty scene (surface plane and ruler), no error.
 """
@@ -123,30 +123,29 @@ def ruler_ticks(extent_cm: float, *, min_steps: int = 3, max_steps: int = 8) -> 
     return best[0], best[1] + 1
 
 
-def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str]]:
-    """Category index per polyline, shape (p,), and the legend label of each category."""
+def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str], np.ndarray]:
+    """Category index per polyline, shape (p,), the legend label of each category and its RGB
+    colour (floats in [0, 1], shape (k, 3)) from the one palette (:mod:`rootsim.palette`): root
+    order k always gets order k's colour, other categories the palette in turn."""
+    from .palette import category_colours, order_colours
+
     if color_by == "order":
         values = np.asarray(poly.cell_data["order"])
         kinds = np.unique(values)
         labels = [f"order {k}" for k in kinds]
+        colours = order_colours(kinds).astype(np.float64) / 255.0
     elif color_by == "plant":
         values = np.asarray(poly.cell_data["plant_id"])
         kinds = np.unique(values)
         labels = [f"plant {k}" for k in kinds]
+        colours = category_colours(len(kinds))
     else:
         values = np.asarray(poly.cell_data["root_class_code"])
         names = [str(s) for s in np.asarray(poly.field_data["root_class_names"])]
         kinds = np.unique(values)
         labels = [names[k] if 0 <= k < len(names) else str(k) for k in kinds]
-    return np.searchsorted(kinds, values), labels
-
-
-def _palette(n: int) -> np.ndarray:
-    """``n`` distinguishable RGB colours, floats in [0, 1], shape (n, 3) (matplotlib's tab10 / tab20)."""
-    import matplotlib
-
-    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
-    return np.array([cmap(i % cmap.N)[:3] for i in range(n)])
+        colours = category_colours(len(kinds))
+    return np.searchsorted(kinds, values), labels, colours
 
 
 def _scene_bounds(system) -> np.ndarray:
@@ -280,8 +279,7 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float 
         style = {"scalars": "age_days", "cmap": AGE_COLOURMAP, "show_scalar_bar": False,
                  "clim": (float(age.min()), float(max(age.max(), age.min() + 1e-9)))}
     else:
-        category, labels = _categories(color_by, poly)
-        colours = _palette(len(labels))
+        category, labels, colours = _categories(color_by, poly)
         cell_scalars["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
         style = {"scalars": "colour_rgb", "rgb": True, "preference": "cell"}
     if tube_scale is not None:

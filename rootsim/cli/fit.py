@@ -45,6 +45,7 @@ def run(args) -> int:
     from ..atomic import atomic_write_text, ensure_output_dir
     from ..errors import RootsimError
     from ..fitting import fit_profile, fitted_toml, parse_fit_parameter, read_observed_profile
+    from ..observations import check_depth_intervals
     from ..spec import load_spec
 
     if args.area_cm2 is not None and not args.area_cm2 > 0:
@@ -52,6 +53,7 @@ def run(args) -> int:
     spec = load_spec(args.spec).with_overrides(duration_days=args.days, time_step_days=args.step_days)
     parameters = [parse_fit_parameter(p) for p in args.param]
     observed = read_observed_profile(args.observed)
+    check_depth_intervals(observed, source=str(args.observed))
     result = fit_profile(spec, observed, parameters, replicates=args.replicates, seed=args.seed,
                          max_evaluations=args.max_evaluations, area_cm2=args.area_cm2)
     out = ensure_output_dir(args.out)  # only once the fit has run: bad input leaves nothing behind
