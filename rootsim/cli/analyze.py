@@ -91,6 +91,7 @@ def run(args: argparse.Namespace) -> int:
     from ..analysis import layer_profile, root_traits
     from ..atomic import atomic_path, ensure_output_dir
     from ..rootsystem import RootSystem
+    from ..stand_layout import layout_from_metadata
 
     layer = _number(args.layer_cm, "--layer-cm", "cm")
     area = _number(args.area_cm2, "--area-cm2", "cm²")
@@ -115,7 +116,7 @@ def run(args: argparse.Namespace) -> int:
     with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json:
         profile.to_csv(tmp_csv, index=False, float_format="%.10g")
         tmp_json.write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
-    print(summary_text(str(args.dir), traits, profile))
+    print(summary_text(str(args.dir), traits, profile, layout_from_metadata(system.metadata)))
     print(f"wrote {csv_path} and {json_path}")
     return 0
 
@@ -124,8 +125,11 @@ def _fmt(value, spec: str = ".1f", unit: str = "") -> str:
     return "n/a" if value is None else f"{value:{spec}}{unit}"
 
 
-def summary_text(source: str, traits: dict, profile) -> str:
-    """A short human summary of the traits and the top of the profile."""
+def summary_text(source: str, traits: dict, profile, layout: dict | None = None) -> str:
+    """A short human summary of the traits, the stand layout (``layout`` from
+    :func:`rootsim.stand_layout.layout_from_metadata`, if any) and the top of the profile."""
+    from ..stand_layout import describe_layout
+
     by_order = ", ".join(f"order {k}: {v:,.1f}" for k, v in traits["length_by_order_cm"].items())
     lines = [
         f"{source}: {traits['n_plants']} plant(s), {traits['n_segments']:,} segments, {traits['n_tips']:,} tips",
@@ -135,6 +139,7 @@ def summary_text(source: str, traits: dict, profile) -> str:
         f"  width {traits['width_cm']:.1f} cm, convex hull {traits['convex_hull_volume_cm3']:,.0f} cm3 (mean per plant); "
         f"topological index {_fmt(traits['mean_topological_index'], '.3f')}",
     ]
+    lines += describe_layout(layout)
     rows = [f"{r.depth_top_cm:g}-{r.depth_bottom_cm:g} cm: {r.rld_cm_per_cm3:.3g}" for r in profile.head(6).itertuples()]
     more = " ..." if len(profile) > 6 else ""
     lines.append(f"  RLD, cm/cm3 (ground area {profile.attrs['ground_area_cm2']:,.0f} cm2): " + "; ".join(rows) + more)

@@ -35,6 +35,7 @@ def run(args) -> int:
     from ..atomic import atomic_write_text, ensure_output_dir
     from ..growth import grow
     from ..spec import load_spec
+    from ..stand_layout import layout_from_metadata
 
     spec = load_spec(args.spec)
     spec = spec.with_overrides(duration_days=args.days, time_step_days=args.step_days, seed=args.seed,
@@ -44,6 +45,7 @@ def run(args) -> int:
     summary = system.summary()
     summary.update({"spec_name": spec.name, "spec_file": str(args.spec), "duration_days": spec.run.duration_days,
                     "time_step_days": spec.run.time_step_days, "seed": spec.run.seed})
+    summary["stand_layout"] = layout_from_metadata(system.metadata)  # where the plants are
     system.write(Path(out) / "segments.parquet")
     atomic_write_text(Path(out) / "summary.json", json.dumps(summary, indent=2) + "\n")
     if not args.quiet:
