@@ -40,7 +40,8 @@ chosen plants' share of the ground (ground area x chosen plants / plants).
 
 The printout also shows the stand layout (rows along y at their x, plants along each
 row, the stand's cell) so that cores and walls can be placed at real coordinates.
-Large tables are profiled in chunks of segments (see the README for the memory used).
+Large tables are measured in chunks of segments and plant by plant, within a bounded memory
+per segment (see the README); progress shows on a terminal, one line per stage otherwise.
 
 Examples:
   rootsim analyze results/demo
@@ -121,7 +122,8 @@ def _out_dir(path: str) -> Path:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..analysis import layer_profile, root_traits
+    from ..analysis.chunked import chunked_layer_profile, chunked_root_traits
+    from ..progress import progress_bar, stage
     from ..atomic import atomic_path, ensure_output_dir
     from ..rootsystem import RootSystem
     from ..path_names import safe_path_component
@@ -134,7 +136,8 @@ def run(args: argparse.Namespace) -> int:
     box = _box(args.box)
     if area is not None and box is not None:
         raise RootsimError("give either --area-cm2 or --box, not both (with --box the area is the box's)")
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     selection = {"order": args.order, "root_class": args.root_class, "plant": args.plant}
     if any(v is not None for v in selection.values()):
         system = select_segments(system, order=_list(args.order, "--order", int),
@@ -143,8 +146,13 @@ def run(args: argparse.Namespace) -> int:
                                  labels={k: f"--{k.replace('_', '-')} {v}".replace("{", "{{").replace("}", "}}")
                                          for k, v in selection.items()})
     suffix = selection_name(system.metadata.get("selection") or {})
-    profile = layer_profile(system, layer_cm=layer, area_cm2=area, box=box, max_depth_cm=max_depth)
-    traits = root_traits(system, layer_cm=layer, area_cm2=area, box=box)
+    n = len(system)
+    with progress_bar(total=2 * n, desc="analyze", unit="segment") as bar:
+        with stage(f"profiling {n:,} segments"):
+            profile = chunked_layer_profile(system, layer_cm=layer, area_cm2=area, box=box, max_depth_cm=max_depth,
+                                            on_chunk=bar.update)
+        with stage(f"traits of {n:,} segments, plant by plant"):
+            traits = chunked_root_traits(system, layer_cm=layer, area_cm2=area, box=box, on_plant=bar.update)
     traits["profile"] = {
         "layer_cm": layer,
         "max_depth_cm": float(profile["depth_bottom_cm"].iloc[-1]),

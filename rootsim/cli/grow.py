@@ -34,6 +34,7 @@ def register(parser) -> None:
 def run(args) -> int:
     from ..atomic import atomic_write_text, ensure_output_dir
     from ..growth import grow
+    from ..progress import stage
     from ..spec import load_spec
     from ..stand_layout import layout_from_metadata
 
@@ -41,13 +42,15 @@ def run(args) -> int:
     spec = spec.with_overrides(duration_days=args.days, time_step_days=args.step_days, seed=args.seed,
                                max_segments=args.max_segments)
     out = ensure_output_dir(args.out)
-    system = grow(spec)
+    with stage(f"growing {spec.name} for {spec.run.duration_days:g} days", enabled=not args.quiet):
+        system = grow(spec)
     summary = system.summary()
     summary.update({"spec_name": spec.name, "spec_file": str(args.spec), "duration_days": spec.run.duration_days,
                     "time_step_days": spec.run.time_step_days, "seed": spec.run.seed})
     summary["stand_layout"] = layout_from_metadata(system.metadata)  # where the plants are
-    system.write(Path(out) / "segments.parquet")
-    atomic_write_text(Path(out) / "summary.json", json.dumps(summary, indent=2) + "\n")
+    with stage(f"writing {out / 'segments.parquet'} and summary.json", enabled=not args.quiet):
+        system.write(Path(out) / "segments.parquet")
+        atomic_write_text(Path(out) / "summary.json", json.dumps(summary, indent=2) + "\n")
     if not args.quiet:
         print(f"{spec.name}: {summary['n_plants']} plant(s), {summary['n_segments']:,} segments, "
               f"{summary['n_tips']:,} tips, {summary['total_length_cm'] / 100:,.1f} m of root, "

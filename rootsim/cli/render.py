@@ -53,16 +53,19 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from ..progress import stage
     from ..render import parse_size, render_png
     from ..rootsystem import RootSystem
 
     size = parse_size(args.size)
     if not str(args.png).lower().endswith(".png"):
         raise RootsimError(f"--png {args.png}: the file name must end in .png")
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
-    path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
-                      style=args.style, tube_scale=args.tube_scale)
+    with stage(f"rendering {len(system):,} segments to {args.png}"):
+        path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
+                          style=args.style, tube_scale=args.tube_scale)
     print(path)
     return 0

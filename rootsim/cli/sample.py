@@ -105,23 +105,29 @@ def _requests(args):
 
 def run(args: argparse.Namespace) -> int:
     from ..atomic import atomic_path, ensure_output_dir
+    from ..progress import stage
     from ..rootsystem import RootSystem
     from ..sampling import core_grid, sample_cores, sample_projection, sample_tube, sample_wall
 
     cores, grid, walls, tubes, grid_cm = _requests(args)
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     tables = {}
     if grid is not None:
         cores = cores + core_grid(system, **grid)
     if cores:
-        tables["cores.csv"] = sample_cores(system, cores=cores)
+        with stage(f"sampling {len(cores)} core(s)"):
+            tables["cores.csv"] = sample_cores(system, cores=cores)
     if walls:
-        tables["wall.csv"] = sample_wall(system, walls=walls)
+        with stage(f"sampling {len(walls)} wall(s)"):
+            tables["wall.csv"] = sample_wall(system, walls=walls)
     if tubes:
-        tables["tube.csv"] = sample_tube(system, tubes=tubes)
+        with stage(f"sampling {len(tubes)} tube(s)"):
+            tables["tube.csv"] = sample_tube(system, tubes=tubes)
     if grid_cm is not None:
-        tables["projection.csv"] = sample_projection(system, grid_cm=grid_cm, plane=args.projection_plane,
-                                                     band_cm=args.projection_band_cm)
+        with stage("sampling the projection"):
+            tables["projection.csv"] = sample_projection(system, grid_cm=grid_cm, plane=args.projection_plane,
+                                                         band_cm=args.projection_band_cm)
     src = Path(args.dir)
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else (src.parent if src.suffix == ".parquet" else src))
     for name, df in tables.items():
