@@ -17,6 +17,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import pkgutil
+import re
 import sys
 
 from ..errors import RootsimError
@@ -25,7 +26,12 @@ __all__ = ["main", "build_parser"]
 
 
 class _Parser(argparse.ArgumentParser):
-    """argparse with one-line ``error:`` messages and exit code 2 (no usage dump)."""
+    """argparse with one-line ``error:`` messages and exit code 2 (no usage dump); comma lists that
+    start with a negative number (``--core -37.5,-20,4,90``) are values, not unknown options."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = re.compile(r"^-\d[\d.,eE+-]*$|^-\.\d[\d.,eE+-]*$")
 
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(2, f"error: {self.prog}: {message} (see '{self.prog} --help')\n")
