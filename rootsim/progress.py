@@ -75,7 +75,7 @@ def format_seconds(seconds: float) -> str:
 MIN_REPORT_SECONDS = 0.5
 
 
-def stage(label: str, *, enabled: bool = True, stream=None, min_seconds: float = MIN_REPORT_SECONDS):
+def stage(label: str, *, enabled: bool = True, stream=None, min_seconds: float | None = None):
     """Report one stage of long work (reading, growing, writing, sampling, ...) on stderr.
 
     On a terminal the label shows while the stage runs and is replaced by ``"label: 2.31 s"``
@@ -91,7 +91,7 @@ def stage(label: str, *, enabled: bool = True, stream=None, min_seconds: float =
         False writes nothing (``--quiet``).
     stream : file-like, optional
         Default ``sys.stderr``.
-    min_seconds : float
+    min_seconds : float, optional
         Shortest stage reported once done (default :data:`MIN_REPORT_SECONDS`).
 
     Returns
@@ -101,4 +101,5 @@ def stage(label: str, *, enabled: bool = True, stream=None, min_seconds: float =
     """
     stream = sys.stderr if stream is None else stream
     terminal = bool(getattr(stream, "isatty", lambda: False)())
+    min_seconds = MIN_REPORT_SECONDS if min_seconds is None else float(min_seconds)
     return _Stage(label, enabled=enabled, terminal=terminal, stream=stream, min_seconds=min_seconds)

@@ -34,8 +34,9 @@ DEFAULT_CHUNK_SEGMENTS = 500_000
 _PROFILE_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "order")
 
 
-def _chunks(n: int, size: int):
-    size = max(int(size), 1)
+def _chunks(n: int, size: int | None):
+    """(start, stop) of consecutive chunks of ``size`` rows (default :data:`DEFAULT_CHUNK_SEGMENTS`)."""
+    size = max(int(DEFAULT_CHUNK_SEGMENTS if size is None else size), 1)
     for start in range(0, n, size):
         yield start, min(start + size, n)
 
@@ -45,7 +46,7 @@ def _slice(system: Any, names, start: int, stop: int) -> dict:
 
 
 def chunked_layer_profile(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = None, box=None,
-                          max_depth_cm: float | None = None, chunk_segments: int = DEFAULT_CHUNK_SEGMENTS,
+                          max_depth_cm: float | None = None, chunk_segments: int | None = None,
                           on_chunk: Callable[[int], None] | None = None):
     """Same result as :func:`rootsim.analysis.layer_profile`, computed chunk by chunk.
 
@@ -55,8 +56,8 @@ def chunked_layer_profile(system: Any, *, layer_cm: float = 5.0, area_cm2: float
         Segment table (metadata for the ground area as in :func:`layer_profile`).
     layer_cm, area_cm2, box, max_depth_cm
         As for :func:`layer_profile`.
-    chunk_segments : int
-        Rows per chunk.
+    chunk_segments : int, optional
+        Rows per chunk (default :data:`DEFAULT_CHUNK_SEGMENTS`).
     on_chunk : callable, optional
         Called with the number of rows of each finished chunk (for progress bars).
 
@@ -112,7 +113,7 @@ def _depths(system: Any, start: int, stop: int) -> tuple[np.ndarray, np.ndarray,
 
 
 def chunked_quantile_depths(system: Any, fractions, *, n_bins: int = 1024,
-                            chunk_segments: int = DEFAULT_CHUNK_SEGMENTS) -> list[float]:
+                            chunk_segments: int | None = None) -> list[float]:
     """Exact D50/D95-style depths (cm) as :func:`rootsim.analysis.depth_distribution.quantile_depths`,
     with both of its passes done chunk by chunk (the segments reaching into the layer holding a
     quantile are few, and only they are gathered)."""
@@ -193,7 +194,7 @@ def _plant_tables(system: Any):
 
 
 def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = None, box=None,
-                        chunk_segments: int = DEFAULT_CHUNK_SEGMENTS,
+                        chunk_segments: int | None = None,
                         on_plant: Callable[[int], None] | None = None) -> dict:
     """Same result as :func:`rootsim.analysis.root_traits`, computed chunk by chunk and plant by plant.
 
@@ -203,8 +204,8 @@ def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float |
         Segment table.
     layer_cm, area_cm2, box
         As for :func:`root_traits`.
-    chunk_segments : int
-        Rows per chunk of the stand-level sums.
+    chunk_segments : int, optional
+        Rows per chunk of the stand-level sums (default :data:`DEFAULT_CHUNK_SEGMENTS`).
     on_plant : callable, optional
         Called with the number of segments of each finished plant (for progress bars).
 
