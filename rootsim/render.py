@@ -236,16 +236,21 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         _add_stand(plotter, layout, view=view, scale=scale, y_range=(y_lo, y_hi))
         ruler_end = _add_ruler(plotter, view=view, corner=(x_lo, y_lo), x_span=x_hi - x_lo, depth=-box[4])
         z_lo = min(box[4], ruler_end[2])
-        if view != "top":  # a horizontal scale at the bottom right, level with the depth ruler's end
+        if view == "side":  # a horizontal scale at the bottom right, level with the depth ruler's end
             _add_scale_bar(plotter, right=(x_hi, y_lo, z_lo), x_span=x_hi - x_lo)
+        elif view == "iso":  # on the soil surface along its back edge, at the right end, clear of the roots
+            _add_scale_bar(plotter, right=(x_hi, y_hi, 0.0), x_span=x_hi - x_lo)
         if title:
             plotter.add_text(str(title), position="upper_edge", font_size=max(8, int(14 * scale)), color=TEXT_COLOUR)
         z_span = box[5] - z_lo
-        # room for the rulers' labels and titles below their ends
-        frame = np.array([x_lo, max(x_hi, ruler_end[0]), y_lo, y_hi, z_lo - 0.07 * z_span, box[5]])
+        # what is drawn: the roots (and walls), the surface plane, the rulers with room for their labels
+        below = z_lo - 0.07 * z_span
+        points = [[x, y, z] for x in box[0:2] for y in box[2:4] for z in box[4:6]]
+        points += [[x, y, 0.0] for x in (x_lo, x_hi) for y in (y_lo, y_hi)]
+        points += [[x_lo, y_lo, below], list(ruler_end)] + ([[x_hi, y_lo, below]] if view == "side" else [])
         if view == "top":  # the ruler runs along the front edge: room for its labels below it
-            frame[2] -= 0.08 * (y_hi - y_lo)
-        _set_camera(plotter, view, frame=frame, aspect=width / height,
+            points.append([x_lo, y_lo - 0.08 * (y_hi - y_lo), 0.0])
+        _set_camera(plotter, view, points=np.asarray(points, dtype=float), aspect=width / height,
                     legend_height=_legend_height(legend_entries) if color_by != "age" else None)
         image = plotter.screenshot(return_img=True)
     finally:
@@ -456,9 +461,9 @@ MARGIN = 0.02
 LEFT_MARGIN = 0.06
 
 
-def _set_camera(plotter, view: str, *, frame: np.ndarray, aspect: float, legend_height: float | None = None) -> None:
-    """Parallel-projection camera for ``view`` that frames the box ``frame`` ``[x_lo, x_hi, y_lo, y_hi,
-    z_lo, z_hi]`` (cm) tightly: its 8 corners are projected on the view plane and scaled to fill the
+def _set_camera(plotter, view: str, *, points: np.ndarray, aspect: float, legend_height: float | None = None) -> None:
+    """Parallel-projection camera for ``view`` that frames ``points`` (shape (k, 3), cm: the corners of
+    what is drawn) tightly: they are projected on the view plane and their extent scaled to fill the
     picture, keeping a title band at the top and room for the legend at the upper right: either a
     column at the right (roots beside it) or, for a categorical legend of ``legend_height``
     (fraction of the picture), a band at the top (roots below it), whichever shows the roots larger.
@@ -468,7 +473,7 @@ def _set_camera(plotter, view: str, *, frame: np.ndarray, aspect: float, legend_
     right = np.cross(up, toward)
     right /= np.linalg.norm(right)
     up = np.cross(toward, right)
-    corners = np.array([[x, y, z] for x in frame[0:2] for y in frame[2:4] for z in frame[4:6]], dtype=float)
+    corners = np.asarray(points, dtype=float)
     u, v, w = corners @ right, corners @ up, corners @ toward
     width_cm, height_cm = max(float(np.ptp(u)), 1e-6), max(float(np.ptp(v)), 1e-6)
     # regions (left, right, bottom, top) of the picture, in [0, 1], the roots may fill
