@@ -5,9 +5,12 @@
 
 The scene: one polyline per root (geometry from :func:`rootsim.formats.vtk.polydata_from_segments`),
 drawn as lines, thicker for lower root orders, coloured by root order, root class, plant
-(categorical legend, colours from :mod:`rootsim.palette`) or age (scalar bar, days); a translucent soil-surface plane at z = 0; a
-labelled depth ruler in cm from the surface down to (a round number past) the deepest root; an
-optional title. An empty root system gives the empty scene (surface plane and ruler), no error.
+(categorical legend, colours from :mod:`rootsim.palette`) or age (scalar bar, days); a translucent
+soil-surface plane at z = 0; a labelled depth ruler in cm from the surface down to (a round number
+past) the deepest root; a horizontal scale bar in side and oblique views; the walls and bottom of
+a pot or rhizobox; in the top view the plants (dots at their seeds) and the rows of a field stand;
+an optional title. The camera frames what is drawn tightly, the legend beside or above the roots.
+An empty root system gives the empty scene (surface plane and ruler), no error.
 """
 
 from __future__ import annotations

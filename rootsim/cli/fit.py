@@ -16,9 +16,12 @@ from 'rootsim sample'; rows with the same depths are averaged). Writes
   OUT/fitted_spec.toml    the parameter file with the fitted values written in (comments kept)
 
 A normal distribution's mean is fitted (its standard deviation kept); a uniform one is shifted.
+The simulated side is the stand mean (root length over the whole ground area); cores taken in the
+row read several times higher in the topsoil, so give a stand-mean profile. Depth intervals that
+overlap (10 and 15 cm increments mixed) are refused.
 
 example:
-  rootsim fit params/cereal_fibrous.toml --observed field/plot12_cores.csv --days 45 \\
+  rootsim fit params/cereal_fibrous.toml --observed field/plot12_stand_mean.csv --days 45 \\
       --param root_classes.nodal.initial_angle_from_vertical_deg=40:80 \\
       --param root_classes.lateral_first.max_length_cm=5:25 --replicates 2 --out results/fit
 """
