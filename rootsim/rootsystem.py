@@ -251,16 +251,14 @@ def _renumbered_rows(columns: dict) -> dict:
         return columns
     if ids[0] < 0 or np.any(np.diff(ids) <= 0):
         return columns
-    from .subsets import renumber_segments
-
     parent = columns["parent_id"]
-    parent = np.asarray(parent.to_numpy() if hasattr(parent, "to_numpy") else parent, dtype=np.int64)
-    keep = np.zeros(int(ids[-1]) + 1, dtype=bool)
-    keep[ids] = True
-    full_parent = np.full(keep.size, -1, dtype=np.int64)
-    full_parent[ids] = np.where(parent < keep.size, parent, -1)
-    new_ids, new_parent = renumber_segments(keep, full_parent)
-    return {**columns, "segment_id": new_ids, "parent_id": new_parent}
+    parent = np.asarray(parent.to_numpy() if hasattr(parent, "to_numpy") else parent)
+    if not np.issubdtype(parent.dtype, np.integer):
+        return columns
+    position = np.minimum(np.searchsorted(ids, parent), ids.size - 1)
+    kept = (parent >= 0) & (ids[position] == parent)
+    new_parent = np.where(kept, position, -1).astype(np.int64)
+    return {**columns, "segment_id": np.arange(ids.size, dtype=np.int64), "parent_id": new_parent}
 
 
 def empty_columns() -> dict[str, np.ndarray]:

@@ -15,8 +15,11 @@ Render a 3D picture of a root system to a PNG file, offscreen (works on servers
 without a display).
 
 The picture shows every root as a line (thicker for lower orders) coloured by
---color-by, the soil surface as a translucent plane at depth 0, a depth ruler in
-cm, a legend (or a colour bar for age) and an optional title.
+--color-by (one colour-blind-safe palette, the same as in 'rootsim plot' and meshes),
+the soil surface as a translucent plane at depth 0, a depth ruler in cm, a horizontal
+scale bar (side and iso views), the walls of a pot or rhizobox, the plants and rows
+(top view), a legend (or a colour bar for age) and an optional title. The scene is
+framed tightly.
 
   --color-by order       root order: 0 = roots from the seed or shoot, 1 = their laterals, ...
   --color-by root_class  root class names from the parameter file
