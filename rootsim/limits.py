@@ -37,7 +37,7 @@ MAX_TOML_KEY_PARTS = 64
 MAX_TOML_NUMBER_DIGITS = 40
 
 
-def check_cell_count(count: float, *, what: str) -> int:
+def check_cell_count(count: float, *, what: str, noun: str = "cells") -> int:
     """Return ``count`` as an int, or raise a one-line :class:`RootsimError` if it exceeds :data:`MAX_CELLS`.
 
     Parameters
@@ -46,10 +46,12 @@ def check_cell_count(count: float, *, what: str) -> int:
         Number of cells the request implies (may be huge or not finite).
     what : str
         What is counted and which option sets it, e.g. ``"depth layers (--layer-cm 1e-09)"``.
+    noun : str
+        What the count is of, in the message (default ``"cells"``; e.g. ``"increments"``).
     """
     if not math.isfinite(count) or count > MAX_CELLS:
         shown = f"{count:.3g}" if math.isfinite(count) else "infinitely many"
-        raise RootsimError(f"{what} gives {shown} cells (allowed: at most {MAX_CELLS:,}); use a coarser size")
+        raise RootsimError(f"{what} gives {shown} {noun} (allowed: at most {MAX_CELLS:,}); use a coarser size")
     return int(count)
 
 

@@ -27,6 +27,7 @@ from .errors import RootsimError
 __all__ = [
     "FIGURE_FORMATS",
     "plot_rld_profile",
+    "rld_title",
     "plot_projection",
     "projection_paths",
     "profile_order_rld",
@@ -39,6 +40,9 @@ FIGURE_FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
 # Colours of the projection: a sandy soil and dark roots (chosen to read like a rhizobox photo).
 SOIL_COLOUR = "#d8c3a0"
 ROOT_COLOUR = "#2b1a0e"
+# Plants, rows and container walls drawn over the projection: Okabe-Ito blue (see rootsim.palette),
+# which stands out on both the soil and the roots.
+STAND_COLOUR = "#0072b2"
 # Thinnest drawn line, points: fine laterals stay visible although thinner than a pixel at true scale.
 MIN_LINE_WIDTH_PT = 0.25
 
@@ -111,8 +115,14 @@ def profile_order_rld(profile) -> dict[int, np.ndarray]:
     return dict(sorted(out.items()))
 
 
-def _as_profiles(data, *, layer_cm: float, area_cm2: float | None, box) -> dict[str, Any]:
-    """Normalise the ``data`` argument of :func:`plot_rld_profile` to ``{label: profile DataFrame}``."""
+def _is_item(item) -> bool:
+    """A single root system, segment table or profile (not a list of replicates)."""
+    return hasattr(item, "columns") or (isinstance(item, Mapping) and "z0" in item) or hasattr(item, "metadata")
+
+
+def _as_profiles(data, *, layer_cm: float, area_cm2: float | None, box) -> dict[str, list]:
+    """Normalise the ``data`` argument of :func:`plot_rld_profile` to ``{label: [profile, ...]}``
+    (one profile per replicate; all profiled to the same depth so replicates share their layers)."""
     is_table = hasattr(data, "columns") or (isinstance(data, Mapping) and "segment_id" in data and "z0" in data)
     if isinstance(data, Mapping) and not is_table:
         items = list(data.items())
@@ -122,16 +132,47 @@ def _as_profiles(data, *, layer_cm: float, area_cm2: float | None, box) -> dict[
         items = [(None, data)]
     if not items:
         raise RootsimError("plot_rld_profile: nothing to plot (give a root system, a profile, or a mapping of them)")
-    out = {}
-    for label, item in items:
-        if hasattr(item, "columns") and "rld_cm_per_cm3" in getattr(item, "columns", ()):
-            profile = item
-        else:
-            from .analysis import layer_profile
+    groups = [(label, [item] if _is_item(item) else list(item)) for label, item in items]
+    if any(not members for _, members in groups):
+        raise RootsimError("plot_rld_profile: a variant has an empty list of replicates")
+    systems = [m for _, members in groups for m in members
+               if not (hasattr(m, "columns") and "rld_cm_per_cm3" in getattr(m, "columns", ()))]
+    deepest = None
+    if systems and sum(len(members) for _, members in groups) > 1:  # a common depth so replicates line up
+        from .analysis.inputs import float_column
 
-            profile = layer_profile(item, layer_cm=layer_cm, area_cm2=area_cm2, box=box)
-        out[label] = profile
+        depths = [float(-min(float_column(m, "z0").min(), float_column(m, "z1").min())) for m in systems if len(m["z0"])]
+        deepest = max(depths) if depths else None
+        if deepest is not None:
+            deepest = max(layer_cm * np.ceil(deepest / layer_cm - 1e-9), layer_cm)
+    out = {}
+    for label, members in groups:
+        profiles = []
+        for item in members:
+            if hasattr(item, "columns") and "rld_cm_per_cm3" in getattr(item, "columns", ()):
+                profiles.append(item)
+            else:
+                from .analysis import layer_profile
+
+                profiles.append(layer_profile(item, layer_cm=layer_cm, area_cm2=area_cm2, box=box, max_depth_cm=deepest))
+        out[label] = profiles
     return out
+
+
+def _replicate_stats(profiles: list, values) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mid-depths, mean and sample standard deviation (0 for one replicate) across replicate profiles.
+
+    ``values(profile)`` gives one array per profile, one value per layer; shorter profiles (fewer
+    layers, no roots deeper) are padded with zeros, so layers are matched from the surface down.
+    """
+    longest = max(profiles, key=len)
+    mid = 0.5 * (np.asarray(longest["depth_top_cm"], float) + np.asarray(longest["depth_bottom_cm"], float))
+    stack = np.zeros((len(profiles), len(longest)))
+    for i, profile in enumerate(profiles):
+        v = np.asarray(values(profile), dtype=float)
+        stack[i, : len(v)] = v
+    spread = stack.std(axis=0, ddof=1) if len(profiles) > 1 else np.zeros(len(longest))
+    return mid, stack.mean(axis=0), spread
 
 
 def plot_rld_profile(
@@ -147,7 +188,8 @@ def plot_rld_profile(
     """Root length density against depth, depth increasing downward.
 
     Each layer's RLD is drawn at the layer's mid-depth, points joined by lines (common practice
-    for soil-core profiles).
+    for soil-core profiles). Colours come from the one palette (:mod:`rootsim.palette`): all
+    roots in black, order k in order k's colour; variants in the palette's colours in turn.
 
     Parameters
     ----------
@@ -155,7 +197,9 @@ def plot_rld_profile(
         A root system or segment table (RootSystem, DataFrame, or dict of columns; profiled with
         :func:`rootsim.analysis.layer_profile`), a profile DataFrame already computed, or several
         of either: a mapping ``{label: item}`` (labels shown in the legend, e.g. variant names)
-        or a list (labelled ``variant 1``, ``variant 2``, ...).
+        or a list (labelled ``variant 1``, ``variant 2``, ...). A mapping value may be a list of
+        replicates of that variant: it is drawn as the mean of the replicates (line, legend
+        ``"label (n=k)"``) with a band of ± one sample standard deviation.
     layer_cm : float
         Layer thickness, cm, used when profiling root systems.
     area_cm2 : float, optional
@@ -174,33 +218,41 @@ def plot_rld_profile(
     Returns
     -------
     matplotlib.figure.Figure
-        Lines carry the data: x = RLD, cm cm⁻³, y = mid-depth, cm; their labels are
-        ``"all roots"`` / ``"order <k>"`` (one data set) or the variant labels (several).
+        Lines carry the data: x = RLD, cm cm⁻³ (mean over replicates), y = mid-depth, cm; their
+        labels are ``"all roots"`` / ``"order <k>"`` (one data set) or the variant labels
+        (several; ``"label (n=k)"`` for k > 1 replicates, whose band is a PolyCollection).
     """
-    profiles = _as_profiles(data, layer_cm=layer_cm, area_cm2=area_cm2, box=box)
-    single = len(profiles) == 1
-    orders = sorted({k for p in profiles.values() for k in profile_order_rld(p)}) if by_order else []
+    groups = _as_profiles(data, layer_cm=layer_cm, area_cm2=area_cm2, box=box)
+    single = len(groups) == 1 and len(next(iter(groups.values()))) == 1
+    orders = sorted({k for ps in groups.values() for p in ps for k in profile_order_rld(p)}) if by_order else []
     panels = ["all roots"] if single else ["all roots"] + [f"order {k}" for k in orders]
     if figsize is None:
         figsize = (4.2 + 2.6 * (len(panels) - 1), 5.0)
     fig = _new_figure(figsize)
     axes = fig.subplots(1, len(panels), sharey=True, squeeze=False)[0]
-    colours = _qualitative_colours(max(len(profiles), len(orders) + 1))
-    for v, (label, profile) in enumerate(profiles.items()):
-        mid = 0.5 * (np.asarray(profile["depth_top_cm"], float) + np.asarray(profile["depth_bottom_cm"], float))
-        total = np.asarray(profile["rld_cm_per_cm3"], dtype=float)
-        per_order = profile_order_rld(profile) if by_order else {}
+    colours = _qualitative_colours(max(len(groups), 1))
+    for v, (label, profiles) in enumerate(groups.items()):
         if single:
+            profile = profiles[0]
+            mid = 0.5 * (np.asarray(profile["depth_top_cm"], float) + np.asarray(profile["depth_bottom_cm"], float))
+            total = np.asarray(profile["rld_cm_per_cm3"], dtype=float)
+            per_order = profile_order_rld(profile) if by_order else {}
             ax = axes[0]
             ax.plot(total, mid, color="black", linewidth=2.0, marker="o", markersize=3.5, label="all roots")
-            for i, k in enumerate(orders):
-                ax.plot(per_order.get(k, np.zeros_like(total)), mid, color=colours[i + 1], linewidth=1.3,
+            for k in orders:
+                ax.plot(per_order.get(k, np.zeros_like(total)), mid, color=_order_colour(k), linewidth=1.3,
                         marker="o", markersize=2.5, linestyle="--", label=f"order {k}")
-        else:
-            axes[0].plot(total, mid, color=colours[v], linewidth=1.8, marker="o", markersize=3, label=label)
-            for i, k in enumerate(orders):
-                axes[i + 1].plot(per_order.get(k, np.zeros_like(total)), mid, color=colours[v], linewidth=1.5,
-                                 marker="o", markersize=2.5, label=label)
+            continue
+        shown = label if len(profiles) == 1 else f"{label} (n={len(profiles)})"
+        series = [(axes[0], lambda p: p["rld_cm_per_cm3"])]
+        series += [(axes[i + 1], lambda p, k=k: profile_order_rld(p).get(k, np.zeros(len(p))))
+                   for i, k in enumerate(orders)]
+        for ax, values in series:
+            mid, mean, spread = _replicate_stats(profiles, values)
+            ax.plot(mean, mid, color=colours[v], linewidth=1.8, marker="o", markersize=3, label=shown)
+            if len(profiles) > 1:
+                ax.fill_betweenx(mid, np.maximum(mean - spread, 0.0), mean + spread, color=colours[v], alpha=0.25,
+                                 linewidth=0, label=f"_{shown} ± 1 s.d.")
     for ax, name in zip(axes, panels):
         ax.set_xlabel("RLD (cm cm⁻³)")
         ax.xaxis.set_label_position("top")
@@ -210,25 +262,47 @@ def plot_rld_profile(
         if not single:
             ax.set_title(name, fontsize="medium")
     axes[0].set_ylabel("depth (cm)")
-    axes[0].set_ylim(bottom=_profile_bottom(profiles), top=0)  # depth increases downward
+    axes[0].set_ylim(bottom=_profile_bottom(groups), top=0)  # depth increases downward
     if any(ax.lines for ax in axes):
         axes[0].legend(fontsize="small", loc="lower right", frameon=False)
+    if any(len(ps) > 1 for ps in groups.values()):
+        fig.supxlabel("lines: mean of the replicate stands; bands: ± 1 standard deviation", fontsize="small")
     if title:
         fig.suptitle(title)
     return fig
 
 
-def _profile_bottom(profiles: Mapping[str, Any]) -> float:
-    bottoms = [float(np.max(p["depth_bottom_cm"])) for p in profiles.values() if len(p)]
+def rld_title(what: str, *, day: float | None = None, area_cm2: float | None = None) -> str:
+    """Title of an RLD figure that says what the RLD is of, when, and over which ground area.
+
+    E.g. ``rld_title("demo", day=45, area_cm2=9000)`` gives
+    ``"demo: stand-mean RLD, day 45, ground area 9,000 cm²"``.
+    """
+    parts = [f"{what}: stand-mean RLD"]
+    if day is not None:
+        parts.append(f"day {day:g}")
+    if area_cm2 is not None:
+        parts.append(f"ground area {area_cm2:,.0f} cm²")
+    return ", ".join(parts)
+
+
+def _profile_bottom(groups: Mapping[str, list]) -> float:
+    bottoms = [float(np.max(p["depth_bottom_cm"])) for ps in groups.values() for p in ps if len(p)]
     return max(bottoms) if bottoms else 1.0
 
 
 def _qualitative_colours(n: int) -> list:
-    """``n`` distinguishable colours (matplotlib's tab10, then tab20)."""
-    import matplotlib
+    """``n`` colours of the one palette (:mod:`rootsim.palette`, colour-blind safe), RGB in [0, 1]."""
+    from .palette import category_colours
 
-    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
-    return [cmap(i % cmap.N) for i in range(n)]
+    return [tuple(c) for c in category_colours(n)]
+
+
+def _order_colour(order: int) -> tuple:
+    """RGB colour (floats in [0, 1]) of root order ``order`` in the one palette."""
+    from .palette import order_colours
+
+    return tuple(order_colours([order])[0] / 255.0)
 
 
 # --------------------------------------------------------------------------------------------
@@ -246,6 +320,9 @@ def _projection_extent(system, margin_fraction: float = 0.04) -> tuple[float, fl
     depth = float(container["depth_cm"]) if kind in ("rhizobox", "pot") and container.get("depth_cm") else None
     x = np.concatenate([np.asarray(system["x0"], float), np.asarray(system["x1"], float)])
     z = np.concatenate([np.asarray(system["z0"], float), np.asarray(system["z1"], float)])
+    stand = (system.metadata or {}).get("stand", {}) if hasattr(system, "metadata") else {}
+    if stand.get("plant_positions_cm"):  # keep every plant (and so every row) in view
+        x = np.concatenate([x, np.asarray(stand["plant_positions_cm"], float).reshape(-1, 3)[:, 0]])
     if half is None:
         if x.size:
             lo, hi = float(x.min()), float(x.max())
@@ -346,7 +423,9 @@ def plot_projection(
     polylines, see :func:`projection_paths`). Line width is the segment diameter at the
     figure's true scale (times ``width_scale``; radii binned in 10 % steps), at least
     ``MIN_LINE_WIDTH_PT`` points; thick roots are drawn last so they stay on top. The view covers the container (rhizobox width
-    or pot diameter and depth) when the metadata give one, else the roots plus a margin.
+    or pot diameter and depth) when the metadata give one, else the roots plus a margin. When the
+    metadata hold a stand, the plants' seed positions (triangles), the rows (dashed lines at their x)
+    and the walls of a pot or rhizobox are drawn over the roots.
 
     Parameters
     ----------
@@ -365,7 +444,8 @@ def plot_projection(
     -------
     matplotlib.figure.Figure
         One Axes, x = horizontal position (cm), y = depth (cm, increasing downward), equal
-        aspect; ``ax.collections[0]`` is the LineCollection of the roots.
+        aspect; ``ax.collections[0]`` is the LineCollection of the roots; the Line2D objects with
+        gid ``"plants"``, ``"rows"`` and ``"container"`` carry the stand's coordinates.
     """
     from matplotlib.collections import LineCollection
 
@@ -395,4 +475,31 @@ def plot_projection(
     widths = np.maximum(2.0 * radius * points_per_cm * width_scale, MIN_LINE_WIDTH_PT)
     ax.add_collection(LineCollection(paths, colors=root_colour, linewidths=widths, capstyle="round",
                                      joinstyle="round"))
+    _draw_stand(ax, system, depth_max=depth_max)
     return fig
+
+
+def _draw_stand(ax, system, *, depth_max: float) -> None:
+    """Where the plants are, on an x–depth Axes: rows (dashed vertical lines, gid ``"rows"``) and seed
+    positions (triangles, gid ``"plants"``) of a field stand, and the walls and bottom of a pot or
+    rhizobox (gid ``"container"``); with a small legend. Nothing without stand metadata."""
+    from .stand_layout import layout_from_metadata
+
+    layout = layout_from_metadata(getattr(system, "metadata", None))
+    if layout is None:
+        return
+    kind = (layout.get("container") or {}).get("kind", "field")
+    if kind == "field":
+        for i, x in enumerate(layout["row_x_cm"]):
+            ax.axvline(x, color=STAND_COLOUR, linewidth=0.8, linestyle=(0, (4, 3)), alpha=0.8,
+                       label="row" if i == 0 else "_row", gid="rows")
+    else:
+        half = 0.5 * (layout["cell_x_cm"][1] - layout["cell_x_cm"][0])
+        bottom = float(layout["container"]["depth_cm"])
+        ax.plot([-half, -half, half, half], [0.0, bottom, bottom, 0.0], color=STAND_COLOUR, linewidth=2.0,
+                label=f"{kind} wall", gid="container", clip_on=False)
+    positions = np.asarray(layout["plant_positions_cm"], dtype=float).reshape(-1, 3)
+    if len(positions):
+        ax.plot(positions[:, 0], -positions[:, 2], linestyle="none", marker="v", markersize=7,
+                markerfacecolor=STAND_COLOUR, markeredgecolor="white", label="plant (seed)", gid="plants")
+    ax.legend(loc="lower right", fontsize="x-small", framealpha=0.85)

@@ -5,9 +5,12 @@
 
 The scene: one polyline per root (geometry from :func:`rootsim.formats.vtk.polydata_from_segments`),
 drawn as lines, thicker for lower root orders, coloured by root order, root class, plant
-(categorical legend) or age (scalar bar, days); a translucent soil-surface plane at z = 0; a
-labelled depth ruler in cm from the surface down to (a round number past) the deepest root; an
-optional title. An empty root system gives the empty scene (surface plane and ruler), no error.
+(categorical legend, colours from :mod:`rootsim.palette`) or age (scalar bar, days); a translucent
+soil-surface plane at z = 0; a labelled depth ruler in cm from the surface down to (a round number
+past) the deepest root; a horizontal scale bar in side and oblique views; the walls and bottom of
+a pot or rhizobox; in the top view the plants (dots at their seeds) and the rows of a field stand;
+an optional title. The camera frames what is drawn tightly, the legend beside or above the roots.
+An empty root system gives the empty scene (surface plane and ruler), no error.
 """
 
 from __future__ import annotations
@@ -123,30 +126,29 @@ def ruler_ticks(extent_cm: float, *, min_steps: int = 3, max_steps: int = 8) -> 
     return best[0], best[1] + 1
 
 
-def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str]]:
-    """Category index per polyline, shape (p,), and the legend label of each category."""
+def _categories(color_by: str, poly) -> tuple[np.ndarray, list[str], np.ndarray]:
+    """Category index per polyline, shape (p,), the legend label of each category and its RGB
+    colour (floats in [0, 1], shape (k, 3)) from the one palette (:mod:`rootsim.palette`): root
+    order k always gets order k's colour, other categories the palette in turn."""
+    from .palette import category_colours, order_colours
+
     if color_by == "order":
         values = np.asarray(poly.cell_data["order"])
         kinds = np.unique(values)
         labels = [f"order {k}" for k in kinds]
+        colours = order_colours(kinds).astype(np.float64) / 255.0
     elif color_by == "plant":
         values = np.asarray(poly.cell_data["plant_id"])
         kinds = np.unique(values)
         labels = [f"plant {k}" for k in kinds]
+        colours = category_colours(len(kinds))
     else:
         values = np.asarray(poly.cell_data["root_class_code"])
         names = [str(s) for s in np.asarray(poly.field_data["root_class_names"])]
         kinds = np.unique(values)
         labels = [names[k] if 0 <= k < len(names) else str(k) for k in kinds]
-    return np.searchsorted(kinds, values), labels
-
-
-def _palette(n: int) -> np.ndarray:
-    """``n`` distinguishable RGB colours, floats in [0, 1], shape (n, 3) (matplotlib's tab10 / tab20)."""
-    import matplotlib
-
-    cmap = matplotlib.colormaps["tab10" if n <= 10 else "tab20"]
-    return np.array([cmap(i % cmap.N)[:3] for i in range(n)])
+        colours = category_colours(len(kinds))
+    return np.searchsorted(kinds, values), labels, colours
 
 
 def _scene_bounds(system) -> np.ndarray:
@@ -212,7 +214,11 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
 
     from .formats.vtk import polydata_from_segments
 
+    from .stand_layout import layout_from_metadata
+
+    layout = layout_from_metadata(getattr(system, "metadata", None))
     box = _scene_bounds(system)
+    box = _with_stand(box, layout, view=view)
     margin = 0.06 * float(np.max(box[1::2] - box[0::2]))
     x_lo, x_hi, y_lo, y_hi = box[0] - margin, box[1] + margin, box[2] - margin, box[3] + margin
     scale = math.sqrt(width * height / (1200 * 900))  # line widths follow the image size
@@ -220,23 +226,35 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     plotter = pv.Plotter(off_screen=True, window_size=(width, height))
     try:
         plotter.set_background(BACKGROUND)
+        legend_entries = 0
         if len(system):
-            _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale,
-                       tube_scale=tube_scale if style == "tubes" else None)
+            legend_entries = _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale,
+                                        tube_scale=tube_scale if style == "tubes" else None)
         plane = pv.Plane(center=(0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi), 0.0), direction=(0, 0, 1),
                          i_size=x_hi - x_lo, j_size=y_hi - y_lo, i_resolution=1, j_resolution=1)
         plotter.add_mesh(plane, color=SURFACE_COLOUR, opacity=SURFACE_OPACITY, lighting=False)
         # front edge of the surface, so the surface shows as a line in the side view too
         plotter.add_mesh(pv.Line((x_lo, y_lo, 0.0), (x_hi, y_lo, 0.0)), color=SURFACE_COLOUR,
                          line_width=2.0 * scale, lighting=False)
+        _add_stand(plotter, layout, view=view, scale=scale, y_range=(y_lo, y_hi))
         ruler_end = _add_ruler(plotter, view=view, corner=(x_lo, y_lo), x_span=x_hi - x_lo, depth=-box[4])
+        z_lo = min(box[4], ruler_end[2])
+        if view == "side":  # a horizontal scale at the bottom right, level with the depth ruler's end
+            _add_scale_bar(plotter, right=(x_hi, y_lo, z_lo), x_span=x_hi - x_lo)
+        elif view == "iso":  # on the soil surface along its back edge, at the right end, clear of the roots
+            _add_scale_bar(plotter, right=(x_hi, y_hi, 0.0), x_span=x_hi - x_lo)
         if title:
             plotter.add_text(str(title), position="upper_edge", font_size=max(8, int(14 * scale)), color=TEXT_COLOUR)
-        z_lo = min(box[4], ruler_end[2])
         z_span = box[5] - z_lo
-        # room for the ruler's title below its end and for the picture title above the surface
-        frame = np.array([x_lo, max(x_hi, ruler_end[0]), y_lo, y_hi, z_lo - 0.06 * z_span, box[5] + 0.06 * z_span])
-        _set_camera(plotter, view, frame=frame, aspect=width / height)
+        # what is drawn: the roots (and walls), the surface plane, the rulers with room for their labels
+        below = z_lo - 0.07 * z_span
+        points = [[x, y, z] for x in box[0:2] for y in box[2:4] for z in box[4:6]]
+        points += [[x, y, 0.0] for x in (x_lo, x_hi) for y in (y_lo, y_hi)]
+        points += [[x_lo, y_lo, below], list(ruler_end)] + ([[x_hi, y_lo, below]] if view == "side" else [])
+        if view == "top":  # the ruler runs along the front edge: room for its labels below it
+            points.append([x_lo, y_lo - 0.08 * (y_hi - y_lo), 0.0])
+        _set_camera(plotter, view, points=np.asarray(points, dtype=float), aspect=width / height,
+                    legend_height=_legend_height(legend_entries) if color_by != "age" else None)
         image = plotter.screenshot(return_img=True)
     finally:
         plotter.close()
@@ -269,10 +287,11 @@ def _line_subset(poly, cells: np.ndarray, *, point_scalars: dict, cell_scalars: 
     return part
 
 
-def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float | None = None) -> None:
+def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float | None = None) -> int:
     """Add the roots, one actor per root-order group (order 0, 1, >= 2), and their legend
-    (categorical colourings) or scalar bar (age). Lines get widths by order; with ``tube_scale``
-    the roots become shaded tubes of radius ``tube_radius_cm * tube_scale`` instead."""
+    (categorical colourings) or scalar bar (age); return the number of legend entries (0 for age).
+    Lines get widths by order; with ``tube_scale`` the roots become shaded tubes of radius
+    ``tube_radius_cm * tube_scale`` instead."""
     point_scalars, cell_scalars = {}, {}
     if color_by == "age":
         age = np.asarray(poly.point_data["age_days"], dtype=float)
@@ -280,8 +299,7 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float 
         style = {"scalars": "age_days", "cmap": AGE_COLOURMAP, "show_scalar_bar": False,
                  "clim": (float(age.min()), float(max(age.max(), age.min() + 1e-9)))}
     else:
-        category, labels = _categories(color_by, poly)
-        colours = _palette(len(labels))
+        category, labels, colours = _categories(color_by, poly)
         cell_scalars["colour_rgb"] = (colours[category] * 255).astype(np.uint8)
         style = {"scalars": "colour_rgb", "rgb": True, "preference": "cell"}
     if tube_scale is not None:
@@ -300,15 +318,23 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float 
         plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
                                position_x=0.84, position_y=0.2, width=0.06, height=0.6, unique_bar=True,
                                title_font_size=max(7, int(22 * scale)), label_font_size=max(7, int(20 * scale)))
-    else:
-        _add_legend(plotter, [[label, colours[i]] for i, label in enumerate(labels)])
+        return 0
+    entries = [[label, colours[i]] for i, label in enumerate(labels)]
+    _add_legend(plotter, entries)
+    return len(entries)
+
+
+def _legend_height(count: int) -> float:
+    """Height of a categorical legend of ``count`` entries, as a fraction of the picture height."""
+    shown = min(count, MAX_LEGEND_ENTRIES + 1)
+    return min(0.036 * shown + 0.015, 0.6)
 
 
 def _add_legend(plotter, entries: list) -> None:
     """A categorical legend ``[[label, rgb], ...]`` at the upper right, at most MAX_LEGEND_ENTRIES lines."""
     if len(entries) > MAX_LEGEND_ENTRIES:
         entries = entries[:MAX_LEGEND_ENTRIES] + [[f"... {len(entries) - MAX_LEGEND_ENTRIES} more", "gray"]]
-    height = min(0.036 * len(entries) + 0.015, 0.6)
+    height = _legend_height(len(entries))
     legend = plotter.add_legend(labels=entries, bcolor=BACKGROUND, face="rectangle", size=(0.16, height))
     # place the box explicitly (normalised viewport), right edge inside the picture, below the title
     for coordinate, value in ((legend.GetPositionCoordinate(), (0.82, 0.92 - height)),
@@ -340,6 +366,87 @@ def _add_ruler(plotter, *, view: str, corner: tuple[float, float], x_span: float
     return b
 
 
+def _with_stand(box: np.ndarray, layout: dict | None, *, view: str) -> np.ndarray:
+    """The scene box grown to hold a pot's or rhizobox's walls and bottom, and in the top view the
+    plants and the rows across the stand's cell."""
+    if layout is None:
+        return box
+    box = box.copy()
+    kind = (layout.get("container") or {}).get("kind", "field")
+    if kind != "field":
+        box[0], box[1] = min(box[0], layout["cell_x_cm"][0]), max(box[1], layout["cell_x_cm"][1])
+        box[2], box[3] = min(box[2], layout["cell_y_cm"][0]), max(box[3], layout["cell_y_cm"][1])
+        box[4] = min(box[4], -float(layout["container"]["depth_cm"]))
+    elif view == "top":
+        positions = np.asarray(layout["plant_positions_cm"], dtype=float).reshape(-1, 3)
+        if len(positions):
+            box[0], box[1] = min(box[0], positions[:, 0].min()), max(box[1], positions[:, 0].max())
+            box[2], box[3] = min(box[2], positions[:, 1].min()), max(box[3], positions[:, 1].max())
+    return box
+
+
+#: Colour of the plant markers and row lines of the top view, and of container walls.
+STAND_COLOUR = "black"
+#: Diameter of a plant marker at 1200 x 900 pixels.
+PLANT_MARKER_PX = 14.0
+
+
+def _add_stand(plotter, layout: dict | None, *, view: str, scale: float, y_range: tuple[float, float]) -> None:
+    """Where the plants are: walls and bottom of a pot (rim and bottom circles and the outline of its
+    side as seen from the view) or rhizobox
+    (box edges) in every view; in the top view of a field stand the rows (lines along y at their x
+    across the picture) and the plants (round markers at their seed positions, drawn at the surface)."""
+    import pyvista as pv
+
+    if layout is None:
+        return
+    container = layout.get("container") or {}
+    kind = container.get("kind", "field")
+    width = max(MIN_LINE_WIDTH_PX, 2.0 * scale)
+    if kind == "pot":
+        radius, depth = 0.5 * float(container["diameter_cm"]), float(container["depth_cm"])
+        angle = np.linspace(0.0, 2.0 * np.pi, 97)
+        for z in (0.0, -depth):
+            ring = np.column_stack([radius * np.cos(angle), radius * np.sin(angle), np.full(angle.size, z)])
+            plotter.add_mesh(pv.lines_from_points(ring), color=STAND_COLOUR, line_width=width, lighting=False)
+        toward = np.asarray(_VIEW_DIRECTIONS[view][0][:2], dtype=float)
+        if np.linalg.norm(toward) > 0:  # the cylinder's outline seen from this side: two vertical lines
+            across = np.array([-toward[1], toward[0]]) / np.linalg.norm(toward)
+            for sign in (-1.0, 1.0):
+                x, y = sign * radius * across
+                plotter.add_mesh(pv.Line((x, y, 0.0), (x, y, -depth)), color=STAND_COLOUR, line_width=width,
+                                 lighting=False)
+    elif kind == "rhizobox":
+        bounds = (*layout["cell_x_cm"], *layout["cell_y_cm"], -float(container["depth_cm"]), 0.0)
+        plotter.add_mesh(pv.Box(bounds=bounds).extract_all_edges(), color=STAND_COLOUR, line_width=width,
+                         lighting=False)
+    if view != "top":
+        return
+    if kind == "field":
+        for x in layout["row_x_cm"]:
+            plotter.add_mesh(pv.Line((x, y_range[0], 0.05), (x, y_range[1], 0.05)), color=STAND_COLOUR,
+                             line_width=max(1.0, 1.0 * scale), lighting=False, opacity=0.6)
+    positions = np.asarray(layout["plant_positions_cm"], dtype=float).reshape(-1, 3)
+    if len(positions):
+        points = positions.copy()
+        points[:, 2] = 0.1  # on top of the surface plane and the roots below it
+        plotter.add_points(points, color=STAND_COLOUR, point_size=PLANT_MARKER_PX * scale,
+                           render_points_as_spheres=True, lighting=False)
+
+
+def _add_scale_bar(plotter, *, right: tuple[float, float, float], x_span: float) -> None:
+    """A horizontal scale bar in cm along x, ending at ``right`` (the picture's lower right corner),
+    about a quarter of the scene wide in a round length (1, 2 or 5 x 10^k cm)."""
+    length = _nice_step(0.25 * x_span, up=False)
+    x1, y, z = right
+    ruler = plotter.add_ruler((x1 - length, y, z), (x1, y, z), title="cm", number_labels=3,
+                              label_format="%.0f" if length / 2 >= 1 else "%g", label_color=TEXT_COLOUR,
+                              tick_color=TEXT_COLOUR, font_size_factor=0.7)
+    ruler.SetTitlePosition(1.0)
+    ruler.GetProperty().SetColor(0.0, 0.0, 0.0)
+    ruler.GetProperty().SetLineWidth(MIN_LINE_WIDTH_PX)
+
+
 #: Direction from the scene to the camera, and the up vector, of each view.
 _VIEW_DIRECTIONS = {
     "side": ((0.0, -1.0, 0.0), (0.0, 0.0, 1.0)),  # camera on -y looking along +y: x right, z up
@@ -348,24 +455,49 @@ _VIEW_DIRECTIONS = {
 }
 
 
-def _set_camera(plotter, view: str, *, frame: np.ndarray, aspect: float) -> None:
-    """Parallel-projection camera for ``view`` that fits the box ``frame`` ``[x_lo, x_hi, y_lo, y_hi,
-    z_lo, z_hi]`` (cm) exactly: its 8 corners are projected on the view plane and the view is
-    centred on their extent, with the right quarter kept free for the legend or scalar bar."""
+#: Fraction of the picture height kept free at the top for the title.
+TITLE_BAND = 0.08
+#: Fraction of the picture width kept free at the right for a legend or colour bar beside the roots.
+LEGEND_COLUMN = 0.19
+#: Free margin around the roots, as a fraction of the picture; more on the left for the ruler labels.
+MARGIN = 0.02
+LEFT_MARGIN = 0.06
+
+
+def _set_camera(plotter, view: str, *, points: np.ndarray, aspect: float, legend_height: float | None = None) -> None:
+    """Parallel-projection camera for ``view`` that frames ``points`` (shape (k, 3), cm: the corners of
+    what is drawn) tightly: they are projected on the view plane and their extent scaled to fill the
+    picture, keeping a title band at the top and room for the legend at the upper right: either a
+    column at the right (roots beside it) or, for a categorical legend of ``legend_height``
+    (fraction of the picture), a band at the top (roots below it), whichever shows the roots larger.
+    """
     toward, up = (np.asarray(v, dtype=float) for v in _VIEW_DIRECTIONS[view])
     toward /= np.linalg.norm(toward)
     right = np.cross(up, toward)
     right /= np.linalg.norm(right)
     up = np.cross(toward, right)
-    corners = np.array([[x, y, z] for x in frame[0:2] for y in frame[2:4] for z in frame[4:6]], dtype=float)
+    corners = np.asarray(points, dtype=float)
     u, v, w = corners @ right, corners @ up, corners @ toward
-    u_lo, u_hi = u.min(), u.max() + 0.25 * (u.max() - u.min())
-    centre = 0.5 * ((u_lo + u_hi) * right + (v.min() + v.max()) * up + (w.min() + w.max()) * toward)
+    width_cm, height_cm = max(float(np.ptp(u)), 1e-6), max(float(np.ptp(v)), 1e-6)
+    # regions (left, right, bottom, top) of the picture, in [0, 1], the roots may fill
+    regions = [(LEFT_MARGIN, 1.0 - LEGEND_COLUMN - MARGIN, MARGIN, 1.0 - TITLE_BAND)]
+    if legend_height is not None:
+        regions.append((LEFT_MARGIN, 1.0 - MARGIN, MARGIN, 1.0 - TITLE_BAND - legend_height - MARGIN))
+    best = None
+    for left, right_edge, bottom, top in regions:
+        # half the picture height in cm so that the box fits the region in both directions
+        half = max(0.5 * height_cm / (top - bottom), 0.5 * width_cm / (aspect * (right_edge - left)))
+        if best is None or half < best[0]:
+            best = (half, left, right_edge, bottom, top)
+    half, left, right_edge, bottom, top = best
+    # the picture centre, so that the box's centre lands on the region's centre
+    u_centre = 0.5 * (u.min() + u.max()) - (0.5 * (left + right_edge) - 0.5) * 2.0 * half * aspect
+    v_centre = 0.5 * (v.min() + v.max()) - (0.5 * (bottom + top) - 0.5) * 2.0 * half
+    centre = u_centre * right + v_centre * up + 0.5 * (w.min() + w.max()) * toward
     distance = 2.0 * float(np.ptp(w) + np.ptp(u) + np.ptp(v)) + 1.0
     plotter.camera_position = [tuple(centre + distance * toward), tuple(centre), tuple(up)]
     plotter.enable_parallel_projection()
-    room = 1.12  # space for the title and the ruler labels
-    plotter.camera.parallel_scale = room * max(0.5 * np.ptp(v), 0.5 * (u_hi - u_lo) / aspect)
+    plotter.camera.parallel_scale = half
     plotter.reset_camera_clipping_range()
 
 

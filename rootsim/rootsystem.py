@@ -140,9 +140,28 @@ class RootSystem:
 
     @classmethod
     def from_dataframe(cls, df, metadata: Mapping | None = None) -> "RootSystem":
-        """Build from a DataFrame in the segment-table layout (validated)."""
+        """Build from a DataFrame in the segment-table layout (validated).
+
+        Rows of a larger table (``df[df["order"] == 1]``) are accepted: strictly increasing
+        ``segment_id`` values are renumbered 0..m-1 and parents left out become -1 (as
+        :meth:`select` does, which also keeps the stand metadata right for chosen plants).
+        """
         meta = dict(df.attrs.get("rootsim", {})) if metadata is None else dict(metadata)
-        return cls({c: df[c] for c in df.columns}, meta)
+        columns = {c: df[c] for c in df.columns}
+        if "segment_id" in columns and "parent_id" in columns:
+            columns = _renumbered_rows(columns)
+        return cls(columns, meta)
+
+    def select(self, *, order=None, root_class=None, plant=None) -> "RootSystem":
+        """The segments of some root orders, root classes and/or plants, with the stand metadata.
+
+        ``system.select(order=1)``, ``system.select(root_class="nodal", plant=[0, 2])``; see
+        :func:`rootsim.subsets.select_segments`. Profiles and traits of the result use the
+        stand's ground area (for chosen plants: their share of it).
+        """
+        from .subsets import select_segments
+
+        return select_segments(self, order=order, root_class=root_class, plant=plant)
 
     def to_networkx(self):
         """A :class:`networkx.DiGraph` of segments, edges parent -> child.
@@ -235,6 +254,26 @@ class RootSystem:
         from .render import render_image
 
         return render_image(self, **kwargs)
+
+
+def _renumbered_rows(columns: dict) -> dict:
+    """``columns`` with segment ids renumbered 0..m-1 if they are a strictly increasing subset of a
+    larger table's ids (parents outside the rows become -1); otherwise unchanged (validation then
+    reports what is wrong)."""
+    ids = np.asarray(columns["segment_id"].to_numpy() if hasattr(columns["segment_id"], "to_numpy")
+                     else columns["segment_id"])
+    if ids.size == 0 or not np.issubdtype(ids.dtype, np.integer) or np.array_equal(ids, np.arange(ids.size)):
+        return columns
+    if ids[0] < 0 or np.any(np.diff(ids) <= 0):
+        return columns
+    parent = columns["parent_id"]
+    parent = np.asarray(parent.to_numpy() if hasattr(parent, "to_numpy") else parent)
+    if not np.issubdtype(parent.dtype, np.integer):
+        return columns
+    position = np.minimum(np.searchsorted(ids, parent), ids.size - 1)
+    kept = (parent >= 0) & (ids[position] == parent)
+    new_parent = np.where(kept, position, -1).astype(np.int64)
+    return {**columns, "segment_id": np.arange(ids.size, dtype=np.int64), "parent_id": new_parent}
 
 
 def empty_columns() -> dict[str, np.ndarray]:

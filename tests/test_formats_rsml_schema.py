@@ -77,9 +77,9 @@ def test_grown_plant_validates(schema, tmp_path):
 
 
 def test_tiny_and_huge_numbers_and_resolution(schema, tmp_path):
-    # xs:decimal has no exponent: 1e-7 cm and 1e17 cm must be written as plain decimals and read
-    # back to the same doubles (coordinate / resolution = value in cm).
-    points = [[0.0, 0.0, 0.0], [1e-7, -3e-6, -1e-5], [2.5e-5, 1e17, -1.0]]
+    # xs:decimal has no exponent: 1e-7 cm and 9.9e6 cm (near the segment table's limit of 1e7 cm) must be
+    # written as plain decimals and read back to the same doubles (coordinate / resolution = value in cm).
+    points = [[0.0, 0.0, 0.0], [1e-7, -3e-6, -1e-5], [2.5e-5, 9.9e6, -1.0]]
     system = root_from_points(points, radius_cm=4e-6)
     for resolution in (1.0, 4.0):
         path = export_file(system, tmp_path / f"r{resolution:g}.rsml", resolution=resolution, user="an invented tester")

@@ -14,9 +14,10 @@ from rootsim.rootsystem import RootSystem, empty_columns
 
 SIZE = (320, 240)
 WHITE = np.array([255, 255, 255])
-# matplotlib's tab10 palette, first two colours, as published in its colour table (#1f77b4, #ff7f0e)
-TAB10_BLUE = np.array([0x1F, 0x77, 0xB4])
-TAB10_ORANGE = np.array([0xFF, 0x7F, 0x0E])
+# The colour-blind-safe palette of Okabe & Ito (2008, https://jfly.uni-koeln.de/color/), as published:
+# orange (230, 159, 0) for the first category (root order 0) and blue (0, 114, 178) for the second (order 1)
+ORDER0_ORANGE = np.array([230, 159, 0])
+ORDER1_BLUE = np.array([0, 114, 178])
 
 
 def random_walk_system(*, n_plants=2, roots_per_plant=4, segments_per_root=30, seed=1) -> RootSystem:
@@ -106,9 +107,9 @@ def test_odd_and_portrait_sizes(system, size):
 
 
 def test_order_colours_are_the_palette_colours(system):
-    # lighting is off for roots, so order 0 lines carry tab10 blue and order 1 tab10 orange exactly
+    # lighting is off for roots, so order 0 lines carry Okabe-Ito orange and order 1 Okabe-Ito blue exactly
     image = render_image(system, size=SIZE, color_by="order", view="side")
-    assert has_colour(image, TAB10_BLUE) and has_colour(image, TAB10_ORANGE)
+    assert has_colour(image, ORDER0_ORANGE) and has_colour(image, ORDER1_BLUE)
 
 
 def test_colouring_changes_the_picture(system):
@@ -119,8 +120,8 @@ def test_colouring_changes_the_picture(system):
                 assert np.abs(images[a] - images[b]).mean() > 0.3, (a, b)
     # order and root_class split this system the same way but the legends differ (order 0 / taproot)
     assert np.any(images["order"] != images["root_class"])
-    # plant colouring: plant 0 blue, plant 1 orange, and no order-0 blue lines beyond plant 0
-    assert has_colour(images["plant"], TAB10_ORANGE)
+    # plant colouring: plant 0 orange, plant 1 blue (first and second palette colours)
+    assert has_colour(images["plant"], ORDER1_BLUE)
 
 
 def test_views_differ(system):
@@ -139,7 +140,7 @@ def test_title_is_drawn_at_the_top(system):
 def test_vertical_root_side_view_is_a_vertical_line():
     # one straight order-0 root 0..-20 cm at x = 0: in the side view its pixels form one narrow column
     image = render_image(vertical_root(), size=SIZE, view="side")
-    blue = np.all(np.abs(image.astype(int) - TAB10_BLUE) <= 6, axis=-1)
+    blue = np.all(np.abs(image.astype(int) - ORDER0_ORANGE) <= 6, axis=-1)  # order 0's colour
     blue[: int(0.25 * SIZE[1]), int(0.7 * SIZE[0]):] = False  # ignore the legend swatch
     ys, xs = np.nonzero(blue)
     assert xs.size > 50

@@ -31,7 +31,7 @@ ISOTROPIC_SHARES = tuple(math.cos(math.radians(a)) - math.cos(math.radians(b))
 
 
 def orientation_by_depth(system: Any, *, layer_cm: float = 10.0, bin_deg: float = 15.0,
-                         max_depth_cm: float | None = None):
+                         max_depth_cm: float | None = None, chunk_segments: int | None = None):
     """Length-weighted distribution of root angle from the vertical in each depth layer.
 
     Parameters
@@ -44,6 +44,9 @@ def orientation_by_depth(system: Any, *, layer_cm: float = 10.0, bin_deg: float 
         Width of the angle classes of the detailed distribution, degrees (a divisor of 90).
     max_depth_cm : float, optional
         Bottom of the deepest layer, cm; default the deepest root, rounded up to a layer.
+    chunk_segments : int, optional
+        Segments handled at once (default :data:`rootsim.analysis.chunked.DEFAULT_CHUNK_SEGMENTS`), so memory
+        stays bounded for tables of tens of millions of segments; the result does not depend on it.
 
     Returns
     -------
@@ -62,31 +65,23 @@ def orientation_by_depth(system: Any, *, layer_cm: float = 10.0, bin_deg: float 
     if not (math.isfinite(n_bins) and abs(n_bins - round(n_bins)) < 1e-9):
         raise RootsimError(f"orientation angle class {bin_deg!r} degrees: must divide 90 (e.g. 5, 10, 15, 30)")
     n_bins = int(round(n_bins))
-    p0 = np.column_stack([float_column(system, c) for c in ("x0", "y0", "z0")])
-    p1 = np.column_stack([float_column(system, c) for c in ("x1", "y1", "z1")])
-    length = float_column(system, "length_cm")
-    d = p1 - p0
-    chord = np.linalg.norm(d, axis=1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        cos_v = np.where(chord > 0, np.abs(d[:, 2]) / chord, 1.0)
-    angle = np.degrees(np.arccos(np.clip(cos_v, 0.0, 1.0)))
-    deepest = float(max(-p0[:, 2].min(), -p1[:, 2].min(), 0.0)) if len(p0) else 0.0
+    from . import chunked
+
+    z0, z1 = float_column(system, "z0"), float_column(system, "z1")
+    n = len(z0)
+    deepest = float(max(-z0.min(), -z1.min(), 0.0)) if n else 0.0
     bottom = max_depth_cm if max_depth_cm is not None else max(layer_cm, math.ceil(deepest / layer_cm - 1e-9) * layer_cm)
     n_layers = max(1, int(math.ceil(bottom / layer_cm - 1e-9)))
-    origin = np.zeros(3)
-    spacing = np.array([1.0, 1.0, layer_cm])
-    owner, ta, tb = grid_crossing_pieces(p0, p1, np.zeros(len(p0)), np.ones(len(p0)), origin, spacing, axes=(2,))
-    mid_depth = -(p0[owner, 2] + 0.5 * (ta + tb) * d[owner, 2])
-    layer = np.floor(mid_depth / layer_cm).astype(np.int64)
-    keep = (mid_depth >= 0) & (layer < n_layers)
-    owner, layer, piece = owner[keep], layer[keep], ((tb - ta) * length[owner])[keep]
-    total = np.bincount(layer, weights=piece, minlength=n_layers)
-    weighted_cos = np.bincount(layer, weights=piece * cos_v[owner], minlength=n_layers)
-    weighted_angle = np.bincount(layer, weights=piece * angle[owner], minlength=n_layers)
-    bins = np.minimum((angle[owner] / bin_deg).astype(np.int64), n_bins - 1)
-    by_bin = np.bincount(layer * n_bins + bins, weights=piece, minlength=n_layers * n_bins).reshape(n_layers, n_bins)
-    classes = np.minimum(np.searchsorted(_CLASS_EDGES_DEG, angle[owner], side="right") - 1, 2)
-    by_class = np.bincount(layer * 3 + classes, weights=piece, minlength=n_layers * 3).reshape(n_layers, 3)
+    total = np.zeros(n_layers)
+    weighted_cos = np.zeros(n_layers)
+    weighted_angle = np.zeros(n_layers)
+    by_bin = np.zeros((n_layers, n_bins))
+    by_class = np.zeros((n_layers, 3))
+    step = int(chunk_segments or chunked.DEFAULT_CHUNK_SEGMENTS)
+    columns = {c: float_column(system, c) for c in ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm")}
+    for start in range(0, n, step):
+        part = {c: v[start:start + step] for c, v in columns.items()}
+        _accumulate(part, layer_cm, n_layers, bin_deg, n_bins, total, weighted_cos, weighted_angle, by_bin, by_class)
     with np.errstate(invalid="ignore", divide="ignore"):
         share = lambda values: values / total[:, None]  # noqa: E731
         out = {
@@ -103,3 +98,29 @@ def orientation_by_depth(system: Any, *, layer_cm: float = 10.0, bin_deg: float 
     for k in range(n_bins):
         out[f"share_{k * bin_deg:g}_{(k + 1) * bin_deg:g}_deg"] = detailed[:, k]
     return pd.DataFrame(out)
+
+
+def _accumulate(part: dict, layer_cm: float, n_layers: int, bin_deg: float, n_bins: int, total, weighted_cos,
+                weighted_angle, by_bin, by_class) -> None:
+    """Add one chunk of segments to the per-layer sums of :func:`orientation_by_depth` (in place)."""
+    p0 = np.column_stack([part["x0"], part["y0"], part["z0"]])
+    p1 = np.column_stack([part["x1"], part["y1"], part["z1"]])
+    length = part["length_cm"]
+    d = p1 - p0
+    chord = np.linalg.norm(d, axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cos_v = np.where(chord > 0, np.abs(d[:, 2]) / chord, 1.0)
+    angle = np.degrees(np.arccos(np.clip(cos_v, 0.0, 1.0)))
+    spacing = np.array([1.0, 1.0, layer_cm])
+    owner, ta, tb = grid_crossing_pieces(p0, p1, np.zeros(len(p0)), np.ones(len(p0)), np.zeros(3), spacing, axes=(2,))
+    mid_depth = -(p0[owner, 2] + 0.5 * (ta + tb) * d[owner, 2])
+    layer = np.floor(mid_depth / layer_cm).astype(np.int64)
+    keep = (mid_depth >= 0) & (layer < n_layers)
+    owner, layer, piece = owner[keep], layer[keep], ((tb - ta) * length[owner])[keep]
+    total += np.bincount(layer, weights=piece, minlength=n_layers)
+    weighted_cos += np.bincount(layer, weights=piece * cos_v[owner], minlength=n_layers)
+    weighted_angle += np.bincount(layer, weights=piece * angle[owner], minlength=n_layers)
+    bins = np.minimum((angle[owner] / bin_deg).astype(np.int64), n_bins - 1)
+    by_bin += np.bincount(layer * n_bins + bins, weights=piece, minlength=n_layers * n_bins).reshape(n_layers, n_bins)
+    classes = np.minimum(np.searchsorted(_CLASS_EDGES_DEG, angle[owner], side="right") - 1, 2)
+    by_class += np.bincount(layer * 3 + classes, weights=piece, minlength=n_layers * 3).reshape(n_layers, 3)

@@ -146,7 +146,8 @@ def profile_area(system: Any, *, area_cm2=None, box=None) -> float:
         If both ``area_cm2`` and ``box`` are given, either is invalid, or no area is known.
     """
     if area_cm2 is not None and box is not None:
-        raise RootsimError("give either a ground area (--area-cm2) or a sampling box (--box), not both")
+        raise RootsimError("give either a ground area (area_cm2= in Python, --area-cm2 on the command line) "
+                           "or a sampling box (box=, --box), not both")
     if box is not None:
         xmin, xmax, ymin, ymax = check_box(box)
         return (xmax - xmin) * (ymax - ymin)
@@ -155,7 +156,8 @@ def profile_area(system: Any, *, area_cm2=None, box=None) -> float:
     area = ground_area_from_metadata(system_metadata(system))
     if area is None:
         raise RootsimError("no ground area known for this root system (no stand metadata): "
-                           "pass --area-cm2 A (cm²) or --box xmin,xmax,ymin,ymax (cm)")
+                           "pass area_cm2=A (cm²) or box=(xmin, xmax, ymin, ymax) (cm) in Python, "
+                           "--area-cm2 A or --box XMIN,XMAX,YMIN,YMAX on the command line")
     return area
 
 

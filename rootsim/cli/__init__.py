@@ -17,6 +17,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import pkgutil
+import re
 import sys
 
 from ..errors import RootsimError
@@ -25,10 +26,30 @@ __all__ = ["main", "build_parser"]
 
 
 class _Parser(argparse.ArgumentParser):
-    """argparse with one-line ``error:`` messages and exit code 2 (no usage dump)."""
+    """argparse with one-line ``error:`` messages and exit code 2 (no usage dump); comma lists that
+    start with a negative number (``--core -37.5,-20,4,90``) are values, not unknown options."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = re.compile(r"^-\d[\d.,eE+-]*$|^-\.\d[\d.,eE+-]*$")
 
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(2, f"error: {self.prog}: {message} (see '{self.prog} --help')\n")
+
+
+class _HelpFormatter(argparse.RawDescriptionHelpFormatter):
+    """Keeps the description's layout and shows each option's default (unless the help text already
+    names it, or there is none to show)."""
+
+    def _get_help_string(self, action):
+        text = action.help or ""
+        default = action.default
+        if default is None and text.startswith("override "):
+            return f"{text} (default: the parameter file's value)"
+        if ("default" in text or default is None or default is False or default is argparse.SUPPRESS
+                or default == [] or not action.option_strings):
+            return text
+        return f"{text} (default: %(default)s)"
 
 
 def _command_modules():
@@ -58,7 +79,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(title="commands", metavar="COMMAND", parser_class=_Parser)
     for mod in _command_modules():
         p = sub.add_parser(mod.COMMAND, help=mod.HELP, description=getattr(mod, "DESCRIPTION", mod.HELP),
-                           formatter_class=argparse.RawDescriptionHelpFormatter)
+                           formatter_class=_HelpFormatter)
         mod.register(p)
         p.set_defaults(handler=mod.run)
     return parser
@@ -75,13 +96,31 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help(sys.stderr)
         return 2
     try:
-        return int(args.handler(args) or 0)
+        code = int(args.handler(args) or 0)
+        sys.stdout.flush()  # a closed pipe (``rootsim check FILE | head``) shows up here, not at exit
+        return code
+    except BrokenPipeError:
+        _silence_stdout()
+        return 0
     except RootsimError as exc:
         print(f"error: {exc.cli_message()}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
         return 130
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device after its reader went away (``| head``), so that the final
+    flush at interpreter exit does not print a BrokenPipeError traceback."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):  # pragma: no cover - stdout without a file descriptor
+        pass
 
 
 if __name__ == "__main__":  # pragma: no cover

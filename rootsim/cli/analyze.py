@@ -36,10 +36,23 @@ The ground area is the stand's (plant spacing x row spacing x plants, stored by
 'rootsim grow'). For imported data without a stand, give --area-cm2, or --box to count
 only the roots inside a vertical column (like a monolith; the area is then the box's).
 
+--root-class, --order and --plant measure part of the root system: the files are then
+profile_<selection>.csv and traits_<selection>.json (e.g. profile_order-1.csv), so the
+stand's own profile.csv stays. With --order or --root-class the RLD is per cm3 of the
+whole stand's soil (the stand's RLD of those roots); with --plant it is per cm3 of the
+chosen plants' share of the ground (ground area x chosen plants / plants).
+
+The printout also shows the stand layout (rows along y at their x, plants along each
+row, the stand's cell) so that cores and walls can be placed at real coordinates.
+Large tables are measured in chunks of segments and plant by plant, within a bounded memory
+per segment (see the README); progress shows on a terminal, one line per stage otherwise.
+
 Examples:
   rootsim analyze results/demo
   rootsim analyze results/demo --layer-cm 10 --max-depth-cm 120
   rootsim analyze imported/plant7 --box -10,10,-5,5
+  rootsim analyze results/demo --order 1            # -> profile_order-1.csv, traits_order-1.json
+  rootsim analyze results/demo --root-class nodal --plant 0
 """
 
 
@@ -57,6 +70,12 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--max-depth-cm", metavar="D", default=None,
                         help="bottom of the profile, cm (default: the deepest root, rounded up to a layer)")
     parser.add_argument("--out-dir", metavar="DIR", default=None, help="where the two files go (default: DIR)")
+    parser.add_argument("--root-class", metavar="NAME[,NAME...]", default=None,
+                        help="only roots of these classes (names from the parameter file)")
+    parser.add_argument("--order", metavar="N[,N...]", default=None,
+                        help="only roots of these orders (0 = from the seed or shoot, 1 = their laterals, ...)")
+    parser.add_argument("--plant", metavar="K[,K...]", default=None,
+                        help="only these plants (plant ids 0..n-1; RLD then uses their share of the ground area)")
 
 
 def _number(text, option: str, unit: str) -> float | None:
@@ -71,6 +90,21 @@ def _number(text, option: str, unit: str) -> float | None:
     from ..limits import check_magnitude
 
     return check_magnitude(value, what=f"{option} {text!r}") if unit == "cm" else value
+
+
+def _list(text: str | None, option: str, kind):
+    """Comma-separated option values as a list of ``kind`` (None if the option was not given)."""
+    if text is None:
+        return None
+    parts = [p.strip() for p in str(text).split(",") if p.strip()]
+    if not parts:
+        raise RootsimError(f"{option} {text!r}: give one or more values separated by commas")
+    if kind is int:
+        try:
+            return [int(p) for p in parts]
+        except ValueError:
+            raise RootsimError(f"{option} {text!r}: give whole numbers separated by commas, e.g. {option} 0,1") from None
+    return parts
 
 
 def _box(text: str | None):
@@ -98,9 +132,13 @@ def _out_dir(path: str) -> Path:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..analysis import layer_profile, root_traits
+    from ..analysis.chunked import chunked_layer_profile, chunked_root_traits
+    from ..progress import progress_bar, stage
     from ..atomic import atomic_path, ensure_output_dir
     from ..rootsystem import RootSystem
+    from ..path_names import safe_path_component
+    from ..stand_layout import layout_from_metadata
+    from ..subsets import select_segments, selection_name
 
     layer = _number(args.layer_cm, "--layer-cm", "cm")
     area = _number(args.area_cm2, "--area-cm2", "cm²")
@@ -108,9 +146,23 @@ def run(args: argparse.Namespace) -> int:
     box = _box(args.box)
     if area is not None and box is not None:
         raise RootsimError("give either --area-cm2 or --box, not both (with --box the area is the box's)")
-    system = RootSystem.read(args.dir)
-    profile = layer_profile(system, layer_cm=layer, area_cm2=area, box=box, max_depth_cm=max_depth)
-    traits = root_traits(system, layer_cm=layer, area_cm2=area, box=box)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
+    selection = {"order": args.order, "root_class": args.root_class, "plant": args.plant}
+    if any(v is not None for v in selection.values()):
+        system = select_segments(system, order=_list(args.order, "--order", int),
+                                 root_class=_list(args.root_class, "--root-class", str),
+                                 plant=_list(args.plant, "--plant", int),
+                                 labels={k: f"--{k.replace('_', '-')} {v}".replace("{", "{{").replace("}", "}}")
+                                         for k, v in selection.items()})
+    suffix = selection_name(system.metadata.get("selection") or {})
+    n = len(system)
+    with progress_bar(total=2 * n, desc="analyze", unit="segment") as bar:
+        with stage(f"profiling {n:,} segments"):
+            profile = chunked_layer_profile(system, layer_cm=layer, area_cm2=area, box=box, max_depth_cm=max_depth,
+                                            on_chunk=bar.update)
+        with stage(f"traits of {n:,} segments, plant by plant"):
+            traits = chunked_root_traits(system, layer_cm=layer, area_cm2=area, box=box, on_plant=bar.update)
     traits["profile"] = {
         "layer_cm": layer,
         "max_depth_cm": float(profile["depth_bottom_cm"].iloc[-1]),
@@ -121,16 +173,19 @@ def run(args: argparse.Namespace) -> int:
     }
     traits["source"] = str(args.dir)
     traits["run_id"] = system.metadata.get("run_id")  # the run these numbers come from (None outside a result folder)
+    if suffix:
+        traits["selection"] = system.metadata["selection"]
     from ..limits import require_finite
 
     require_finite(profile, what="profile.csv")
     require_finite(traits, what="traits.json")
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else _out_dir(args.dir))
-    csv_path, json_path = out / "profile.csv", out / "traits.json"
+    tail = f"_{safe_path_component(suffix, what='selection')}" if suffix else ""
+    csv_path, json_path = out / f"profile{tail}.csv", out / f"traits{tail}.json"
     from ..analysis import orientation_by_depth
 
     orientation = orientation_by_depth(system, layer_cm=layer, max_depth_cm=float(profile["depth_bottom_cm"].iloc[-1]))
-    orientation_path = out / "orientation.csv"
+    orientation_path = out / f"orientation{tail}.csv"
     with atomic_path(csv_path) as tmp_csv, atomic_path(json_path) as tmp_json, \
             atomic_path(orientation_path) as tmp_orientation:
         profile.to_csv(tmp_csv, index=False, float_format="%.10g")
@@ -139,11 +194,11 @@ def run(args: argparse.Namespace) -> int:
     from ..result_folder import record_derived
 
     record_derived(args.dir, [csv_path, json_path, orientation_path], command="analyze")
-    print(summary_text(str(args.dir), traits, profile))
+    print(summary_text(str(args.dir), traits, profile, layout_from_metadata(system.metadata)))
     steep = "; ".join(f"{r.depth_top_cm:g}-{r.depth_bottom_cm:g} cm: {r.mean_abs_cos:.2f}"
                       for r in orientation.head(6).itertuples() if r.root_length_cm > 0)
     print(f"  orientation, mean |cos| from vertical (0.5 = random, 1 = vertical): {steep}")
-    print(f"wrote {csv_path}, {json_path} and {out / 'orientation.csv'}")
+    print(f"wrote {csv_path}, {json_path} and {orientation_path}")
     return 0
 
 
@@ -151,9 +206,15 @@ def _fmt(value, spec: str = ".1f", unit: str = "") -> str:
     return "n/a" if value is None else f"{value:{spec}}{unit}"
 
 
-def summary_text(source: str, traits: dict, profile) -> str:
-    """A short human summary of the traits and the top of the profile."""
+def summary_text(source: str, traits: dict, profile, layout: dict | None = None) -> str:
+    """A short human summary of the traits, the stand layout (``layout`` from
+    :func:`rootsim.stand_layout.layout_from_metadata`, if any) and the top of the profile."""
+    from ..stand_layout import describe_layout
+
     by_order = ", ".join(f"order {k}: {v:,.1f}" for k, v in traits["length_by_order_cm"].items())
+    chosen = traits.get("selection") or {}
+    if chosen:
+        source += " (only " + ", ".join(f"{k.replace('_', ' ')} {', '.join(map(str, v))}" for k, v in chosen.items()) + ")"
     lines = [
         f"{source}: {traits['n_plants']} plant(s), {traits['n_segments']:,} segments, {traits['n_tips']:,} tips",
         f"  root length {traits['total_length_cm']:,.1f} cm ({by_order})",
@@ -162,6 +223,7 @@ def summary_text(source: str, traits: dict, profile) -> str:
         f"  width {traits['width_cm']:.1f} cm, convex hull {traits['convex_hull_volume_cm3']:,.0f} cm3 (mean per plant); "
         f"topological index {_fmt(traits['mean_topological_index'], '.3f')}",
     ]
+    lines += describe_layout(layout)
     rows = [f"{r.depth_top_cm:g}-{r.depth_bottom_cm:g} cm: {r.rld_cm_per_cm3:.3g}" for r in profile.head(6).itertuples()]
     more = " ..." if len(profile) > 6 else ""
     lines.append(f"  RLD, cm/cm3 (ground area {profile.attrs['ground_area_cm2']:,.0f} cm2): " + "; ".join(rows) + more)

@@ -41,6 +41,7 @@ def register(parser) -> None:
 def run(args) -> int:
     from ..batch import plan_batch, run_batch
     from ..errors import RootsimError
+    from ..progress import stage
     from ..spec import load_spec
 
     if args.workers < 1:
@@ -48,7 +49,8 @@ def run(args) -> int:
     specs = [load_spec(p).with_overrides(duration_days=args.days, time_step_days=args.step_days,
                                          max_segments=args.max_segments) for p in args.specs]
     runs = plan_batch(specs, replicates=args.replicates, seed=args.seed)
-    table = run_batch(runs, out_dir=args.out, workers=args.workers, scheduler=args.scheduler, resume=args.resume)
+    with stage(f"growing {len(runs)} run(s) of {len(specs)} variant(s)"):
+        table = run_batch(runs, out_dir=args.out, workers=args.workers, scheduler=args.scheduler, resume=args.resume)
     cols = [c for c in ("variant", "replicate", "n_segments", "total_length_cm", "max_depth_cm", "d50_depth_cm")
             if c in table]
     print(table[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}"))

@@ -24,7 +24,7 @@ def register(parser) -> None:
                         help="minimum number of segments of the bench stand (default 1,000,000)")
     parser.add_argument("--seed", type=int, default=0, metavar="S", help="seed of the bench stand")
     parser.add_argument("--stage", action="append", metavar="NAME", dest="stages",
-                        help="run only this later stage (repeatable); growth always runs")
+                        help="run only this later stage (repeatable; one of: %s); growth always runs" % ", ".join(__import__("rootsim.bench", fromlist=["stage_names"]).stage_names()))
     parser.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
 
 

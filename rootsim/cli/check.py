@@ -6,8 +6,12 @@ COMMAND = "check"
 ORDER = 5
 HELP = "validate a parameter file and print a short summary"
 DESCRIPTION = """\
-Validate a parameter file without growing it. On success a short summary of the run, stand,
-soil and root classes is printed; on error one line names the file, the key and what is allowed:
+Validate a parameter file without growing it. On success a short summary of the run, the stand
+layout (where the plants are: rows along y at their x, plants along each row, the stand's cell and
+ground area, and where a field team would take cores), the container's size for pots and
+rhizoboxes, soil and root classes is printed, followed by warnings on stderr about gaps between
+soil layers and layers that stop above the deepest roots the run can grow. On error one line
+names the file, the key and what is allowed:
 
   error: params/x.toml: root_classes.primary.radus_cm: unknown key (allowed: did you mean 'radius_cm'? ...)
 
@@ -36,15 +40,21 @@ def describe_spec(spec) -> str:
             return f"{d.low:g}..{d.high:g}"
         return "-"
 
+    from ..stand_layout import describe_layout, layout_from_spec
+
     st, run = spec.stand, spec.run
     lines = [
         f"{spec.name}: {spec.description}".rstrip(": "),
         f"  run: {run.duration_days:g} days, step {run.time_step_days:g} days, seed {run.seed}, "
         f"budget {run.max_segments:,} segments",
-        f"  stand: {st.n_plants} plant(s) ({st.rows} row(s) x {st.plants_per_row}, rows {st.row_spacing_cm:g} cm, "
-        f"plants {st.plant_spacing_cm:g} cm apart), sown at {st.sowing_depth_cm:g} cm",
-        f"  container: {spec.container.kind}",
     ]
+    if spec.container.kind == "field":
+        lines.append(f"  stand: {st.n_plants} plant(s) ({st.rows} row(s) x {st.plants_per_row}, rows "
+                     f"{st.row_spacing_cm:g} cm, plants {st.plant_spacing_cm:g} cm apart), sown at "
+                     f"{st.sowing_depth_cm:g} cm")
+    else:  # the container, not row spacing, sets the soil the roots share
+        lines.append(f"  stand: {st.n_plants} plant(s) in one {spec.container.kind}, sown at {st.sowing_depth_cm:g} cm")
+    lines += describe_layout(layout_from_spec(spec))
     for layer in spec.soil.layers:
         lines.append(f"  soil layer {layer.depth_top_cm:g}-{layer.depth_bottom_cm:g} cm: "
                      f"{layer.penetration_resistance_mpa:g} MPa")
@@ -72,7 +82,10 @@ def describe_layers(data: dict, origins: dict) -> str:
 
 
 def run(args) -> int:
+    import sys
+
     from ..spec import load_spec_layers, parse_spec
+    from ..spec_warnings import spec_warnings
 
     data, origins = load_spec_layers(args.spec)
     spec = parse_spec(data, source=str(args.spec))
@@ -80,4 +93,7 @@ def run(args) -> int:
     print(describe_spec(spec))
     if len(set(origins.values())) > 1:
         print(describe_layers(data, origins))
+    sys.stdout.flush()  # keep the summary before the warnings when both go to one terminal or log
+    for text in spec_warnings(spec):
+        print(f"warning: {text}", file=sys.stderr)
     return 0

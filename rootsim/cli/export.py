@@ -118,11 +118,12 @@ def _check_writable(option: str, path: Path) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..formats import export_file
-    from ..progress import progress_bar
+    from ..progress import progress_bar, stage
     from ..rootsystem import RootSystem
 
     plan = _plan(args)
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; writing empty files", file=sys.stderr)
     from ..atomic import atomic_paths
@@ -132,7 +133,8 @@ def run(args: argparse.Namespace) -> int:
             atomic_paths([path for _, path, _, _ in plan]) as temps:  # every file or none
         for (option, path, key, options), tmp in zip(plan, temps):
             try:
-                export_file(system, tmp, format=key, **options)
+                with stage(f"writing {path}"):
+                    export_file(system, tmp, format=key, **options)
             except OSError as exc:
                 raise RootsimError(f"{path}: cannot write ({exc.strerror or exc})") from None
             bar.update(1)

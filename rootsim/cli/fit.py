@@ -16,6 +16,9 @@ from 'rootsim sample'; rows with the same depths are averaged). Writes
   OUT/fitted_spec.toml    the parameter file with the fitted values written in (comments kept)
 
 A normal distribution's mean is fitted (its standard deviation kept); a uniform one is shifted.
+The simulated side is the stand mean (root length over the whole ground area); cores taken in the
+row read several times higher in the topsoil, so give a stand-mean profile. Depth intervals that
+overlap (10 and 15 cm increments mixed) are refused.
 
 --method global searches the whole box of bounds by differential evolution, each generation run as one
 batch through the study runner (--workers N or --scheduler ADDRESS). It also takes observations on several
@@ -25,7 +28,7 @@ in cores.csv), trait targets (--target d50_depth_cm=22:2), and reports a 95% pro
 for each fitted value; it also writes OUT/fit_observed_vs_fitted.png.
 
 examples:
-  rootsim fit params/cereal_fibrous.toml --observed field/plot12_cores.csv --days 45 \\
+  rootsim fit params/cereal_fibrous.toml --observed field/plot12_stand_mean.csv --days 45 \\
       --param root_classes.nodal.initial_angle_from_vertical_deg=40:80 \\
       --param root_classes.lateral_first.max_length_cm=5:25 --replicates 2 --out results/fit
   rootsim fit params/soil_compacted_pan.toml --observed field/cores_two_dates.csv --observed-as cores \
@@ -66,6 +69,7 @@ def run(args) -> int:
     from ..atomic import atomic_write_text, ensure_output_dir
     from ..errors import RootsimError
     from ..fitting import fit_profile, fitted_toml, parse_fit_parameter, read_observed_profile
+    from ..observations import check_depth_intervals
     from ..spec import load_spec
 
     if args.area_cm2 is not None and not args.area_cm2 > 0:
@@ -80,6 +84,7 @@ def run(args) -> int:
     if args.target or args.observed_as != "stand":
         raise RootsimError("--target and --observed-as cores need --method global")
     observed = read_observed_profile(args.observed)
+    check_depth_intervals(observed, source=str(args.observed))
     result = fit_profile(spec, observed, parameters, replicates=args.replicates, seed=args.seed,
                          max_evaluations=args.max_evaluations, area_cm2=args.area_cm2)
     out = ensure_output_dir(args.out)  # only once the fit has run: bad input leaves nothing behind

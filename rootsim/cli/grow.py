@@ -41,17 +41,21 @@ def register(parser) -> None:
 def run(args) -> int:
     from ..atomic import atomic_write_text
     from ..growth import grow
+    from ..progress import stage
     from ..result_folder import check_new_result_folder, file_sha256, write_result_folder
     from ..spec import load_spec
+    from ..stand_layout import layout_from_metadata
 
     spec = load_spec(args.spec)
     spec = spec.with_overrides(duration_days=args.days, time_step_days=args.step_days, seed=args.seed,
                                max_segments=args.max_segments)
     out = check_new_result_folder(args.out, overwrite=args.overwrite)  # before growing: fail early, create nothing
-    system = grow(spec)
+    with stage(f"growing {spec.name} for {spec.run.duration_days:g} days", enabled=not args.quiet):
+        system = grow(spec)
     summary = system.summary()
     facts = {"spec_name": spec.name, "spec_file": str(args.spec), "duration_days": spec.run.duration_days,
              "time_step_days": spec.run.time_step_days, "seed": spec.run.seed}
+    summary["stand_layout"] = layout_from_metadata(system.metadata)  # where the plants are
 
     def write_files(staging: Path) -> dict:
         system.write(staging / "segments.parquet")
@@ -60,7 +64,8 @@ def run(args) -> int:
         atomic_write_text(staging / "summary.json", json.dumps(summary, indent=2) + "\n")
         return facts
 
-    manifest = write_result_folder(out, write_files, overwrite=args.overwrite, command="grow")
+    with stage(f"writing {out / 'segments.parquet'} and summary.json", enabled=not args.quiet):
+        manifest = write_result_folder(out, write_files, overwrite=args.overwrite, command="grow")
     if not args.quiet:
         print(f"{spec.name}: {summary['n_plants']} plant(s), {summary['n_segments']:,} segments, "
               f"{summary['n_tips']:,} tips, {summary['total_length_cm'] / 100:,.1f} m of root, "

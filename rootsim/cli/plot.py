@@ -16,9 +16,14 @@ DESCRIPTION = """\
 Draw 2D figures of one root system, or compare several (variants of a trial).
 
 Writes into --out-dir (default: the first DIR):
-  rld_profile.png     root length density (cm root per cm3 soil) by depth, depth
-                      downward; all roots and each root order; with --compare one
-                      line per variant, one panel per order
+  rld_profile.png     stand-mean root length density (cm root per cm3 soil over the
+                      stand's ground area; the title gives the day and that area) by
+                      depth, depth downward; all roots and each root order; with
+                      --compare one line per variant, one panel per order. Runs grown
+                      from the same parameters with other seeds (e.g. the replicate
+                      folders of 'rootsim batch') are replicates of one variant: drawn
+                      as their mean with a band of +-1 standard deviation, labelled
+                      with the spec name and the number of replicates
   projection.png      the roots projected on the vertical x-z plane, as seen on
                       the glass of a rhizobox (with --compare: projection_<name>.png
                       for each variant)
@@ -32,6 +37,7 @@ Examples:
   rootsim plot results/demo
   rootsim plot results/early_sown --compare results/late_sown --layer-cm 10 --format pdf
   rootsim plot imported/plant7 --box -10,10,-5,5 --out-dir figures
+  rootsim plot results/batch/*/replicate_* --out-dir results/batch    # mean and spread per variant
 """
 
 
@@ -40,6 +46,8 @@ def register(parser: argparse.ArgumentParser) -> None:
     if hasattr(parser, "_negative_number_matcher"):
         parser._negative_number_matcher = re.compile(r"^-\d[\d.,eE+-]*$|^-\.\d[\d.,eE+-]*$")
     parser.add_argument("dir", metavar="DIR", help="results directory (or segments.parquet) to plot")
+    parser.add_argument("more", metavar="DIR2", nargs="*", default=[],
+                        help="further results directories, as with --compare")
     parser.add_argument("--compare", metavar="DIR2", nargs="+", default=[],
                         help="further results directories drawn in the same RLD figure")
     parser.add_argument("--out-dir", metavar="DIR", default=None, help="where the figures go (default: DIR)")
@@ -92,7 +100,7 @@ def run(args: argparse.Namespace) -> int:
         raise RootsimError("give either --area-cm2 or --box, not both (with --box the area is the box's)")
     if args.area_cm2 is not None and not args.area_cm2 > 0:
         raise RootsimError(f"--area-cm2 must be a ground area > 0 in cm² (got {args.area_cm2:g})")
-    paths = [args.dir] + list(args.compare)
+    paths = [args.dir] + list(args.more) + list(args.compare)
     systems = [RootSystem.read(p) for p in paths]
     labels = variant_labels(paths, systems)
     out_dir = ensure_output_dir(args.out_dir if args.out_dir is not None else _default_out_dir(args.dir))
@@ -102,13 +110,23 @@ def run(args: argparse.Namespace) -> int:
 
     figures = []  # every figure is drawn before any file is written: all or nothing
     profile_options = {"layer_cm": args.layer_cm, "area_cm2": args.area_cm2, "box": box}
+    groups = replicate_groups(paths, systems)
     if len(systems) == 1:
-        fig = plot_rld_profile(systems[0], title=f"Root length density – {labels[0]}", **profile_options)
-    else:
-        fig = plot_rld_profile(dict(zip(labels, systems)), title="Root length density by variant", **profile_options)
+        fig = plot_rld_profile(systems[0], title=_title(labels[0], systems, args, box), **profile_options)
+        names = ["projection"]
+    elif all(len(members) == 1 for members in groups.values()):
+        fig = plot_rld_profile(dict(zip(labels, systems)), title=_title("variants", systems, args, box),
+                               **profile_options)
+        names = [f"projection_{_file_safe(label)}" for label in labels]
+    else:  # replicates of a variant: mean and spread per variant
+        fig = plot_rld_profile({label: [systems[i] for i in members] for label, members in groups.items()},
+                               title=_title("variants", systems, args, box), **profile_options)
+        names = [""] * len(systems)
+        for label, members in groups.items():
+            for j, i in enumerate(members):
+                names[i] = f"projection_{_file_safe(label)}" + (f"_replicate_{j + 1}" if len(members) > 1 else "")
     figures.append((fig, out_dir / f"rld_profile.{args.format}"))
-    for label, system in zip(labels, systems):
-        name = "projection" if len(systems) == 1 else f"projection_{_file_safe(label)}"
+    for label, name, system in zip(labels, names, systems):
         fig = plot_projection(system, width_scale=args.width_scale, title=f"{label}: x–z projection")
         figures.append((fig, out_dir / f"{name}.{args.format}"))
     written = [path for _, path in figures]
@@ -124,6 +142,67 @@ def run(args: argparse.Namespace) -> int:
         print(path)
     record_derived(args.dir, written, command="plot")
     return 0
+
+
+def _title(what: str, systems: list, args, box) -> str:
+    """RLD figure title naming the day (when all runs share it) and the ground area RLD refers to."""
+    from ..analysis.profile import profile_area
+    from ..plots import rld_title
+
+    days = {(s.metadata.get("run") or {}).get("duration_days") for s in systems}
+    day = days.pop() if len(days) == 1 else None
+    try:
+        areas = {round(profile_area(s, area_cm2=args.area_cm2, box=box), 6) for s in systems}
+    except RootsimError:
+        areas = set()
+    title = rld_title(what, day=day, area_cm2=areas.pop() if len(areas) == 1 else None)
+    if box is not None:
+        title = title.replace("stand-mean RLD", "RLD in the box")
+    return title
+
+
+def _variant_key(system) -> str | None:
+    """What a run was grown from, without its seed: runs with equal keys are replicates of one variant."""
+    import json
+
+    meta = dict(system.metadata or {})
+    run = dict(meta.get("run") or {})
+    if "seed" not in run or not (meta.get("spec_name") or meta.get("spec_file")):
+        return None
+    run.pop("seed")
+    meta["run"] = run
+    meta.pop("selection", None)
+    return json.dumps(meta, sort_keys=True, default=str)
+
+
+def replicate_groups(paths: list[str], systems: list) -> dict[str, list[int]]:
+    """Group runs that are replicates of one variant (grown from the same parameters, other seeds).
+
+    Returns ``{short label: [index, ...]}`` in the order the runs were given. The label is the
+    spec name, else the name of the folder holding the run's folder (``batch/<variant>/replicate_001``),
+    else the run's own folder name, whichever first tells the groups apart. Runs without grow
+    metadata are groups of one.
+    """
+    keys: dict[str, list[int]] = {}
+    for i, system in enumerate(systems):
+        key = _variant_key(system)
+        keys.setdefault(key if key is not None else f"#{i}", []).append(i)
+    members = list(keys.values())
+
+    def spec_name(i):
+        meta = systems[i].metadata or {}
+        return meta.get("spec_name") or (Path(str(meta["spec_file"])).stem if meta.get("spec_file") else None)
+
+    def parent_name(i):
+        p = Path(paths[i])
+        p = p.parent if p.suffix == ".parquet" else p
+        return p.resolve().parent.name or None
+
+    for naming in (spec_name, parent_name, lambda i: _dir_name(paths[i])):
+        names = [naming(group[0]) for group in members]
+        if all(names) and len(set(names)) == len(names):
+            return dict(zip(names, members))
+    return {str(paths[group[0]]): group for group in members}
 
 
 def _box(text: str | None):

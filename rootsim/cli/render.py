@@ -15,8 +15,11 @@ Render a 3D picture of a root system to a PNG file, offscreen (works on servers
 without a display).
 
 The picture shows every root as a line (thicker for lower orders) coloured by
---color-by, the soil surface as a translucent plane at depth 0, a depth ruler in
-cm, a legend (or a colour bar for age) and an optional title.
+--color-by (one colour-blind-safe palette, the same as in 'rootsim plot' and meshes),
+the soil surface as a translucent plane at depth 0, a depth ruler in cm, a horizontal
+scale bar (side and iso views), the walls of a pot or rhizobox, the plants and rows
+(top view), a legend (or a colour bar for age) and an optional title. The scene is
+framed tightly.
 
   --color-by order       root order: 0 = roots from the seed or shoot, 1 = their laterals, ...
   --color-by root_class  root class names from the parameter file
@@ -53,17 +56,20 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from ..progress import stage
     from ..render import parse_size, render_png
     from ..rootsystem import RootSystem
 
     size = parse_size(args.size)
     if not str(args.png).lower().endswith(".png"):
         raise RootsimError(f"--png {args.png}: the file name must end in .png")
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
-    path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
-                      style=args.style, tube_scale=args.tube_scale)
+    with stage(f"rendering {len(system):,} segments to {args.png}"):
+        path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
+                          style=args.style, tube_scale=args.tube_scale)
     from ..result_folder import record_derived
 
     record_derived(args.dir, [path], command="render")

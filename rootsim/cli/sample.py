@@ -183,13 +183,15 @@ def _requests(args):
 
 def run(args: argparse.Namespace) -> int:
     from ..atomic import atomic_paths, ensure_output_dir
+    from ..progress import stage
     from ..rootsystem import RootSystem
     from ..sampling import core_grid, sample_cores, sample_projection, sample_tube, sample_wall
 
     from ..sampling.bias_table import bias_table
 
     cores, grid, walls, tubes, grid_cm = _requests(args)
-    system = RootSystem.read(args.dir)
+    with stage(f"reading {args.dir}"):
+        system = RootSystem.read(args.dir)
     periodic = not args.bordered
     tables = {}
     if grid is not None:
@@ -197,22 +199,26 @@ def run(args: argparse.Namespace) -> int:
     if args.core_replicates is not None:
         cores = _replicated(system, cores, args.core_replicates, args.seed)
     if cores:
-        tables["cores.csv"] = sample_cores(
-            system, cores=cores, periodic=periodic, washing_recovery=args.core_washing_recovery,
-            fine_root_diameter_cm=args.core_fine_diameter_cm, core_break_ratio=args.core_break_ratio,
-            detection_limit_cm=args.detection_limit_cm)
+        with stage(f"sampling {len(cores)} core(s)"):
+            tables["cores.csv"] = sample_cores(
+                system, cores=cores, periodic=periodic, washing_recovery=args.core_washing_recovery,
+                fine_root_diameter_cm=args.core_fine_diameter_cm, core_break_ratio=args.core_break_ratio,
+                detection_limit_cm=args.detection_limit_cm)
     if walls:
-        tables["wall.csv"] = sample_wall(system, walls=walls, periodic=periodic)
+        with stage(f"sampling {len(walls)} wall(s)"):
+            tables["wall.csv"] = sample_wall(system, walls=walls, periodic=periodic)
     if tubes:
-        tables["tube.csv"] = sample_tube(system, tubes=tubes, periodic=periodic)
+        with stage(f"sampling {len(tubes)} tube(s)"):
+            tables["tube.csv"] = sample_tube(system, tubes=tubes, periodic=periodic)
     bias = None
     if cores or walls or tubes:
         bias = bias_table(system, cores=tables.get("cores.csv"), wall=tables.get("wall.csv"), tube=tables.get("tube.csv"))
         if args.bias_csv:
             tables["sampling_bias.csv"] = bias
     if grid_cm is not None:
-        tables["projection.csv"] = sample_projection(system, grid_cm=grid_cm, plane=args.projection_plane,
-                                                     band_cm=args.projection_band_cm)
+        with stage("sampling the projection"):
+            tables["projection.csv"] = sample_projection(system, grid_cm=grid_cm, plane=args.projection_plane,
+                                                         band_cm=args.projection_band_cm)
     src = Path(args.dir)
     out = ensure_output_dir(args.out_dir if args.out_dir is not None else (src.parent if src.suffix == ".parquet" else src))
     from ..limits import require_finite

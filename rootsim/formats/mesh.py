@@ -374,16 +374,8 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     return TubeMesh(vertices, faces, face_root, face_order, vertex_order, n_pieces, n_edges)
 
 
-#: Vertex colours by root order (order 0, 1, 2, ...; repeating), RGB. The colour-blind-safe
-#: palette of Okabe and Ito (2008), "Color Universal Design (CUD): how to make figures and
-#: presentations that are friendly to colorblind people", https://jfly.uni-koeln.de/color/.
-ORDER_COLOURS_RGB = np.array([[230, 159, 0], [0, 114, 178], [0, 158, 115], [204, 121, 167],
-                              [213, 94, 0], [86, 180, 233], [240, 228, 66]], dtype=np.uint8)
-
-
-def order_colours(order: np.ndarray) -> np.ndarray:
-    """RGB colour (uint8, shape (n, 3)) of each root order, from :data:`ORDER_COLOURS_RGB`."""
-    return ORDER_COLOURS_RGB[np.asarray(order, dtype=np.int64) % len(ORDER_COLOURS_RGB)]
+# Vertex colours by root order: the one palette of rootsim (colour-blind safe, Okabe & Ito 2008).
+from ..palette import CATEGORY_COLOURS_RGB as ORDER_COLOURS_RGB, order_colours  # noqa: E402
 
 
 def tube_mesh(system, **options):

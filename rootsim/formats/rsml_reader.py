@@ -28,7 +28,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import FormatError
+from ..errors import FormatError, SegmentTableError
 
 __all__ = ["read_rsml", "skipped_roots_message"]
 
@@ -499,7 +499,10 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
     message = skipped_roots_message(source, metadata["import"])
     if message:
         warnings.warn(message, UserWarning, stacklevel=2)
-    return RootSystem(columns, metadata)
+    try:
+        return RootSystem(columns, metadata)
+    except SegmentTableError as exc:  # e.g. coordinates beyond the table's range once converted to cm
+        raise FormatError(f"{source}: {' '.join(str(exc).split())}") from None
 
 
 def _whole_ids(idents: list) -> np.ndarray:

@@ -143,7 +143,7 @@ def core_increments(core: Core) -> tuple[np.ndarray, np.ndarray]:
     from ..limits import check_cell_count
 
     check_cell_count((core.depth_cm - core.top_cm) / core.increment_cm,
-                     what=f"core increments of {core.increment_cm:g} cm")
+                     what=f"core depth {core.depth_cm:g} cm cut in {core.increment_cm:g} cm increments", noun="increments")
     k = max(1, math.ceil((core.depth_cm - core.top_cm) / core.increment_cm - 1e-9))
     tops = core.top_cm + core.increment_cm * np.arange(k)
     bottoms = np.minimum(tops + core.increment_cm, core.depth_cm)
