@@ -33,14 +33,14 @@ def register(parser) -> None:
 
 def run(args) -> int:
     from ..atomic import atomic_write_text, ensure_output_dir
-    from ..growth import grow
+    from ..soil.thermal import grow_for_spec
     from ..spec import load_spec
 
     spec = load_spec(args.spec)
     spec = spec.with_overrides(duration_days=args.days, time_step_days=args.step_days, seed=args.seed,
                                max_segments=args.max_segments)
     out = ensure_output_dir(args.out)
-    system = grow(spec)
+    system = grow_for_spec(spec)  # calendar or thermal clock ([development])
     summary = system.summary()
     summary.update({"spec_name": spec.name, "spec_file": str(args.spec), "duration_days": spec.run.duration_days,
                     "time_step_days": spec.run.time_step_days, "seed": spec.run.seed})
