@@ -308,9 +308,11 @@ class Weather(_Model):
 
 class Development(_Model):
     """The clock growth runs on. ``calendar``: days. ``thermal``: effective days from the weather table (a day
-    at ``optimum_temperature_c`` counts 1.0), with a cited temperature response (see :mod:`rootsim.soil.thermal`)."""
+    at ``optimum_temperature_c`` counts 1.0), with a cited temperature response (see :mod:`rootsim.soil.thermal`).
+    ``time_unit``: times and rates in the file are per day at the optimum, or per degree-day."""
 
     clock: Literal["calendar", "thermal"] = "calendar"
+    time_unit: Literal["day_at_optimum", "degree_day"] = "day_at_optimum"
     temperature_response: Literal["beta", "broken_linear"] = "beta"
     temperature_column: str = "mean_air_temperature_c"
     base_temperature_c: float = Field(8.0, ge=-20, le=40)

@@ -202,3 +202,22 @@ def test_bad_soil_input_gives_one_error_line_and_exit_2(tmp_path, capsys, soil_t
     code, err, spec = _run_check(tmp_path, capsys, soil_toml, files)
     assert code == 2
     assert err.startswith("error: ") and spec in err and fragment in err and "\n" not in err
+
+
+def test_compiled_layers_match_the_growth_engines_layer_rule():
+    # independent implementation: rootsim.growth.soil.SoilField (the engine's layers, searchsorted) must give the
+    # same resistance, hence the same elongation factor 2^(-R / R_half), as the compiled field kernel
+    from rootsim.growth.soil import SoilField
+    from rootsim.soil.build import soil_fields_from_spec
+    from rootsim.soil.strength import EXPONENTIAL, elongation_factor_kernel
+
+    layers = [{"depth_top_cm": 5, "depth_bottom_cm": 20, "penetration_resistance_mpa": 0.8},
+              {"depth_top_cm": 20, "depth_bottom_cm": 35, "penetration_resistance_mpa": 3.0},
+              {"depth_top_cm": 50, "depth_bottom_cm": 90, "penetration_resistance_mpa": 1.2}]
+    spec = parse_spec({**BASE, "soil": {"elongation_halving_resistance_mpa": 1.5, "layers": layers}})
+    fields = soil_fields_from_spec(spec)
+    depth = np.concatenate([RNG.uniform(-1, 120, 3000), [0, 5, 20, 35, 50, 90, 4.999999, 35.000001]])
+    resistance = fields.values("penetration_resistance_mpa", 0.0, 0.0, -depth)
+    engine = SoilField(spec.soil)
+    factor = [elongation_factor_kernel(r, EXPONENTIAL, 1.5, 1.0) for r in resistance]
+    np.testing.assert_allclose(factor, engine.elongation_factor(depth), rtol=1e-14)

@@ -69,18 +69,21 @@ def _emergence(scale: float) -> list:
              "roots_per_event": 2}]
 
 
-def test_constant_temperature_equals_a_calendar_run_with_scaled_rates(tmp_path):
+@pytest.mark.parametrize("time_unit, per_unit", [("day_at_optimum", 1.0), ("degree_day", 22.0)])
+def test_constant_temperature_equals_a_calendar_run_with_scaled_rates(tmp_path, time_unit, per_unit):
     # At a constant 19 degC the broken-linear response is 0.5 (base 8, optimum 30): 16 calendar days are 8 days at
-    # the optimum. The same system must come from a calendar run with every rate x 0.5 and every time / 0.5.
+    # the optimum (= 8 x 22 = 176 degree-days). The same system must come from a calendar run with every rate
+    # x 0.5 and every time / 0.5 (rates per degree-day: x 11 degree-days per calendar day).
     weather = tmp_path / "constant.csv"
     weather.write_text("day,mean_air_temperature_c\n" + "".join(f"{d},19\n" for d in range(16)))
     stand = {"rows": 1, "plants_per_row": 2}
     thermal = parse_spec({
-        "run": {"duration_days": 16, "time_step_days": 0.5, "seed": 11}, "stand": stand,
+        "run": {"duration_days": 16, "time_step_days": 0.5 * per_unit, "seed": 11}, "stand": stand,
         "weather": {"file": str(weather)},
         "development": {"clock": "thermal", "temperature_response": "broken_linear", "base_temperature_c": 8,
-                        "optimum_temperature_c": 30, "maximum_temperature_c": 42},
-        "emergence": _emergence(1.0), "root_classes": _classes(1.0)}, source=str(tmp_path / "t.toml"))
+                        "optimum_temperature_c": 30, "maximum_temperature_c": 42, "time_unit": time_unit},
+        "emergence": _emergence(1.0 / per_unit), "root_classes": _classes(1.0 / per_unit)},
+        source=str(tmp_path / "t.toml"))
     calendar = parse_spec({"run": {"duration_days": 16, "time_step_days": 1.0, "seed": 11}, "stand": stand,
                            "emergence": _emergence(0.5), "root_classes": _classes(0.5)})
     a = grow_for_spec(thermal, progress=False).to_dataframe()

@@ -16,6 +16,9 @@ parameter file stay "per day at the optimum". *Degree-days* are ``(T_opt - T_bas
 broken-linear response below the optimum they are the classic ``sum(max(0, T - T_base))``, so a rate per degree-day
 ``q`` is a rate per effective day ``q * (T_opt - T_base)``.
 
+With ``time_unit = "degree_day"`` the file's times and rates are per degree-day instead: the engine then runs on
+degree-days (effective days × (optimum − base)).
+
 Growth on a thermal clock does not change the growth engine: :func:`grow_on_thermal_clock` runs
 :func:`rootsim.grow` for the season's effective days (every time in the file - emergence days, intervals,
 lifespans, the time step - is then in effective days) and maps each segment's ``birth_day`` back to the first
@@ -166,7 +169,10 @@ def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None 
     """
     from ..growth import grow
     from ..rootsystem import RootSystem
-    from ..spec import Run
+    from pydantic import ValidationError
+
+    from ..errors import SpecError
+    from ..spec import Run, _check_run
 
     dev = spec.development
     duration = spec.run.duration_days
@@ -176,22 +182,30 @@ def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None 
                                  optimum_c=dev.optimum_temperature_c, maximum_c=dev.maximum_temperature_c,
                                  temperature_column=dev.temperature_column)[first:]
     effective = float(cumulative_effective_days(daily, duration))
+    unit = dev.optimum_temperature_c - dev.base_temperature_c if dev.time_unit == "degree_day" else 1.0
     if effective <= 0:
         raise RootsimError(f"{weather.source}: no development in the run: every day is at or below "
                            f"{dev.base_temperature_c:g} °C or at or above {dev.maximum_temperature_c:g} °C "
                            "(allowed: a season with some days between the base and maximum temperatures)")
-    step = min(spec.run.time_step_days, effective)
-    thermal_run = Run(**{**spec.run.model_dump(), "duration_days": effective, "time_step_days": step})
+    thermal_duration = effective * unit  # in the file's time unit
+    step = min(spec.run.time_step_days, thermal_duration)
+    try:
+        thermal_run = Run(**{**spec.run.model_dump(), "duration_days": thermal_duration, "time_step_days": step})
+    except ValidationError:
+        raise SpecError(spec.source, "run.duration_days", f"the season gives {thermal_duration:.4g} "
+                        f"{dev.time_unit.replace('_', ' ')}s of development", "at most 3650 in the file's time unit") \
+            from None
+    _check_run(thermal_run, spec.source)
     system = grow(spec.model_copy(update={"run": thermal_run}), progress=progress)
     columns = {name: system[name] for name in system.columns}
-    columns["birth_day"] = calendar_days_from_effective_days(daily, columns["birth_day"])
+    columns["birth_day"] = calendar_days_from_effective_days(daily, columns["birth_day"] / unit)
     metadata = dict(system.metadata)
     metadata["run"] = {**metadata.get("run", {}), "duration_days": duration}
     metadata["development"] = {
         "clock": "thermal", "weather_file": weather.source, "temperature_response": dev.temperature_response,
         "base_temperature_c": dev.base_temperature_c, "optimum_temperature_c": dev.optimum_temperature_c,
         "maximum_temperature_c": dev.maximum_temperature_c, "effective_days": effective,
-        "effective_time_step_days": step,
+        "time_unit": dev.time_unit, "time_step": step,
         "degree_days": effective * (dev.optimum_temperature_c - dev.base_temperature_c),
     }
     return RootSystem(columns, metadata, validate=False)
