@@ -197,6 +197,11 @@ def _run_check(tmp_path, capsys, soil_toml: str, files=()):
     ('[soil.fields.volumetric_water_content]\nvalue = 1.7\n', [], "outside the range"),
     ('[soil.fields.NO3]\nvalue = 1.0\n', [], "soil.fields.NO3: field names"),
     ('[soil.fields.bulk_density_g_per_cm3]\nvalue = 1.3\nlayers = []\n', [], "exactly one of"),
+    ('[soil.fields.bulk_density_g_per_cm3]\nvaleu = 1.3\n', [], "did you mean 'value'?"),
+    ('[soil.biopores]\ndensity_per_m3 = 3\n', [], "did you mean 'density_per_m2'?"),
+    ('[soil.fields.nitrate_mg_per_kg]\nvalue = 3\n[[soil.fields.nitrate_mg_per_kg.patches]]\nshape = "box"\n'
+     'value = 3\nradius_cm = 2\n', [], "patches[0]: a box patch needs center_cm, size_cm"),
+    ('[weather]\nfile = "nope.csv"\n', [], "weather.file: "),
 ])
 def test_bad_soil_input_gives_one_error_line_and_exit_2(tmp_path, capsys, soil_toml, files, fragment):
     code, err, spec = _run_check(tmp_path, capsys, soil_toml, files)

@@ -37,7 +37,7 @@ vectorized wrappers for arrays of points. Trilinear interpolation reproduces lin
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Mapping, NamedTuple, Sequence
 
 import numpy as np
@@ -125,7 +125,6 @@ class SoilFields:
 
     names: tuple
     compiled: CompiledFields
-    extra: dict = field(default_factory=dict, compare=False)
 
     def index(self, name: str) -> int:
         """Index of field ``name`` (a one-line :class:`RootsimError` naming the known fields otherwise)."""
