@@ -36,7 +36,9 @@ from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distri
 from .errors import SpecError
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
-           "load_spec", "parse_spec", "PARAMETER_RANGES"]
+           "load_spec", "parse_spec", "PARAMETER_RANGES",
+           "SoilFieldSpec", "SoilFieldLayer", "SoilFieldGrid", "SoilFieldPatch", "SoilPedotransfer", "BioporeSpec",
+           "BioporeChannel", "Weather", "Development"]
 
 
 def _to_distribution(value):

@@ -194,7 +194,7 @@ def _compile(top: np.ndarray, bottom: np.ndarray, radius: np.ndarray) -> Compile
         bin_first=np.cumsum(first).astype(np.int64), bin_items=owner[order].astype(np.int64))
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def biopore_at(compiled, x, y, z):
     """Index of a biopore containing the point (x, y, z) cm, or -1 (scalar numba kernel).
 

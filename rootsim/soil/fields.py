@@ -338,7 +338,7 @@ def compile_fields(fields: Mapping[str, Sequence[FieldSource]]) -> SoilFields:
 
 # -- kernels ---------------------------------------------------------------------------------------
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _edge_weight(dist, edge):
     """Weight of a patch and d(weight)/d(distance) at ``dist`` cm outside it."""
     if dist <= 0.0:
@@ -348,7 +348,7 @@ def _edge_weight(dist, edge):
     return 1.0 - dist / edge, -1.0 / edge
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _axis_cell(u, n, at_cells, clamp):
     """Lower index, fraction and inside flag along one axis; ``u`` is the coordinate in units of the spacing."""
     inside = True
@@ -376,37 +376,31 @@ def _axis_cell(u, n, at_cells, clamp):
 
 
 @njit(cache=True)
-def _grid(c, s, x, y, z):
-    """(weight, value, gx, gy, gz) of a grid source."""
-    p = c.params[s]
-    off = c.ints[s, 0]
-    nx, ny, nz = c.ints[s, 1], c.ints[s, 2], c.ints[s, 3]
-    rule = c.ints[s, 6]
-    cells = c.kind[s] == GRID_CELLS
+def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, outside_value, x, y, z):
+    """(weight, value, gx, gy, gz) of a grid source (scalar arguments: cheap to call per point)."""
     clamp = rule == CLAMP
-    i, fx, in_x = _axis_cell((x - p[0]) / p[3], nx, cells, clamp)
-    j, fy, in_y = _axis_cell((y - p[1]) / p[4], ny, cells, clamp)
-    k, fz, in_z = _axis_cell((z - p[2]) / p[5], nz, cells, clamp)
+    i, fx, in_x = _axis_cell((x - ox) / hx, nx, cells, clamp)
+    j, fy, in_y = _axis_cell((y - oy) / hy, ny, cells, clamp)
+    k, fz, in_z = _axis_cell((z - oz) / hz, nz, cells, clamp)
     inside = in_x and in_y and in_z
     if not inside and rule == OUTSIDE_NONE:
         return 0.0, 0.0, 0.0, 0.0, 0.0
     if not inside and rule == OUTSIDE_VALUE:
-        return 1.0, p[6], 0.0, 0.0, 0.0
-    d = c.data
+        return 1.0, outside_value, 0.0, 0.0, 0.0
     syz = ny * nz
     if cells:
-        return 1.0, d[off + i * syz + j * nz + k], 0.0, 0.0, 0.0
+        return 1.0, data[off + i * syz + j * nz + k], 0.0, 0.0, 0.0
     i1 = i + 1 if nx > 1 else i
     j1 = j + 1 if ny > 1 else j
     k1 = k + 1 if nz > 1 else k
-    v000 = d[off + i * syz + j * nz + k]
-    v100 = d[off + i1 * syz + j * nz + k]
-    v010 = d[off + i * syz + j1 * nz + k]
-    v110 = d[off + i1 * syz + j1 * nz + k]
-    v001 = d[off + i * syz + j * nz + k1]
-    v101 = d[off + i1 * syz + j * nz + k1]
-    v011 = d[off + i * syz + j1 * nz + k1]
-    v111 = d[off + i1 * syz + j1 * nz + k1]
+    v000 = data[off + i * syz + j * nz + k]
+    v100 = data[off + i1 * syz + j * nz + k]
+    v010 = data[off + i * syz + j1 * nz + k]
+    v110 = data[off + i1 * syz + j1 * nz + k]
+    v001 = data[off + i * syz + j * nz + k1]
+    v101 = data[off + i1 * syz + j * nz + k1]
+    v011 = data[off + i * syz + j1 * nz + k1]
+    v111 = data[off + i1 * syz + j1 * nz + k1]
     # interpolate along x, then y, then z
     a00 = v000 + fx * (v100 - v000)
     a10 = v010 + fx * (v110 - v010)
@@ -418,112 +412,139 @@ def _grid(c, s, x, y, z):
     # derivatives of the trilinear interpolant (zero along an axis that is clamped or has one node)
     dx0 = (v100 - v000) + fy * ((v110 - v010) - (v100 - v000))
     dx1 = (v101 - v001) + fy * ((v111 - v011) - (v101 - v001))
-    gx = (dx0 + fz * (dx1 - dx0)) / p[3] if (in_x and nx > 1) else 0.0
-    gy = ((a10 - a00) + fz * ((a11 - a01) - (a10 - a00))) / p[4] if (in_y and ny > 1) else 0.0
-    gz = (b1 - b0) / p[5] if (in_z and nz > 1) else 0.0
+    gx = (dx0 + fz * (dx1 - dx0)) / hx if (in_x and nx > 1) else 0.0
+    gy = ((a10 - a00) + fz * ((a11 - a01) - (a10 - a00))) / hy if (in_y and ny > 1) else 0.0
+    gz = (b1 - b0) / hz if (in_z and nz > 1) else 0.0
     return 1.0, value, gx, gy, gz
 
 
 @njit(cache=True)
-def _source(c, s, x, y, z):
-    """(w, value, gx, gy, gz, wgx, wgy, wgz) of source ``s`` at one point (power laws excluded)."""
-    kind = c.kind[s]
-    p = c.params[s]
-    if kind == CONSTANT:
-        return 1.0, p[0], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-    if kind == LAYERS:
-        off = c.ints[s, 0]
-        n = c.ints[s, 1]
-        depth = -z
-        lo = 0
-        hi = n
-        while lo < hi:  # number of edges strictly above ``depth`` (searchsorted, side="left")
-            mid = (lo + hi) // 2
-            if c.data[off + mid] < depth:
-                lo = mid + 1
-            else:
-                hi = mid
-        return 1.0, c.data[off + n + lo], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-    if kind == DEPTH_TABLE:
-        off = c.ints[s, 0]
-        n = c.ints[s, 1]
-        depth = -z
-        if depth <= c.data[off]:
-            return 1.0, c.data[off + n], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-        if depth >= c.data[off + n - 1]:
-            return 1.0, c.data[off + 2 * n - 1], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-        lo = 0
-        hi = n - 1
-        while hi - lo > 1:
-            mid = (lo + hi) // 2
-            if c.data[off + mid] <= depth:
-                lo = mid
-            else:
-                hi = mid
-        d0 = c.data[off + lo]
-        d1 = c.data[off + lo + 1]
-        v0 = c.data[off + n + lo]
-        v1 = c.data[off + n + lo + 1]
-        slope = (v1 - v0) / (d1 - d0)  # per cm of depth; z = -depth
-        return 1.0, v0 + slope * (depth - d0), 0.0, 0.0, -slope, 0.0, 0.0, 0.0
-    if kind == GRID_NODES or kind == GRID_CELLS:
-        w, v, gx, gy, gz = _grid(c, s, x, y, z)
-        return w, v, gx, gy, gz, 0.0, 0.0, 0.0
-    if kind == BOX:
-        qx = abs(x - p[0]) - p[3]
-        qy = abs(y - p[1]) - p[4]
-        qz = abs(z - p[2]) - p[5]
-        ox = max(qx, 0.0)
-        oy = max(qy, 0.0)
-        oz = max(qz, 0.0)
-        dist = math.sqrt(ox * ox + oy * oy + oz * oz)
-        w, dw = _edge_weight(dist, p[7])
-        if dw == 0.0:
-            return w, p[6], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-        sx = 1.0 if x >= p[0] else -1.0
-        sy = 1.0 if y >= p[1] else -1.0
-        sz = 1.0 if z >= p[2] else -1.0
-        return w, p[6], 0.0, 0.0, 0.0, dw * sx * ox / dist, dw * sy * oy / dist, dw * sz * oz / dist
-    if kind == SPHERE:
-        rx = x - p[0]
-        ry = y - p[1]
-        rz = z - p[2]
-        rho = math.sqrt(rx * rx + ry * ry + rz * rz)
-        w, dw = _edge_weight(rho - p[3], p[7])
-        if dw == 0.0:
-            return w, p[6], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-        return w, p[6], 0.0, 0.0, 0.0, dw * rx / rho, dw * ry / rho, dw * rz / rho
-    if kind == CYLINDER:
-        rx = x - p[0]
-        ry = y - p[1]
-        rz = z - p[2]
-        t = rx * p[3] + ry * p[4] + rz * p[5]
-        px = rx - t * p[3]
-        py = ry - t * p[4]
-        pz = rz - t * p[5]
-        rho = math.sqrt(px * px + py * py + pz * pz)
-        radial = max(rho - p[9], 0.0)
-        if t < 0.0:
-            axial = -t
-            sign = -1.0
-        elif t > p[8]:
-            axial = t - p[8]
-            sign = 1.0
+def _layers(data, off, n, depth):
+    """Value of a layered source at ``depth`` (interval i is (edges[i-1], edges[i]])."""
+    lo = 0
+    hi = n
+    while lo < hi:  # number of edges strictly above ``depth`` (searchsorted, side="left")
+        mid = (lo + hi) // 2
+        if data[off + mid] < depth:
+            lo = mid + 1
         else:
-            axial = 0.0
-            sign = 0.0
-        dist = math.sqrt(radial * radial + axial * axial)
-        w, dw = _edge_weight(dist, p[7])
-        if dw == 0.0:
-            return w, p[6], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-        gx = (radial * px / rho if rho > 0 else 0.0) + axial * sign * p[3]
-        gy = (radial * py / rho if rho > 0 else 0.0) + axial * sign * p[4]
-        gz = (radial * pz / rho if rho > 0 else 0.0) + axial * sign * p[5]
-        return w, p[6], 0.0, 0.0, 0.0, dw * gx / dist, dw * gy / dist, dw * gz / dist
-    return 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
+            hi = mid
+    return data[off + n + lo]
 
 
 @njit(cache=True)
+def _depth_table(data, off, n, depth):
+    """Value and d(value)/dz of a depth table."""
+    if depth <= data[off]:
+        return data[off + n], 0.0
+    if depth >= data[off + n - 1]:
+        return data[off + 2 * n - 1], 0.0
+    lo = 0
+    hi = n - 1
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if data[off + mid] <= depth:
+            lo = mid
+        else:
+            hi = mid
+    d0 = data[off + lo]
+    d1 = data[off + lo + 1]
+    v0 = data[off + n + lo]
+    v1 = data[off + n + lo + 1]
+    slope = (v1 - v0) / (d1 - d0)  # per cm of depth; z = -depth
+    return v0 + slope * (depth - d0), -slope
+
+
+@njit(cache=True)
+def _box(x, y, z, cx, cy, cz, hx, hy, hz, edge):
+    """Weight and its gradient of a box patch (centre, half sizes, edge width)."""
+    ox = max(abs(x - cx) - hx, 0.0)
+    oy = max(abs(y - cy) - hy, 0.0)
+    oz = max(abs(z - cz) - hz, 0.0)
+    dist = math.sqrt(ox * ox + oy * oy + oz * oz)
+    w, dw = _edge_weight(dist, edge)
+    if dw == 0.0:
+        return w, 0.0, 0.0, 0.0
+    sx = 1.0 if x >= cx else -1.0
+    sy = 1.0 if y >= cy else -1.0
+    sz = 1.0 if z >= cz else -1.0
+    return w, dw * sx * ox / dist, dw * sy * oy / dist, dw * sz * oz / dist
+
+
+@njit(cache=True)
+def _sphere(x, y, z, cx, cy, cz, radius, edge):
+    """Weight and its gradient of a sphere patch."""
+    rx = x - cx
+    ry = y - cy
+    rz = z - cz
+    rho = math.sqrt(rx * rx + ry * ry + rz * rz)
+    w, dw = _edge_weight(rho - radius, edge)
+    if dw == 0.0:
+        return w, 0.0, 0.0, 0.0
+    return w, dw * rx / rho, dw * ry / rho, dw * rz / rho
+
+
+@njit(cache=True)
+def _cylinder(x, y, z, sx, sy, sz, ux, uy, uz, length, radius, edge):
+    """Weight and its gradient of a cylinder patch (start, unit axis, length, radius, edge width)."""
+    rx = x - sx
+    ry = y - sy
+    rz = z - sz
+    t = rx * ux + ry * uy + rz * uz
+    px = rx - t * ux
+    py = ry - t * uy
+    pz = rz - t * uz
+    rho = math.sqrt(px * px + py * py + pz * pz)
+    radial = max(rho - radius, 0.0)
+    if t < 0.0:
+        axial = -t
+        sign = -1.0
+    elif t > length:
+        axial = t - length
+        sign = 1.0
+    else:
+        axial = 0.0
+        sign = 0.0
+    dist = math.sqrt(radial * radial + axial * axial)
+    w, dw = _edge_weight(dist, edge)
+    if dw == 0.0:
+        return w, 0.0, 0.0, 0.0
+    gx = (radial * px / rho if rho > 0 else 0.0) + axial * sign * ux
+    gy = (radial * py / rho if rho > 0 else 0.0) + axial * sign * uy
+    gz = (radial * pz / rho if rho > 0 else 0.0) + axial * sign * uz
+    return w, dw * gx / dist, dw * gy / dist, dw * gz / dist
+
+
+@njit(cache=True, inline="always")
+def _source(kinds, params, ints, data, s, x, y, z):
+    """(w, value, gx, gy, gz, wgx, wgy, wgz) of source ``s`` at one point (power laws excluded)."""
+    kind = kinds[s]
+    if kind == CONSTANT:
+        return 1.0, params[s, 0], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
+    if kind == LAYERS:
+        return 1.0, _layers(data, ints[s, 0], ints[s, 1], -z), 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
+    if kind == DEPTH_TABLE:
+        v, gz = _depth_table(data, ints[s, 0], ints[s, 1], -z)
+        return 1.0, v, 0.0, 0.0, gz, 0.0, 0.0, 0.0
+    if kind == GRID_NODES or kind == GRID_CELLS:
+        w, v, gx, gy, gz = _grid(data, ints[s, 0], ints[s, 1], ints[s, 2], ints[s, 3], ints[s, 6],
+                                 kind == GRID_CELLS, params[s, 0], params[s, 1], params[s, 2], params[s, 3],
+                                 params[s, 4], params[s, 5], params[s, 6], x, y, z)
+        return w, v, gx, gy, gz, 0.0, 0.0, 0.0
+    if kind == BOX:
+        w, wgx, wgy, wgz = _box(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4],
+                                params[s, 5], params[s, 7])
+    elif kind == SPHERE:
+        w, wgx, wgy, wgz = _sphere(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 7])
+    elif kind == CYLINDER:
+        w, wgx, wgy, wgz = _cylinder(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4],
+                                     params[s, 5], params[s, 8], params[s, 9], params[s, 7])
+    else:
+        return 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
+    return w, params[s, 6], 0.0, 0.0, 0.0, wgx, wgy, wgz
+
+
+@njit(cache=True, inline="always")
 def _apply(mode, v, gx, gy, gz, w, s, sgx, sgy, sgz, wgx, wgy, wgz):
     """Combine the running value/gradient with one source (see the module docstring)."""
     if mode == ADD:
@@ -537,32 +558,31 @@ def _apply(mode, v, gx, gy, gz, w, s, sgx, sgy, sgz, wgx, wgy, wgz):
 
 
 @njit(cache=True)
-def _plain(c, f, x, y, z):
+def _plain(field_first, kinds, modes, params, ints, data, f, x, y, z):
     """Value and gradient of a field without power-law sources."""
     v = 0.0
     gx = 0.0
     gy = 0.0
     gz = 0.0
-    for s in range(c.field_first[f], c.field_first[f + 1]):
-        if c.kind[s] == POWER_LAW:
+    for s in range(field_first[f], field_first[f + 1]):
+        if kinds[s] == POWER_LAW:
             continue
-        w, sv, sgx, sgy, sgz, wgx, wgy, wgz = _source(c, s, x, y, z)
-        v, gx, gy, gz = _apply(c.mode[s], v, gx, gy, gz, w, sv, sgx, sgy, sgz, wgx, wgy, wgz)
+        w, sv, sgx, sgy, sgz, wgx, wgy, wgz = _source(kinds, params, ints, data, s, x, y, z)
+        v, gx, gy, gz = _apply(modes[s], v, gx, gy, gz, w, sv, sgx, sgy, sgz, wgx, wgy, wgz)
     return v, gx, gy, gz
 
 
-@njit(cache=True)
-def _evaluate(c, f, x, y, z):
+@njit(cache=True, inline="always")
+def _evaluate(field_first, kinds, modes, params, ints, data, f, x, y, z):
     """Value and gradient (d/dx, d/dy, d/dz per cm) of field ``f`` at one point."""
     v = 0.0
     gx = 0.0
     gy = 0.0
     gz = 0.0
-    for s in range(c.field_first[f], c.field_first[f + 1]):
-        if c.kind[s] == POWER_LAW:
-            p = c.params[s]
-            theta, tx, ty, tz = _plain(c, c.ints[s, 4], x, y, z)
-            rho, rx, ry, rz = _plain(c, c.ints[s, 5], x, y, z)
+    for s in range(field_first[f], field_first[f + 1]):
+        if kinds[s] == POWER_LAW:
+            theta, tx, ty, tz = _plain(field_first, kinds, modes, params, ints, data, ints[s, 4], x, y, z)
+            rho, rx, ry, rz = _plain(field_first, kinds, modes, params, ints, data, ints[s, 5], x, y, z)
             if theta < MIN_WATER_CONTENT:
                 theta = MIN_WATER_CONTENT
                 tx = 0.0
@@ -574,24 +594,25 @@ def _evaluate(c, f, x, y, z):
                 sgy = 0.0
                 sgz = 0.0
             else:
-                sv = p[0] * theta ** p[1] * rho ** p[2]
-                sgx = sv * (p[1] * tx / theta + p[2] * rx / rho)
-                sgy = sv * (p[1] * ty / theta + p[2] * ry / rho)
-                sgz = sv * (p[1] * tz / theta + p[2] * rz / rho)
-            v, gx, gy, gz = _apply(c.mode[s], v, gx, gy, gz, 1.0, sv, sgx, sgy, sgz, 0.0, 0.0, 0.0)
+                sv = params[s, 0] * theta ** params[s, 1] * rho ** params[s, 2]
+                sgx = sv * (params[s, 1] * tx / theta + params[s, 2] * rx / rho)
+                sgy = sv * (params[s, 1] * ty / theta + params[s, 2] * ry / rho)
+                sgz = sv * (params[s, 1] * tz / theta + params[s, 2] * rz / rho)
+            v, gx, gy, gz = _apply(modes[s], v, gx, gy, gz, 1.0, sv, sgx, sgy, sgz, 0.0, 0.0, 0.0)
         else:
-            w, sv, sgx, sgy, sgz, wgx, wgy, wgz = _source(c, s, x, y, z)
-            v, gx, gy, gz = _apply(c.mode[s], v, gx, gy, gz, w, sv, sgx, sgy, sgz, wgx, wgy, wgz)
+            w, sv, sgx, sgy, sgz, wgx, wgy, wgz = _source(kinds, params, ints, data, s, x, y, z)
+            v, gx, gy, gz = _apply(modes[s], v, gx, gy, gz, w, sv, sgx, sgy, sgz, wgx, wgy, wgz)
     return v, gx, gy, gz
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def value_at(compiled, field_index, x, y, z):
     """Value of field ``field_index`` at the point (x, y, z) cm (scalar numba kernel)."""
-    return _evaluate(compiled, field_index, x, y, z)[0]
+    c = compiled
+    return _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, field_index, x, y, z)[0]
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def gradient_at(compiled, field_index, x, y, z):
     """Gradient ``(d/dx, d/dy, d/dz)`` per cm of field ``field_index`` at (x, y, z) (scalar numba kernel).
 
@@ -599,20 +620,23 @@ def gradient_at(compiled, field_index, x, y, z):
     patch edges of width ``edge_width_cm``; zero inside piecewise-constant parts (layers, cell grids,
     patch interiors) and outside clamped grid axes.
     """
-    v, gx, gy, gz = _evaluate(compiled, field_index, x, y, z)
+    c = compiled
+    v, gx, gy, gz = _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, field_index, x, y, z)
     return gx, gy, gz
 
 
 @njit(cache=True)
 def _values_loop(c, f, x, y, z, out):
+    field_first, kinds, modes, params, ints, data = c.field_first, c.kind, c.mode, c.params, c.ints, c.data
     for i in range(x.size):
-        out[i] = _evaluate(c, f, x[i], y[i], z[i])[0]
+        out[i] = _evaluate(field_first, kinds, modes, params, ints, data, f, x[i], y[i], z[i])[0]
 
 
 @njit(cache=True)
 def _gradients_loop(c, f, x, y, z, out):
+    field_first, kinds, modes, params, ints, data = c.field_first, c.kind, c.mode, c.params, c.ints, c.data
     for i in range(x.size):
-        v, gx, gy, gz = _evaluate(c, f, x[i], y[i], z[i])
+        v, gx, gy, gz = _evaluate(field_first, kinds, modes, params, ints, data, f, x[i], y[i], z[i])
         out[i, 0] = gx
         out[i, 1] = gy
         out[i, 2] = gz
