@@ -202,6 +202,8 @@ def _run_check(tmp_path, capsys, soil_toml: str, files=()):
     ('[soil.fields.nitrate_mg_per_kg]\nvalue = 3\n[[soil.fields.nitrate_mg_per_kg.patches]]\nshape = "box"\n'
      'value = 3\nradius_cm = 2\n', [], "patches[0]: a box patch needs center_cm, size_cm"),
     ('[weather]\nfile = "nope.csv"\n', [], "weather.file: "),
+    ('[soil.biopores]\ndensity_per_m2 = 90000\n[stand]\nrows = 100\nplants_per_row = 100\n', [],
+     "soil.biopores.density_per_m2: 90000 per m² over 1500 m² gives about 135,000,000 biopores"),
 ])
 def test_bad_soil_input_gives_one_error_line_and_exit_2(tmp_path, capsys, soil_toml, files, fragment):
     code, err, spec = _run_check(tmp_path, capsys, soil_toml, files)
@@ -226,3 +228,18 @@ def test_compiled_layers_match_the_growth_engines_layer_rule():
     engine = SoilField(spec.soil)
     factor = [elongation_factor_kernel(r, EXPONENTIAL, 1.5, 1.0) for r in resistance]
     np.testing.assert_allclose(factor, engine.elongation_factor(depth), rtol=1e-14)
+
+
+def test_layers_and_an_npy_cell_grid_in_parameter_files_agree(tmp_path):
+    # the same soil written as [soil.fields.X] layers and as a .npy grid of cells (axes x, y, depth downward)
+    np.save(tmp_path / "cells.npy", np.broadcast_to(np.repeat([1.3, 1.7, 1.5], [5, 2, 13]), (4, 3, 20)).copy())
+    layers = [{"depth_top_cm": 0, "depth_bottom_cm": 25, "value": 1.3},
+              {"depth_top_cm": 25, "depth_bottom_cm": 35, "value": 1.7},
+              {"depth_top_cm": 35, "depth_bottom_cm": 100, "value": 1.5}]
+    as_layers = _spec(tmp_path, {"fields": {"bulk_density_g_per_cm3": {"layers": layers}}})
+    as_grid = _spec(tmp_path, {"fields": {"bulk_density_g_per_cm3": {"grid": {
+        "file": "cells.npy", "origin_cm": [-40, -30, 0], "spacing_cm": [20, 20, 5], "values_at": "cells"}}}})
+    x, y = RNG.uniform(-40, 40, 3000), RNG.uniform(-30, 30, 3000)
+    z = -np.concatenate([RNG.uniform(0, 99.99, 2990), [0, 25, 35, 24.9999, 25.0001, 34.9999, 35.0001, 5, 50, 99]])
+    np.testing.assert_array_equal(as_layers.values("bulk_density_g_per_cm3", x, y, z),
+                                  as_grid.values("bulk_density_g_per_cm3", x, y, z))

@@ -22,6 +22,8 @@ __all__ = ["soil_fields_from_spec", "biopores_from_spec", "check_spec_inputs", "
 
 #: Field names: lower-case words with underscores (units in the name), 4 to 64 characters.
 FIELD_NAME = re.compile(r"^[a-z][a-z0-9_]{3,63}$")
+#: Most biopores one run may draw.
+MAX_BIOPORES = 1_000_000
 #: Most values one grid file may hold.
 MAX_GRID_VALUES = 20_000_000
 
@@ -281,6 +283,11 @@ def _biopores(spec, *, seed: int | None = None) -> Biopores | None:
     radii = [ch.radius_cm for ch in bp.channels]
     if bp.density_per_m2 > 0:
         xmin, xmax, ymin, ymax, _, _ = soil_bounds_cm(spec)
+        expected = bp.density_per_m2 * (xmax - xmin) * (ymax - ymin) / 1e4
+        if expected > MAX_BIOPORES:
+            raise _Problem("soil.biopores.density_per_m2", f"{bp.density_per_m2:g} per m² over "
+                           f"{(xmax - xmin) * (ymax - ymin) / 1e4:g} m² gives about {expected:,.0f} biopores",
+                           f"at most {MAX_BIOPORES:,}")
 
         def pair(value):
             return (value["low"], value["high"]) if isinstance(value, dict) else (value, value)
@@ -289,8 +296,6 @@ def _biopores(spec, *, seed: int | None = None) -> Biopores | None:
                               x_range_cm=(xmin, xmax), y_range_cm=(ymin, ymax), depth_top_cm=bp.depth_top_cm,
                               depth_bottom_cm=bp.depth_bottom_cm, radius_cm=pair(bp.radius_cm),
                               inclination_from_vertical_deg=pair(bp.inclination_from_vertical_deg))
-        if drawn.count > 1_000_000:
-            raise _Problem("soil.biopores.density_per_m2", f"{drawn.count:,} biopores", "at most 1,000,000")
         tops += [tuple(p) for p in drawn.top_cm]
         bottoms += [tuple(p) for p in drawn.bottom_cm]
         radii += drawn.radius_cm.tolist()
@@ -328,6 +333,8 @@ def check_spec_inputs(spec):
     try:
         if spec.soil.fields:
             _fields(spec)
+        if spec.soil.biopores is not None:
+            _biopores(spec)
         if spec.weather is not None or spec.development.clock == "thermal":
             from .thermal import weather_table_for_spec
 
