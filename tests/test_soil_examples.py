@@ -67,3 +67,31 @@ def test_soil_command_refuses_a_bad_voxel_size_and_writes_nothing(tmp_path, caps
     out = tmp_path / "soil.vti"
     assert main(["soil", str(PARAMS / "pot_nutrient_patch.toml"), "--vti", str(out), "--voxel-cm", "0"]) == 2
     assert capsys.readouterr().err.startswith("error: ") and not out.exists()
+
+
+def test_plough_pan_stand_establishes_slowly_then_deepens_at_field_rates():
+    from rootsim.soil.thermal import (calendar_days_from_effective_days, daily_effective_days,
+                                      grow_for_spec, weather_table_for_spec)
+
+    spec = load_spec(PARAMS / "field_plough_pan.toml")
+    front, systems = {}, {}
+    for days in (20, 45, 60):
+        system = grow_for_spec(spec.with_overrides(duration_days=days), progress=False)
+        front[days] = -min(system["z0"].min(), system["z1"].min())
+        systems[days] = system
+    late_rate = (front[60] - front[45]) / 15
+    # after establishment a maize-like rooting front advances 2.5-3 cm/day (common practice, extension sources);
+    # the band reaches down to 2.0 for the plough pan, which slows roots crossing it
+    assert 2.0 <= late_rate <= 3.5
+    # cool first weeks of the invented season: the front advances far slower than later
+    assert (front[20] - spec.stand.sowing_depth_cm) / 20 < 0.6 * late_rate
+    # fine laterals live 15 days at the optimum: none older than that is left at day 60
+    dev = spec.development
+    daily = daily_effective_days(weather_table_for_spec(spec), shape=dev.temperature_response,
+                                 base_c=dev.base_temperature_c, optimum_c=dev.optimum_temperature_c,
+                                 maximum_c=dev.maximum_temperature_c)
+    effective_60 = systems[60].metadata["development"]["effective_days"]
+    oldest_allowed = calendar_days_from_effective_days(daily, effective_60 - 15.0)
+    fine = systems[60]["root_class"] == "lateral_second"
+    assert fine.any() and systems[60]["birth_day"][fine].min() >= oldest_allowed - 1e-9
+    assert systems[45]["birth_day"][systems[45]["root_class"] == "lateral_second"].min() < oldest_allowed
