@@ -15,6 +15,12 @@ Schema (all lengths in cm, times in days, angles in degrees, resistances in MPa)
                  depth_step_cm, azimuth_jitter_deg
     [root_classes.NAME]               # see RootClass; numeric values may be distributions
     [[root_classes.NAME.branches]]    root_class, probability
+    [soil.fields.NAME]                # 3D soil fields (rootsim.soil): value | layers | depth_table_file | grid |
+                                      # pedotransfer, then [[...patches]]
+    [soil.biopores]                   density_per_m2, radius_cm, inclination_from_vertical_deg, depth range,
+                                      resistance_mpa, [[soil.biopores.channels]]
+    [weather]    file                 # daily weather CSV (rootsim.soil.weather)
+    [development] clock = "calendar" | "thermal", time_unit, temperature_response, cardinal temperatures
 
 Validation uses pydantic; every problem becomes a :class:`rootsim.errors.SpecError` whose message
 names the file, the dotted key path and what is allowed.
@@ -158,7 +164,10 @@ class SoilFieldLayer(_Model):
 
 class SoilFieldGrid(_Model):
     """A regular 3D grid: ``.npy`` (array axes x, y, depth downward; origin and spacing given here) or ``.vti``
-    (VTK image data in rootsim's frame, z up; origin and spacing from the file, point or cell data)."""
+    (VTK image data in rootsim's frame, z up; origin and spacing from the file, point or cell data).
+
+    For ``.npy``, ``origin_cm`` is [x, y, depth] of the first node (``values_at = "nodes"``, trilinear) or of the
+    first cell's low-x, low-y, top corner (``values_at = "cells"``, constant per cell)."""
 
     file: str
     array: str | None = None
@@ -243,7 +252,8 @@ class SoilFieldSpec(_Model):
 
     @model_validator(mode="after")
     def _one_base(self):
-        given = [k for k in ("value", "layers", "depth_table_file", "grid", "pedotransfer") if getattr(self, k) is not None]
+        bases = ("value", "layers", "depth_table_file", "grid", "pedotransfer")
+        given = [k for k in bases if getattr(self, k) is not None]
         if len(given) != 1:
             raise ValueError(f"a soil field needs exactly one of value, layers, depth_table_file, grid, pedotransfer "
                              f"(got {', '.join(given) or 'none'})")

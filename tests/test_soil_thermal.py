@@ -29,7 +29,8 @@ def test_degree_days_against_a_hand_computed_table(tmp_path):
 
 def test_beta_response_hand_computed_values():
     # Yan & Hunt 1999: r = ((Tmax - T)/(Tmax - Topt)) ((T - Tb)/(Topt - Tb))^((Topt - Tb)/(Tmax - Topt));
-    # hand-computed: T = 19 -> 1.916667 * 0.5^1.833333 = 0.537847; T = 36 -> 0.5 * (28/22)^1.833333 = 0.5 * exp(1.833333 * 0.2411621) = 0.778009
+    # hand-computed: T = 19 -> 1.916667 * 0.5^1.833333 = 0.537847;
+    #                T = 36 -> 0.5 * (28/22)^1.833333 = 0.5 * exp(1.833333 * 0.2411621) = 0.778009
     r = beta_temperature_response([8.0, 19.0, 30.0, 36.0, 42.0, 50.0], **CARDINAL)
     np.testing.assert_allclose(r, [0.0, 0.537847, 1.0, 0.778009, 0.0, 0.0], atol=2e-6)
     # its maximum is at the optimum (derivative zero there)

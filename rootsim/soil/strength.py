@@ -23,8 +23,6 @@ Pure functions over arrays (numpy) plus numba scalar kernels the growth engine c
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from numba import njit
 
