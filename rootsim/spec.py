@@ -15,6 +15,12 @@ Schema (all lengths in cm, times in days, angles in degrees, resistances in MPa)
                  depth_step_cm, azimuth_jitter_deg
     [root_classes.NAME]               # see RootClass; numeric values may be distributions
     [[root_classes.NAME.branches]]    root_class, probability
+    [soil.fields.NAME]                # 3D soil fields (rootsim.soil): value | layers | depth_table_file | grid |
+                                      # pedotransfer, then [[...patches]]
+    [soil.biopores]                   density_per_m2, radius_cm, inclination_from_vertical_deg, depth range,
+                                      resistance_mpa, [[soil.biopores.channels]]
+    [weather]    file                 # daily weather CSV (rootsim.soil.weather)
+    [development] clock = "calendar" | "thermal", time_unit, temperature_response, cardinal temperatures
 
 Validation uses pydantic; every problem becomes a :class:`rootsim.errors.SpecError` whose message
 names the file, the dotted key path and what is allowed.
@@ -34,9 +40,13 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, PlainSeriali
 
 from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distribution
 from .errors import SpecError
+from .soil.schema import (BioporeChannel, BioporeSpec, Development, SoilFieldGrid, SoilFieldLayer, SoilFieldPatch,
+                          SoilFieldSpec, SoilPedotransfer, Weather)
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
-           "load_spec", "load_spec_layers", "merge_layers", "parse_spec", "PARAMETER_RANGES"]
+           "load_spec", "load_spec_layers", "merge_layers", "parse_spec", "PARAMETER_RANGES",
+           "SoilFieldSpec", "SoilFieldLayer", "SoilFieldGrid", "SoilFieldPatch", "SoilPedotransfer", "BioporeSpec",
+           "BioporeChannel", "Weather", "Development"]
 
 
 def _to_distribution(value):
@@ -117,6 +127,9 @@ class Soil(_Model):
     deflection_threshold_mpa: float = Field(2.5, gt=0)
     deflection_max_incidence_deg: float = Field(45.0, ge=0, le=90)
     layers: list[SoilLayer] = Field(default_factory=list)
+    # 3D soil fields and biopores (rootsim/soil/; compiled by rootsim.soil.build)
+    fields: dict[str, SoilFieldSpec] = Field(default_factory=dict)
+    biopores: BioporeSpec | None = None
 
     @model_validator(mode="after")
     def _no_overlap(self):
@@ -254,7 +267,21 @@ class Spec(_Model):
     container: Container = Container()
     emergence: list[Emergence] = Field(min_length=1)
     root_classes: dict[str, RootClass] = Field(min_length=1)
+    weather: Weather | None = None
+    development: Development = Development()
     source: str = Field("<spec>", exclude=True)
+
+    @model_validator(mode="after")
+    def _soil_inputs(self):
+        """Read and check the files the soil and development sections name (rootsim.soil.build)."""
+        if not (self.soil.fields or self.soil.biopores or self.weather or self.development.clock != "calendar"):
+            return self
+        from .soil.build import check_spec_inputs
+
+        problem = check_spec_inputs(self)
+        if problem is not None:
+            raise _RangeError(*problem)
+        return self
 
     def with_overrides(self, **run_updates) -> "Spec":
         """A copy with run settings replaced (``duration_days``, ``time_step_days``, ``seed``, ``max_segments``);

@@ -40,9 +40,9 @@ def register(parser) -> None:
 
 def run(args) -> int:
     from ..atomic import atomic_write_text
-    from ..growth import grow
     from ..progress import stage
     from ..result_folder import check_new_result_folder, file_sha256, write_result_folder
+    from ..soil.thermal import grow_for_spec
     from ..spec import load_spec
     from ..stand_layout import layout_from_metadata
 
@@ -51,7 +51,7 @@ def run(args) -> int:
                                max_segments=args.max_segments)
     out = check_new_result_folder(args.out, overwrite=args.overwrite)  # before growing: fail early, create nothing
     with stage(f"growing {spec.name} for {spec.run.duration_days:g} days", enabled=not args.quiet):
-        system = grow(spec)
+        system = grow_for_spec(spec)  # calendar or thermal clock ([development])
     summary = system.summary()
     facts = {"spec_name": spec.name, "spec_file": str(args.spec), "duration_days": spec.run.duration_days,
              "time_step_days": spec.run.time_step_days, "seed": spec.run.seed}
