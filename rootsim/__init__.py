@@ -28,9 +28,9 @@ def __getattr__(name):  # lazy: keep ``import rootsim`` light
 
         return getattr(spec, name)
     if name == "grow":
-        from .growth import grow
+        from .soil.thermal import grow_for_spec
 
-        return grow
+        return grow_for_spec
     raise AttributeError(f"module 'rootsim' has no attribute {name!r}")
 
 

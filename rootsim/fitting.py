@@ -279,7 +279,7 @@ def fit_profile(spec: Spec, observed, parameters: list[FitParameter], *, replica
     from scipy.optimize import minimize, minimize_scalar
 
     from .batch import replicate_seed
-    from .growth import grow
+    from .soil.thermal import grow_for_spec as grow
     from .progress import progress_bar
 
     if not parameters:

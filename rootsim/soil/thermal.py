@@ -211,10 +211,18 @@ def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None 
     return RootSystem(columns, metadata, validate=False)
 
 
-def grow_for_spec(spec, *, progress: bool | None = None):
-    """Grow ``spec`` on the clock its ``[development]`` section names (calendar by default)."""
+def grow_for_spec(spec, *, seed: int | None = None, days: float | None = None, step_days: float | None = None,
+                  max_segments: int | None = None, progress: bool | None = None):
+    """Grow ``spec`` on the clock its ``[development]`` section names (calendar by default).
+
+    The one entry point for growing a parameter file (``rootsim.grow``, ``rootsim grow``, studies, batches and
+    fits all use it). ``seed``, ``days``, ``step_days`` and ``max_segments`` override ``run.seed``,
+    ``run.duration_days`` (calendar days), ``run.time_step_days`` and ``run.max_segments``.
+    """
     from ..growth import grow
 
+    if any(v is not None for v in (seed, days, step_days, max_segments)):
+        spec = spec.with_overrides(duration_days=days, time_step_days=step_days, seed=seed, max_segments=max_segments)
     dev = getattr(spec, "development", None)
     if dev is None or dev.clock == "calendar":
         return grow(spec, progress=progress)

@@ -45,7 +45,7 @@ def execute_task(task: Task, measure, keep_segments: bool = False) -> dict:
     if task.error is not None:
         row.update(status="failed", error=task.error)
         return payload
-    from ..growth import grow
+    from ..soil.thermal import grow_for_spec as grow
     from .measure import measure_run
 
     try:
