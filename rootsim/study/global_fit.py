@@ -150,7 +150,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     history: list[dict] = []
     counter = [0]
 
-    def simulate(units: np.ndarray):
+    def grow_and_measure(units: np.ndarray):
         specs, tasks = [], []
         for unit in units:
             values = low + np.clip(unit, 0.0, 1.0) * span
@@ -199,7 +199,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
         return total
 
     def evaluate(units, stage):
-        specs, results = simulate(np.atleast_2d(units))
+        specs, results = grow_and_measure(np.atleast_2d(units))
         out = []
         for name, values in specs:
             sim, traits = observe(results, name)
@@ -244,7 +244,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
         hi = min(p.high, p.low + inside.max() * cell + 0.5 * cell)
         intervals[p.key_path] = (float(min(lo, values[p.key_path])), float(max(hi, values[p.key_path])))
     best_unit = np.array([(values[p.key_path] - p.low) / (p.high - p.low) for p in parameters])
-    specs, results = simulate(best_unit[None, :])
+    specs, results = grow_and_measure(best_unit[None, :])
     fitted, traits = observe(results, specs[0][0])
     profile = obs[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]].copy()
     profile["rld_observed_cm_per_cm3"] = target
