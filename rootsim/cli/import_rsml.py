@@ -27,6 +27,9 @@ together with everything derived from it.
     --default-radius-cm (a note says so)
   - traced geometry is kept as it is: a lateral's segments are its own polyline, and its link
     to the parent (branch-segment-index, else the nearest parent segment) adds no length
+  - --connectors draws a lateral that starts off its parent joined to it: one connector segment
+    from the branch point on the parent to its first traced point (is_connector = true,
+    length_cm = 0), shown by render and VTK export and never counted by analyze or sample
   - units from <metadata><unit> and <resolution> (coordinate / resolution = value in unit),
     every unit the RSML standard lists (m ... nm, inch); files in pixels need --cm-per-pixel
   - 2-D files (all points at z = 0 or without z) are images: image y (downwards) becomes depth
@@ -56,6 +59,10 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="pixel size in cm, for files whose unit is pixel")
     parser.add_argument("--strict", action="store_true",
                         help="refuse files with roots that cannot be measured instead of skipping them")
+    parser.add_argument("--connectors", action="store_true",
+                        help="draw each lateral that starts off its parent joined to it: a connector segment from "
+                             "the branch point to its first traced point (column is_connector, length_cm 0; "
+                             "never counted by analyze or sample; off by default)")
     parser.add_argument("--overwrite", action="store_true",
                         help="replace an earlier run in --out and every file derived from it")
 
@@ -68,19 +75,17 @@ def run(args: argparse.Namespace) -> int:
     from ..formats.rsml import read_rsml
     from ..formats.rsml_reader import skipped_roots_message
     from ..result_folder import check_new_result_folder, write_result_folder
-    from ..segment_table import write_segments
 
     out = check_new_result_folder(args.out, overwrite=args.overwrite)  # before reading: fail early, create nothing
     with warnings.catch_warnings():  # the skipped-roots warning is printed below as one line
         warnings.simplefilter("ignore", UserWarning)
         system = read_rsml(args.file, default_radius_cm=args.default_radius_cm, cm_per_pixel=args.cm_per_pixel,
-                           strict=args.strict)
-    s = system.summary()
-    facts = {"source_file": str(args.file), "format": "rsml"}
+                           strict=args.strict, connectors=args.connectors)
+    s = system.summary()  # of the traced segments: connectors are not roots
+    facts = {"source_file": str(args.file), "format": "rsml", "connectors": system.n_connectors}
 
     def write_files(staging: Path) -> dict:
-        write_segments({c: system[c] for c in system.columns}, staging / "segments.parquet",
-                       metadata=system.metadata)
+        system.write(staging / "segments.parquet")  # connector rows included, marked is_connector
         atomic_write_text(staging / "summary.json", json.dumps({**s, **facts}, indent=2, default=str) + "\n")
         return facts
 
