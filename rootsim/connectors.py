@@ -19,6 +19,8 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .errors import SegmentTableError
+
 __all__ = ["CONNECTOR_COLUMN", "split_connectors", "insert_connectors"]
 
 #: Boolean column marking connector rows.
@@ -44,12 +46,20 @@ def split_connectors(columns: Mapping[str, Any]) -> tuple[dict, dict | None]:
     """
     if CONNECTOR_COLUMN not in columns:
         return dict(columns), None
-    mask = np.asarray(columns[CONNECTOR_COLUMN], dtype=bool)
+    mask = np.asarray(columns[CONNECTOR_COLUMN])
+    if mask.dtype != np.bool_:
+        raise SegmentTableError(f"segment table: column {CONNECTOR_COLUMN} must be true/false (got {mask.dtype})")
     traced = {k: v for k, v in columns.items() if k != CONNECTOR_COLUMN}
     if not mask.any():
         return traced, None
     keep = ~mask
     parent = np.asarray(columns["parent_id"], dtype=np.int64)
+    rows = np.flatnonzero(mask)
+    bad = (parent[rows] < 0) | (np.asarray(columns["length_cm"])[rows] != 0)
+    bad[~bad] = mask[parent[rows[~bad]]]  # a connector hanging from a connector
+    if bad.any():
+        raise SegmentTableError(f"segment table: {CONNECTOR_COLUMN}: row {int(rows[np.flatnonzero(bad)[0]])} is not a "
+                                "connector (allowed: a segment with length_cm 0 whose parent is a traced segment)")
     through = parent.copy()
     linked = through >= 0
     linked[linked] = mask[through[linked]]

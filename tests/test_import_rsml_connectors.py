@@ -155,3 +155,22 @@ def test_cli_outputs_equal_with_and_without_connectors_and_vtk_draws_them(traced
             on_parent.append(_distance_to_polyline(start, parent) < 1e-9)
             assert k == len(pts) + joined_up  # the connector adds one point: the branch point
         assert all(on_parent) if joined_up else not any(on_parent)
+
+
+def test_tables_with_wrong_connector_rows_are_one_line_errors(traced, tmp_path, capsys):
+    out = tmp_path / "joined"
+    assert main(["import-rsml", str(traced), "--out", str(out), "--connectors"]) == 0
+    table = pd.read_parquet(out / "segments.parquet")
+    bad_tables = {
+        "length": table.assign(length_cm=np.where(table.is_connector, 0.5, table.length_cm)),
+        "first": table.assign(is_connector=table.segment_id == 0),  # a plant's first segment has no parent
+        "numbers": table.assign(is_connector=table.is_connector.astype(int)),
+    }
+    for name, frame in bad_tables.items():
+        folder = tmp_path / name
+        folder.mkdir()
+        frame.to_parquet(folder / "segments.parquet", index=False)
+        capsys.readouterr()
+        assert main(["analyze", str(folder), "--area-cm2", "800"]) == 2, name
+        err = capsys.readouterr().err
+        assert err.startswith("error: ") and err.count("\n") == 1 and "is_connector" in err, err
