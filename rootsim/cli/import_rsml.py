@@ -98,5 +98,7 @@ def run(args: argparse.Namespace) -> int:
         print(f"note: {args.file}: {imported.get('segments_without_diameter', 0):,} segments without a diameter value "
               f"got radius {imported['default_radius_cm']:g} cm (--default-radius-cm)", file=sys.stderr)
     print(f"{out / 'segments.parquet'}: {s['n_plants']} plant(s), {s['n_roots']:,} roots, {s['n_segments']:,} "
-          f"segments, {s['total_length_cm']:.1f} cm (run {manifest.run_id}; summary.json and manifest.json beside it)")
+          f"segments, {s['total_length_cm']:.1f} cm"
+          + (f", {system.n_connectors:,} zero-length connectors drawn" if system.n_connectors else "")
+          + f" (run {manifest.run_id}; summary.json and manifest.json beside it)")
     return 0
