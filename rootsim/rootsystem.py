@@ -73,6 +73,10 @@ class RootSystem:
         ``container``, ``run`` and ``spec_file``.
     validate : bool
         Validate the columns (default). The growth engine, which builds valid columns, skips this.
+
+    Connector rows (``is_connector``, see :mod:`rootsim.connectors`) are kept aside: the system's columns are
+    the traced segments only, so analyzers and samplers never count them; :meth:`write` and
+    :meth:`with_connectors` (for drawings) put them back.
     """
 
     def __init__(self, columns: Mapping[str, Any], metadata: Mapping | None = None, *, validate: bool = True):
@@ -80,6 +84,11 @@ class RootSystem:
             self._columns = validate_columns(columns)
         else:  # root_class is always dictionary-encoded (a pandas Categorical): one small code per segment
             self._columns = {k: as_categorical(v) if k == "root_class" else np.asarray(v) for k, v in columns.items()}
+        self._with_connectors = None
+        if "is_connector" in self._columns:
+            from .connectors import split_connectors
+
+            self._columns, self._with_connectors = split_connectors(self._columns)
         self.metadata: dict = dict(metadata or {})
 
     # -- stored data -------------------------------------------------------------------------
@@ -189,8 +198,25 @@ class RootSystem:
         return cls(columns, metadata, validate=False)
 
     def write(self, path: str | os.PathLike) -> Path:
-        """Write the segment table to Parquet atomically."""
-        return write_segments(self._columns, path, metadata=self.metadata)
+        """Write the segment table to Parquet atomically (connector rows included, marked ``is_connector``)."""
+        return write_segments(self._with_connectors or self._columns, path, metadata=self.metadata)
+
+    @property
+    def n_connectors(self) -> int:
+        """Connector segments kept aside (drawn links of imported laterals to their parents; not roots)."""
+        return 0 if self._with_connectors is None else len(self._with_connectors["segment_id"]) - len(self)
+
+    def with_connectors(self) -> "RootSystem":
+        """The system with its connector rows, for drawings (VTK, renders); itself when it has none.
+
+        Its columns hold the connectors (``is_connector`` true, ``length_cm`` 0) between the traced segments:
+        give it to drawing code only, never to analyzers.
+        """
+        if self._with_connectors is None:
+            return self
+        drawn = RootSystem.__new__(RootSystem)
+        drawn._columns, drawn._with_connectors, drawn.metadata = dict(self._with_connectors), None, self.metadata
+        return drawn
 
     # -- summaries ----------------------------------------------------------------------------
     def summary(self) -> dict:

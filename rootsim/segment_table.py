@@ -304,7 +304,8 @@ def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]
             col = col.cast(col.type.value_type)
         cols[name] = col.to_numpy(zero_copy_only=False)
     columns = validate_columns(cols, source=str(path))
-    _check_summary(path, len(columns["segment_id"]), manifest)
+    connectors = int(np.count_nonzero(columns["is_connector"])) if "is_connector" in columns else 0
+    _check_summary(path, len(columns["segment_id"]) - connectors, manifest)  # summaries count traced segments
     return columns, metadata
 
 

@@ -6,6 +6,7 @@ from __future__ import annotations
 import base64
 import io
 import math
+import re
 import shutil
 from pathlib import Path
 
@@ -139,13 +140,73 @@ def test_compare_writes_a_self_contained_report(tiny_study, capsys):
     refs = [e.get(a) for e in doc.iter() for a in ("src", "href") if e.get(a)]
     assert all(r.startswith("data:") for r in refs)  # nothing fetched from the network or the disk
     assert len(doc.findall(".//table")) == 5
-    chromium = shutil.which("chromium") or (Path("/usr/bin/chromium") if Path("/usr/bin/chromium").exists() else None)
-    if chromium:  # a real headless browser, where the system has one
-        import subprocess
+    # the same page in a real browser: test_report_opens_without_errors_in_headless_chromium
 
-        done = subprocess.run([str(chromium), "--headless", "--no-sandbox", "--dump-dom", (out / "report.html").as_uri()],
-                              capture_output=True, text=True, timeout=60)
-        assert done.returncode == 0 and "<img" in done.stdout
+
+def _chromium() -> str | None:
+    found = shutil.which("chromium")
+    return found or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
+
+
+needs_chromium = pytest.mark.skipif(_chromium() is None,
+                                    reason="Chromium is not installed (Debian package 'chromium', /usr/bin/chromium)")
+
+# Chromium's log line for a page's console message: [pid:tid:date/time:LEVEL:CONSOLE...] "message", source: url (line)
+_CONSOLE = re.compile(r"^\[[^\]]*:(?P<level>[A-Z]+):CONSOLE[^\]]*\] (?P<message>.*)$")
+
+
+def open_in_chromium(page: Path, profile: Path) -> tuple[str, list[str]]:
+    """The DOM headless Chromium builds from ``page`` and every message the page put on its console (uncaught
+    exceptions, console.error, resources that failed to load), read from Chromium's own log on stderr.
+
+    Chromium logs all console messages at one level (INFO), whatever their severity, so every one counts: the
+    report has no scripts and a clean page writes nothing to the console."""
+    import subprocess
+
+    profile.mkdir()  # a new, empty profile: no extensions, history or settings of anyone
+    done = subprocess.run([_chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                           "--no-first-run", "--disable-component-update", "--disable-sync",
+                           f"--user-data-dir={profile}", "--enable-logging=stderr", "--v=0", "--dump-dom",
+                           page.as_uri()], capture_output=True, text=True, timeout=180)
+    assert done.returncode == 0, done.stderr[-2000:]
+    errors = []
+    for line in done.stderr.splitlines():
+        if _CONSOLE.match(line):
+            errors.append(line)
+    return done.stdout, errors
+
+
+@needs_chromium
+def test_the_chromium_check_sees_a_script_error(tmp_path):
+    # the check itself can fail: a page with an uncaught ReferenceError and a console.error is reported
+    page = tmp_path / "broken.html"
+    page.write_text("<!DOCTYPE html><html><body><table><tr><td>1</td></tr></table>"
+                    "<script>console.error('broken on purpose'); notDefinedAnywhere();</script></body></html>")
+    dom, errors = open_in_chromium(page, tmp_path / "profile")
+    assert "<table>" in dom
+    assert any("notDefinedAnywhere" in e for e in errors) and any("broken on purpose" in e for e in errors), errors
+
+
+@needs_chromium
+def test_report_opens_without_errors_in_headless_chromium(tiny_study, tmp_path, capsys):
+    # issue 11: the report must open without errors in a real headless browser (Chromium from the system packages)
+    from lxml import html as lxml_html
+
+    out = tmp_path / "compare"
+    assert main(["study", "compare", str(tiny_study), "--reference", "angle-80_spacing-1.5", "--out", str(out)]) == 0
+    dom, errors = open_in_chromium(out / "report.html", tmp_path / "profile")
+    assert errors == []
+    doc = lxml_html.fromstring(dom)  # the browser's DOM, serialized by Chromium, parsed by lxml
+    assert doc.findtext(".//h1").startswith("Study tiny_trial")
+    assert len(doc.findall(".//img")) == 3
+    tables = doc.findall(".//table")
+    # the report's five tables, each with the columns and rows of the CSV written beside it (read by pandas)
+    shown = sorted((tuple(th.text_content().strip() for th in t.findall(".//thead//th")), len(t.findall(".//tbody/tr")))
+                   for t in tables)
+    written = sorted((tuple(frame.columns), len(frame)) for frame in
+                     (pd.read_csv(out / f"{n}.csv") for n in ("trait_summary", "trait_differences", "rld_summary",
+                                                               "rld_differences", "power")))
+    assert shown == written
 
 
 def test_compare_bad_input_is_one_line_and_writes_nothing(tiny_study, tmp_path, capsys):

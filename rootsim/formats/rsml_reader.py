@@ -211,7 +211,7 @@ def skipped_roots_message(source: str, facts: dict) -> str | None:
 
 
 def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None, cm_per_pixel: float | None = None,
-              strict: bool = False):
+              strict: bool = False, connectors: bool = False):
     """Read an RSML file into a :class:`~rootsim.rootsystem.RootSystem`.
 
     Parameters
@@ -225,6 +225,11 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
     strict : bool
         Refuse files with roots that cannot be measured (no geometry, fewer than 2 points)
         instead of skipping them with a warning.
+    connectors : bool
+        Add a connector segment (:mod:`rootsim.connectors`) from the branch point on the parent
+        segment (the lateral's first point projected onto it) to the first traced point of each
+        lateral that starts off its parent, so drawings show it joined; connectors carry zero
+        length and are kept aside from analyses (``system.n_connectors``).
 
     Returns
     -------
@@ -483,6 +488,18 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
         "length_cm": np.linalg.norm(x1 - x0, axis=1),
         "birth_day": point_birth[start_pt + 1],
     }
+    n_connectors = 0
+    if connectors and len(lat):
+        from ..connectors import insert_connectors
+        from .polylines import JOIN_TOLERANCE_CM
+
+        lateral_first = first[lat]
+        bearing = parent_id[lateral_first]
+        foot, gap = _foot_points(x0[bearing], x1[bearing], x0[lateral_first])
+        off = gap > JOIN_TOLERANCE_CM  # laterals traced from a point on the parent need none
+        n_connectors = int(off.sum())
+        if n_connectors:
+            columns = insert_connectors(columns, lateral_first[off], foot[off], bearing[off])
     end_without_diameter = ~has_diameter[start_pt + 1]
     metadata = _stored_metadata(top, meta)
     if not isinstance(metadata.get("stand"), dict):
@@ -496,6 +513,8 @@ def read_rsml(path: str | os.PathLike, *, default_radius_cm: float | None = None
         "segments_without_diameter": int(end_without_diameter.sum()),
         "skipped_roots": n_skipped, **skip_counts, "first_skipped_root": first_skipped,
     }
+    if connectors:
+        metadata["import"]["connectors"] = n_connectors
     message = skipped_roots_message(source, metadata["import"])
     if message:
         warnings.warn(message, UserWarning, stacklevel=2)

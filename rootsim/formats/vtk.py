@@ -32,8 +32,12 @@ def polyline_arrays(system) -> dict:
     dict
         ``points`` (m, 3) float64 cm; ``offsets`` (p + 1,) int64, polyline ``i`` is points
         ``offsets[i]:offsets[i + 1]``; ``point_data`` and ``cell_data``, dicts of name to array;
-        ``root_class_names`` list of str; ``metadata_json`` str.
+        ``root_class_names`` list of str; ``metadata_json`` str. A system with connector segments
+        (:mod:`rootsim.connectors`) is drawn with them, so laterals are joined to their parents, and
+        gets a point array ``is_connector`` (uint8, 1 at the end point of a connector).
     """
+    if hasattr(system, "with_connectors"):
+        system = system.with_connectors()
     lines = polylines_from_segments(system)
     seg = lines.point_segment
     first = lines.first_segment
@@ -54,6 +58,12 @@ def polyline_arrays(system) -> dict:
     point_data["segment_id"] = np.asarray(system["segment_id"], dtype=np.int64)[seg]
     point_data["birth_day"] = birth
     point_data["age_days"] = duration - birth
+    try:
+        connector = system["is_connector"]
+    except (KeyError, IndexError, TypeError):
+        connector = None
+    if connector is not None:
+        point_data["is_connector"] = np.asarray(connector, dtype=np.uint8)[seg]
     meta = getattr(system, "metadata", None) or {}
     return {
         "points": lines.points, "offsets": lines.point_offsets, "point_data": point_data, "cell_data": per_root,

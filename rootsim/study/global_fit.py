@@ -167,7 +167,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             for r, sd_r in enumerate(seeds):
                 tasks.append(Task(f"{name}__r{r:03d}", name, 0, r, sd_r, {}, s, error))
         plan = StudyPlan("fit", tasks, measure, [], kind="fit")
-        results = run_plan(plan, None, workers=workers, scheduler=scheduler, progress=progress)
+        results = run_plan(plan, None, workers=workers, scheduler=scheduler, progress=progress, run_lines=False)
         return specs, results
 
     def observe(results, name):
