@@ -70,7 +70,8 @@ def test_wall_estimate_follows_the_orientation_of_the_roots(replicate_plants, wa
 def test_trench_wall_reads_lower_with_depth(wall_ratios):
     # Vertical trench faces cut the flat roots of the ploughed layer well and miss the steep deep roots, so the
     # ratio of RLD to root intersections per area on the face rises with depth in field maize (Tardieu & Manichon
-    # 1986, Agronomie 6:415-425; Chopart & Siband 1999, Plant Soil 214:61-74, doi:10.1023/A:1004658918388; both
+    # 1986, Agronomie 6:415-425; from memory; Chopart & Siband 1999, Plant Soil 214:61-74,
+    # doi:10.1023/A:1004658918388, convert maize counts on profile walls to RLD with a depth-dependent relation;
     # from memory): the wall estimate / true RLD falls with depth. Checked in every replicate plant, with the
     # fall from 0-30 cm to 60-90 cm larger than three standard deviations of its spread across replicates and
     # every replicate's topsoil ratio above every replicate's 60-90 cm ratio.
