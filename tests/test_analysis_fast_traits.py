@@ -147,3 +147,46 @@ def test_traits_bench_stage_entries(tmp_path):
         # both the traits and the floor add up every segment's length (common practice: total root length)
         assert entry["total_length_cm"] == pytest.approx(float(np.sum(system["length_cm"])), rel=1e-12)
         assert entry["floor_total_length_cm"] == pytest.approx(float(np.sum(system["length_cm"])), rel=1e-12)
+
+
+def test_tables_of_many_row_groups_read_column_by_column_as_pandas_reads_them(tmp_path):
+    # independent reader: pandas/pyarrow read the same file whole; small row groups force the grouped path
+    import pandas as pd
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    system = _interleaved_stand(4)
+    table = pq.read_table(system.write(tmp_path / "one.parquet"))
+    many = tmp_path / "many" / "segments.parquet"
+    many.parent.mkdir()
+    plain = table.set_column(table.column_names.index("root_class"), "root_class",
+                             table.column("root_class").cast(pa.string()))  # older files: string classes
+    pq.write_table(plain, many, row_group_size=37)
+    assert pq.ParquetFile(many).num_row_groups > 3
+    back = RootSystem.read(many)
+    expected = pd.read_parquet(many)
+    for name in expected.columns:
+        if name == "root_class":
+            assert list(back[name]) == expected[name].tolist()
+        else:
+            np.testing.assert_array_equal(back[name], expected[name].to_numpy())
+            assert np.asarray(back[name]).dtype == expected[name].to_numpy().dtype
+    assert root_traits(back) == root_traits(system)
+
+
+def test_rsml_written_in_small_batches_is_the_same_document(tmp_path, monkeypatch):
+    # the batching only bounds memory: the document is the one written in a single batch
+    import re
+
+    from rootsim.formats import rsml
+
+    system = _interleaved_stand(5)
+    whole = rsml.write_rsml(system, tmp_path / "whole.rsml").read_text()
+    monkeypatch.setattr(rsml, "_BATCH_POINTS", 7)
+    batched = rsml.write_rsml(system, tmp_path / "whole2.rsml").read_text()
+
+    def strip(text):
+        return re.sub(r"<last-modified>.*?</last-modified>|<file-key>.*?</file-key>", "", text)
+
+    assert strip(batched) == strip(whole)
+    assert batched.count("<root ") == len(np.unique(system["root_id"]))
