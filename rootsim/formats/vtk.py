@@ -33,7 +33,7 @@ class Deferred(NamedTuple):
     make: Callable[[], np.ndarray]
 
 
-def polyline_arrays(system, *, deferred: bool = False) -> dict:
+def polyline_arrays(system, *, deferred: bool = False, point_arrays=None) -> dict:
     """The arrays of :func:`polydata_from_segments` as plain numpy arrays.
 
     Parameters
@@ -42,6 +42,8 @@ def polyline_arrays(system, *, deferred: bool = False) -> dict:
     deferred : bool
         Give the point data as :class:`Deferred` arrays, made one at a time by the writer
         (so that only one of them exists at once).
+    point_arrays : iterable of str, optional
+        Names of the point arrays to make (default all); e.g. a renderer needs only a few.
 
     Returns
     -------
@@ -80,6 +82,9 @@ def polyline_arrays(system, *, deferred: bool = False) -> dict:
     makers["segment_id"] = (np.int64, gathered("segment_id", np.int64))
     makers["birth_day"] = (np.float64, gathered("birth_day", np.float64))
     makers["age_days"] = (np.float64, lambda: duration - gathered("birth_day", np.float64)())
+    if point_arrays is not None:
+        wanted = set(point_arrays)
+        makers = {name: maker for name, maker in makers.items() if name in wanted}
     if deferred:
         point_data = {name: Deferred(np.dtype(dtype), len(seg), make) for name, (dtype, make) in makers.items()}
     else:
@@ -101,7 +106,7 @@ def _string_array(name: str, values):
     return array
 
 
-def polydata_from_segments(system):
+def polydata_from_segments(system, *, point_arrays=None):
     """Root system as a :class:`pyvista.PolyData` with one polyline per root and shared points.
 
     A root's consecutive segments share their end points; a lateral's polyline starts at its
@@ -112,6 +117,8 @@ def polydata_from_segments(system):
     system : RootSystem
         Segment table with metadata (``run.duration_days`` is used for ages if present,
         otherwise the latest ``birth_day``).
+    point_arrays : iterable of str, optional
+        Only these point arrays (default all of those listed below).
 
     Returns
     -------
@@ -127,7 +134,7 @@ def polydata_from_segments(system):
     """
     import pyvista as pv
 
-    arrays = polyline_arrays(system)
+    arrays = polyline_arrays(system, point_arrays=point_arrays)
     points = arrays["points"]
     if len(points):
         cells = pv.CellArray.from_arrays(arrays["offsets"], np.arange(len(points), dtype=np.int64), deep=True)
@@ -136,7 +143,8 @@ def polydata_from_segments(system):
             poly.point_data[name] = values
         for name, values in arrays["cell_data"].items():
             poly.cell_data[name] = values
-        poly.set_active_scalars("tube_radius_cm", preference="point")
+        if "tube_radius_cm" in arrays["point_data"]:
+            poly.set_active_scalars("tube_radius_cm", preference="point")
     else:
         poly = pv.PolyData()
     field = poly.GetFieldData()
