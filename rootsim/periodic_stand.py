@@ -166,24 +166,34 @@ def segment_images(p0: np.ndarray, p1: np.ndarray, cell: PeriodicCell | None,
         bounds_f = (np.ceil((xmin - sx1) / lx), np.floor((xmax - sx0) / lx),
                     np.ceil((ymin - sy1) / ly), np.floor((ymax - sy0) / ly))
         total_f = float(np.sum(np.maximum(bounds_f[1] - bounds_f[0] + 1, 0) * np.maximum(bounds_f[3] - bounds_f[2] + 1, 0)))
+    del sx0, sx1, sy0, sy1  # temporaries are freed as soon as they are used (memory per segment)
     if not (np.isfinite(total_f) and total_f <= _MAX_IMAGES):
         from .errors import SamplingError
 
         raise SamplingError(f"sampling region x {xmin:g} to {xmax:g}, y {ymin:g} to {ymax:g} cm needs more than "
                             f"{_MAX_IMAGES} periodic root images; sample a smaller region")
     i_lo, i_hi, j_lo, j_hi = (b.astype(np.int64) for b in bounds_f)
+    del bounds_f
     ni = np.maximum(i_hi - i_lo + 1, 0)
     nj = np.maximum(j_hi - j_lo + 1, 0)
+    del i_hi, j_hi
     count = ni * nj
+    del ni
     total = int(count.sum())
     if total == n and np.all(count == 1) and not np.any(i_lo) and not np.any(j_lo):
         return p0, p1, np.arange(n, dtype=np.int64)
     source = np.repeat(np.arange(n, dtype=np.int64), count)
     k = np.arange(total, dtype=np.int64) - np.repeat(np.cumsum(count) - count, count)
-    nj_s = nj[source]
-    shift_i = i_lo[source] + k // np.maximum(nj_s, 1)
-    shift_j = j_lo[source] + k % np.maximum(nj_s, 1)
-    shift = np.zeros((total, 3))
-    shift[:, 0] = shift_i * lx
-    shift[:, 1] = shift_j * ly
-    return p0[source] + shift, p1[source] + shift, source
+    nj_s = np.maximum(nj[source], 1)
+    del nj, count
+    shift_i = i_lo[source] + k // nj_s
+    shift_j = j_lo[source] + k % nj_s
+    del k, nj_s, i_lo, j_lo
+    # the same sums as adding a (total, 3) shift with zero z, without that array
+    shift_x, shift_y = shift_i * lx, shift_j * ly
+    del shift_i, shift_j
+    q0, q1 = p0[source], p1[source]
+    for q in (q0, q1):
+        q[:, 0] += shift_x
+        q[:, 1] += shift_y
+    return q0, q1, source

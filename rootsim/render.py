@@ -228,8 +228,10 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         plotter.set_background(BACKGROUND)
         legend_entries = 0
         if len(system):
-            legend_entries = _add_roots(plotter, polydata_from_segments(system), color_by=color_by, scale=scale,
+            roots = polydata_from_segments(system, point_arrays=("age_days", "tube_radius_cm"))  # the ones drawn
+            legend_entries = _add_roots(plotter, roots, color_by=color_by, scale=scale,
                                         tube_scale=tube_scale if style == "tubes" else None)
+            del roots  # the drawn parts share its points; the rest is freed before rendering
         plane = pv.Plane(center=(0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi), 0.0), direction=(0, 0, 1),
                          i_size=x_hi - x_lo, j_size=y_hi - y_lo, i_resolution=1, j_resolution=1)
         plotter.add_mesh(plane, color=SURFACE_COLOUR, opacity=SURFACE_OPACITY, lighting=False)

@@ -110,7 +110,13 @@ def validate_columns(columns: Mapping[str, Any], *, source: str = "segment table
         if name == "root_class":
             out[name] = values
             continue
-        if name in INT_COLUMNS:
+        if name in INT_COLUMNS and np.asarray(values).dtype.kind in "iu":  # integers already: no float copy
+            arr = np.asarray(values)
+            if arr.size and (int(arr.max()) > 2**53 or int(arr.min()) < -(2**53)):
+                raise SegmentTableError(f"{source}: column {name} has values beyond ±2^53 (allowed: ids and orders "
+                                        "that fit a 64-bit integer exactly)")
+            out[name] = arr.astype(np.int64, copy=False)
+        elif name in INT_COLUMNS:
             try:
                 arr = np.asarray(values, dtype=np.float64)
             except (TypeError, ValueError):
@@ -284,29 +290,57 @@ def read_segments(path: str | os.PathLike) -> tuple[dict[str, np.ndarray], dict]
     if shape.num_rows > MAX_SEGMENT_BUDGET or shape.num_columns > MAX_COLUMNS:
         raise SegmentTableError(f"{path}: {shape.num_rows:,} rows and {shape.num_columns:,} columns (allowed: at most "
                                 f"{MAX_SEGMENT_BUDGET:,} segments and {MAX_COLUMNS} columns)")
+    # One column at a time: the Arrow buffers of a column are freed once it is a numpy array, so the
+    # peak is the numpy table plus one column instead of the Arrow table plus the numpy table.
+    cols = {}
+    pool = pa.default_memory_pool()
     try:
-        table = pq.read_table(path, page_checksum_verification=True)
+        parquet = pq.ParquetFile(path, page_checksum_verification=True)
+        schema = parquet.schema_arrow
+        for name in schema.names:
+            kind = schema.field(name).type
+            if parquet.num_row_groups > 1 and (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
+                cols[name] = _read_numeric_column(parquet, name, shape.num_rows, source=str(path))
+                pool.release_unused()
+                continue
+            col = parquet.read(columns=[name]).column(0)
+            if name == "root_class" and pa.types.is_dictionary(col.type):
+                cols[name] = col.to_pandas().array  # a pandas Categorical, no Python strings per row
+                continue
+            if pa.types.is_dictionary(col.type):
+                col = col.cast(col.type.value_type)
+            cols[name] = col.to_numpy(zero_copy_only=False)
+            del col
+            pool.release_unused()  # decoding buffers back to the system before the next column
     except (OSError, pa.ArrowException) as exc:
         raise SegmentTableError(f"{path}: not a readable Parquet file, or damaged "
                                 f"({' '.join(str(exc).split())[:200]})") from None
     from .table_metadata import parse_table_metadata
 
-    metadata = parse_table_metadata((table.schema.metadata or {}).get(METADATA_KEY), source=str(path))
+    metadata = parse_table_metadata((schema.metadata or {}).get(METADATA_KEY), source=str(path))
     if manifest is not None:
         metadata["run_id"] = manifest.run_id
-    cols = {}
-    for name in table.column_names:
-        col = table.column(name)
-        if name == "root_class" and pa.types.is_dictionary(col.type):
-            cols[name] = col.to_pandas().array  # a pandas Categorical, no Python strings per row
-            continue
-        if pa.types.is_dictionary(col.type):
-            col = col.cast(col.type.value_type)
-        cols[name] = col.to_numpy(zero_copy_only=False)
     columns = validate_columns(cols, source=str(path))
+    del cols
     connectors = int(np.count_nonzero(columns["is_connector"])) if "is_connector" in columns else 0
     _check_summary(path, len(columns["segment_id"]) - connectors, manifest)  # summaries count traced segments
     return columns, metadata
+
+
+def _read_numeric_column(parquet, name: str, n_rows: int, *, source: str) -> np.ndarray:
+    """One numeric column read row group by row group into one numpy array (no Arrow copy of the whole column)."""
+    out = None
+    start = 0
+    for group in range(parquet.num_row_groups):
+        part = parquet.read_row_group(group, columns=[name]).column(0).to_numpy(zero_copy_only=False)
+        if out is None:
+            out = np.empty(n_rows, dtype=part.dtype)
+        out[start:start + part.size] = part
+        start += part.size
+        del part
+    if start != n_rows:
+        raise SegmentTableError(f"{source}: column {name} has {start} rows, the file's metadata says {n_rows}")
+    return out
 
 
 def _check_folder(path: Path):

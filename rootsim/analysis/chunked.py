@@ -112,7 +112,7 @@ def _depths(system: Any, start: int, stop: int) -> tuple[np.ndarray, np.ndarray,
             np.asarray(system["length_cm"][start:stop], dtype=np.float64))
 
 
-def chunked_quantile_depths(system: Any, fractions, *, n_bins: int = 1024,
+def chunked_quantile_depths(system: Any, fractions, *, n_bins: int = 128,
                             chunk_segments: int | None = None) -> list[float]:
     """Exact D50/D95-style depths (cm) as :func:`rootsim.analysis.depth_distribution.quantile_depths`,
     with both of its passes done chunk by chunk (the segments reaching into the layer holding a
@@ -176,20 +176,38 @@ _PLANT_COLUMNS = ("parent_id", "root_id", "order", "plant_id", "x0", "y0", "z0",
 
 def _plant_tables(system: Any):
     """Yield ``(plant_id, columns)`` for each plant: its rows (in table order) with ``segment_id``
-    0..m-1 and ``parent_id`` renumbered to them (parents always belong to the same plant)."""
+    0..m-1 and ``parent_id`` renumbered to them (parents always belong to the same plant).
+
+    A plant whose rows are one slice of the table (a table written plant by plant) gets views of
+    the columns; otherwise its rows are gathered. A 4-byte local row number per segment is the only
+    whole-table temporary."""
+    from ..rootsystem import RootSystem
+    from .inputs import ValidatedColumns
+    from .plant_rows import plant_rows
+
     plant = int_column(system, "plant_id")
-    by_plant = np.argsort(plant, kind="stable")  # rows of each plant stay in table order
-    ids, starts = np.unique(plant[by_plant], return_index=True)
-    ends = np.append(starts[1:], plant.size)
-    for pid, a, b in zip(ids, starts, ends):
-        rows = by_plant[a:b]
-        columns = {name: np.asarray(system[name])[rows] for name in _PLANT_COLUMNS}
-        parent = columns["parent_id"]
+    groups = plant_rows(plant)
+    parent_all = int_column(system, "parent_id")
+    local = None
+    trusted = isinstance(system, (RootSystem, ValidatedColumns))
+    for pid, rows in groups:
+        columns = ValidatedColumns() if trusted else {}
+        for name in _PLANT_COLUMNS:
+            columns[name] = np.asarray(system[name])[rows]
+        parent = parent_all[rows]
         has = parent >= 0
         renumbered = np.full(parent.shape, -1, dtype=np.int64)
-        renumbered[has] = np.searchsorted(rows, parent[has])
+        if isinstance(rows, slice):
+            renumbered[has] = parent[has] - rows.start
+            size = rows.stop - rows.start
+        else:
+            if local is None:
+                local = np.empty(plant.size, dtype=np.int32 if plant.size < 2**31 else np.int64)
+            size = rows.size
+            local[rows] = np.arange(size, dtype=local.dtype)
+            renumbered[has] = local[parent[has]]
         columns["parent_id"] = renumbered
-        columns["segment_id"] = np.arange(rows.size, dtype=np.int64)
+        columns["segment_id"] = np.arange(size, dtype=np.int64)
         yield int(pid), columns
 
 
@@ -217,7 +235,7 @@ def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float |
     from ..rootsystem import tip_mask
     from .profile_model import fit_gale_grigal
     from .topology import branch_points, fitter_indices, insertion_angles_deg, interbranch_distances, root_chains
-    from .traits import _hull_points, _json_ready, horizontal_diameter, hull_volume
+    from .traits import _json_ready, plant_hull_measures
 
     if area_cm2 is not None or box is not None:
         area = profile_area(system, area_cm2=area_cm2, box=box)
@@ -269,15 +287,15 @@ def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float |
         angle_sums, angle_counts = add(angle_sums, angle_counts, insertion_angles_deg(table, branches),
                                        order[branches.first_segment])
         fitter = fitter_indices(table, chains, branches)
-        points, _ = _hull_points(table)
+        width, volume = plant_hull_measures(table, slice(None))
         n_roots += int(chains.n_roots)
         n_tips += int(tips.sum())
         plants.append({
             "plant_id": pid,
             "total_length_cm": float(table["length_cm"].sum()),
             "n_tips": int(tips.sum()),
-            "width_cm": horizontal_diameter(points[:, :2]),
-            "convex_hull_volume_cm3": hull_volume(points),
+            "width_cm": width,
+            "convex_hull_volume_cm3": volume,
             **fitter.get(pid, {}),
         })
         if on_plant is not None:

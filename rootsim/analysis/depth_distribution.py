@@ -97,7 +97,7 @@ def cumulative_depth(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray)
 
 
 def quantile_depths(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray, fractions, *,
-                    n_bins: int = 1024) -> list[float]:
+                    n_bins: int = 128) -> list[float]:
     """Exact depths above which each fraction of the root length lies, cm (NaN if there is no root length).
 
     Same result as :meth:`CumulativeDepth.quantile_depth` of :func:`cumulative_depth`, but without

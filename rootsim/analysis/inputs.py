@@ -14,7 +14,7 @@ import numpy as np
 
 from ..errors import RootsimError, SegmentTableError
 
-__all__ = ["float_column", "int_column", "system_metadata", "ground_area_from_metadata", "positive_number"]
+__all__ = ["ValidatedColumns", "float_column", "int_column", "system_metadata", "ground_area_from_metadata", "positive_number"]
 
 
 def _column(system: Any, name: str) -> np.ndarray:
@@ -25,10 +25,16 @@ def _column(system: Any, name: str) -> np.ndarray:
     return values.to_numpy() if hasattr(values, "to_numpy") else np.asarray(values)
 
 
+class ValidatedColumns(dict):
+    """Column name -> array taken from a validated :class:`rootsim.RootSystem` (e.g. one plant's rows):
+    read back as stored, without checking the values again."""
+
+
 def _validated(system: Any) -> bool:
     from ..rootsystem import RootSystem
 
-    return isinstance(system, RootSystem)  # columns were validated when it was built or read
+    # columns were validated when it was built or read
+    return isinstance(system, (RootSystem, ValidatedColumns))
 
 
 def float_column(system: Any, name: str) -> np.ndarray:

@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import SegmentTableError
+from .chain_walk import dense_rank, walk_chains
 from .inputs import float_column, int_column
 
 __all__ = ["RootChains", "root_chains", "BranchPoints", "branch_points", "fitter_indices",
@@ -74,6 +75,16 @@ def root_chains(system: Any) -> RootChains:
     parent = int_column(system, "parent_id")
     root_id = int_column(system, "root_id")
     length = float_column(system, "length_cm")
+    root_index, n_roots = dense_rank(root_id)
+    arc_start, first, root_length, ok = walk_chains(parent, root_index, length, n_roots)
+    if ok:
+        return RootChains(root_index=root_index, arc_start_cm=arc_start, first_segment=first,
+                          root_length_cm=root_length)
+    return _sorted_root_chains(parent, root_id, length)  # raises the one-line error naming the root
+
+
+def _sorted_root_chains(parent: np.ndarray, root_id: np.ndarray, length: np.ndarray) -> RootChains:
+    """:func:`root_chains` by sorting the rows by root; finds the first broken root for the error message."""
     n = len(parent)
     _, root_index = np.unique(root_id, return_inverse=True)
     root_index = root_index.reshape(-1)
@@ -126,8 +137,9 @@ class BranchPoints:
     bearing_segment: np.ndarray
 
 
-def _points(system: Any, end: str) -> np.ndarray:
-    return np.column_stack([float_column(system, f"{axis}{end}") for axis in "xyz"])
+def _points(system: Any, end: str, rows: np.ndarray) -> np.ndarray:
+    """Start (``end="0"``) or end (``"1"``) points of the segments ``rows``, shape (len(rows), 3), cm."""
+    return np.column_stack([float_column(system, f"{axis}{end}")[rows] for axis in "xyz"])
 
 
 def branch_points(system: Any, chains: RootChains | None = None) -> BranchPoints:
@@ -143,9 +155,9 @@ def branch_points(system: Any, chains: RootChains | None = None) -> BranchPoints
     lateral = np.flatnonzero(parent[first] >= 0)
     seg = first[lateral]
     bearing = parent[seg]
-    a = _points(system, "0")[bearing]
-    b = _points(system, "1")[bearing]
-    start = _points(system, "0")[seg]
+    a = _points(system, "0", bearing)
+    b = _points(system, "1", bearing)
+    start = _points(system, "0", seg)
     ab = b - a
     denom = np.einsum("ij,ij->i", ab, ab)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -182,8 +194,8 @@ def insertion_angles_deg(system: Any, branches: BranchPoints) -> np.ndarray:
 
     NaN where either segment has zero length.
     """
-    u = _points(system, "1")[branches.first_segment] - _points(system, "0")[branches.first_segment]
-    v = _points(system, "1")[branches.bearing_segment] - _points(system, "0")[branches.bearing_segment]
+    u = _points(system, "1", branches.first_segment) - _points(system, "0", branches.first_segment)
+    v = _points(system, "1", branches.bearing_segment) - _points(system, "0", branches.bearing_segment)
     norm = np.linalg.norm(u, axis=1) * np.linalg.norm(v, axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
         cos = np.where(norm > 0, np.einsum("ij,ij->i", u, v) / norm, np.nan)

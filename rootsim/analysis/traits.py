@@ -34,10 +34,11 @@ from .depth_distribution import quantile_depths
 from .profile import depth_layer_lengths
 from .inputs import float_column, ground_area_from_metadata, int_column, positive_number, system_metadata
 from .profile import profile_area
+from .plant_rows import plant_rows
 from .profile_model import fit_gale_grigal
 from .topology import branch_points, fitter_indices, insertion_angles_deg, interbranch_distances, mean_by_key, root_chains
 
-__all__ = ["root_traits", "horizontal_diameter", "hull_volume"]
+__all__ = ["root_traits", "horizontal_diameter", "hull_volume", "plant_hull_measures"]
 
 
 def horizontal_diameter(xy: np.ndarray) -> float:
@@ -77,6 +78,27 @@ def _hull_points(system: Any) -> tuple[np.ndarray, np.ndarray]:
     base = np.flatnonzero(parent < 0)
     start = np.column_stack([float_column(system, f"{a}0")[base] for a in "xyz"])
     return np.concatenate([end, start]), np.concatenate([plant, plant[base]])
+
+
+def plant_hull_measures(system: Any, rows) -> tuple[float, float]:
+    """Width (cm) and convex hull volume (cm³) of the plant whose segments are ``rows``.
+
+    The points are the end points of its segments and the start points of its roots that start at
+    the plant (as :func:`_hull_points`); only those that can lie on the hull
+    (:func:`rootsim.analysis.hull_prefilter.hull_candidates`) are passed to Qhull.
+    """
+    from .hull_prefilter import hull_candidates
+
+    parent = int_column(system, "parent_id")[rows]
+    base = np.flatnonzero(parent < 0)
+    coordinates = []
+    for axis in "xyz":
+        end = float_column(system, f"{axis}1")[rows]
+        start = float_column(system, f"{axis}0")[rows]
+        coordinates.append(np.concatenate([end, start[base]]))
+    keep = hull_candidates(*coordinates)
+    points = np.column_stack([c[keep] for c in coordinates])
+    return horizontal_diameter(points[:, :2]), hull_volume(points)
 
 
 def root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = None, box=None) -> dict:
@@ -137,21 +159,18 @@ def root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = 
     angles = insertion_angles_deg(system, branches)
     fitter = fitter_indices(system, chains, branches)
 
-    points, point_plant = _hull_points(system)
     plants = []
-    plant_ids = np.unique(plant)
-    plant_length = np.bincount(np.searchsorted(plant_ids, plant), weights=length, minlength=plant_ids.size)
-    plant_tips = np.bincount(np.searchsorted(plant_ids, plant[tips]), minlength=plant_ids.size)
-    sort = np.argsort(point_plant, kind="stable")
-    groups = np.split(points[sort], np.flatnonzero(np.diff(point_plant[sort])) + 1) if n else []
-    for i, (p, pts) in enumerate(zip(plant_ids, groups)):
+    groups = plant_rows(plant)
+    plant_ids = np.array([p for p, _ in groups], dtype=np.int64)
+    for p, rows in groups:
+        width, volume = plant_hull_measures(system, rows)
         plants.append({
-            "plant_id": int(p),
-            "total_length_cm": float(plant_length[i]),
-            "n_tips": int(plant_tips[i]),
-            "width_cm": horizontal_diameter(pts[:, :2]),
-            "convex_hull_volume_cm3": hull_volume(pts),
-            **fitter.get(int(p), {}),
+            "plant_id": p,
+            "total_length_cm": float(length[rows].sum()),
+            "n_tips": int(np.count_nonzero(tips[rows])),
+            "width_cm": width,
+            "convex_hull_volume_cm3": volume,
+            **fitter.get(p, {}),
         })
     indices = [q["topological_index"] for q in plants if q.get("topological_index") is not None]
     by_order = np.bincount(order, weights=length) if n else np.zeros(0)

@@ -338,6 +338,8 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     vertices[n_rings * n_sides + n_pieces:] = b[piece_last_edge]
     cap_start = n_rings * n_sides + np.arange(n_pieces)
     cap_end = cap_start + n_pieces
+    # the per-edge and per-ring geometry is done: free it before the faces are built
+    del a, b, tangent, length, axis, u, v, ring_center, ring_radius, ring_plane, ring_vertices, theta, inc
 
     # Faces, written in place: per edge 2 * sides side triangles, then a start and an end cap
     # (a triangle fan) per piece.
@@ -367,10 +369,15 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     edge_root = poly_root[edge_poly]
     edge_order = poly_order[edge_poly]
     piece_poly = edge_poly[pf]
-    face_root = np.concatenate([np.repeat(edge_root, 2 * n_sides), np.repeat(np.tile(poly_root[piece_poly], 2), n_sides)])
-    face_order = np.concatenate([np.repeat(edge_order, 2 * n_sides),
-                                 np.repeat(np.tile(poly_order[piece_poly], 2), n_sides)])
-    vertex_order = np.concatenate([np.repeat(edge_order[ring_edge], n_sides), np.tile(poly_order[piece_poly], 2)])
+    # filled in place (no concatenated copies): side faces per edge, then start and end caps per piece
+    face_root = np.empty(len(faces), dtype=np.int64)
+    face_order = np.empty(len(faces), dtype=np.int64)
+    for out, per_edge, per_poly in ((face_root, edge_root, poly_root), (face_order, edge_order, poly_order)):
+        out[:n_side_faces].reshape(n_edges, 2 * n_sides)[:] = per_edge[:, None]
+        out[n_side_faces:].reshape(2, n_pieces, n_sides)[:] = per_poly[piece_poly][None, :, None]
+    vertex_order = np.empty(len(vertices), dtype=np.int64)
+    vertex_order[:n_rings * n_sides].reshape(n_rings, n_sides)[:] = edge_order[ring_edge][:, None]
+    vertex_order[n_rings * n_sides:].reshape(2, n_pieces)[:] = poly_order[piece_poly][None, :]
     return TubeMesh(vertices, faces, face_root, face_order, vertex_order, n_pieces, n_edges)
 
 

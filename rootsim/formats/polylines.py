@@ -87,21 +87,25 @@ def polylines_from_segments(system, *, tolerance_cm: float = JOIN_TOLERANCE_CM) 
     parent = np.asarray(system["parent_id"], dtype=np.int64)
     n = len(root)
     names = (("x0", "x1"), ("y0", "y1"), ("z0", "z1"))
-    if n < 2 or np.all(root[1:] >= root[:-1]):
-        order = np.arange(n, dtype=np.int64)  # already grouped by root, in row order
-        starts = [np.asarray(system[a], dtype=np.float64) for a, _ in names]
-        ends = [np.asarray(system[b], dtype=np.float64) for _, b in names]
-    else:
-        order = np.argsort(root, kind="stable")  # by root, row order kept within a root
-        starts = [np.asarray(system[a], dtype=np.float64)[order] for a, _ in names]
-        ends = [np.asarray(system[b], dtype=np.float64)[order] for _, b in names]
+    grouped = n < 2 or bool(np.all(root[1:] >= root[:-1]))
+    # already grouped by root, in row order; else by root with row order kept within a root
+    order = np.arange(n, dtype=np.int64) if grouped else np.argsort(root, kind="stable")
+    # one coordinate column gathered at a time (no sorted copy of the whole table)
+    def column(name: str) -> np.ndarray:
+        values = np.asarray(system[name], dtype=np.float64)
+        return values if grouped else values[order]
+
     begins = np.ones(n, dtype=bool)
     if n > 1:
         root_s, parent_s = root[order], parent[order]
         chained = (root_s[1:] == root_s[:-1]) & (parent_s[1:] == order[:-1])
-        for s0, e0 in zip(starts, ends):
+        del root_s, parent_s
+        for a, b in names:
+            s0, e0 = column(a), column(b)
             chained &= np.abs(s0[1:] - e0[:-1]) <= tolerance_cm
+            del s0, e0
         begins[1:] = ~chained
+        del chained
     first_pos = np.flatnonzero(begins)
     segment_offsets = np.append(first_pos, n).astype(np.int64)
     n_poly = len(first_pos)
@@ -110,10 +114,10 @@ def polylines_from_segments(system, *, tolerance_cm: float = JOIN_TOLERANCE_CM) 
     end_point = np.arange(n, dtype=np.int64) + np.cumsum(begins)
     first_point = point_offsets[:-1]
     points = np.empty((n + n_poly, 3), dtype=np.float64)
-    for axis in range(3):
-        column = points[:, axis]
-        column[end_point] = ends[axis]
-        column[first_point] = starts[axis][first_pos]
+    for axis, (a, b) in enumerate(names):
+        out = points[:, axis]
+        out[end_point] = column(b)
+        out[first_point] = np.asarray(system[a], dtype=np.float64)[order[first_pos]]
     point_segment = np.empty(n + n_poly, dtype=np.int64)
     point_segment[end_point] = order
     point_segment[first_point] = order[first_pos]

@@ -73,6 +73,8 @@ DEFAULT_RADIUS_CM = 0.025
 
 _POINT = '<point x="%s" y="%s" z="%s"/>'
 _SAMPLE = '<sample value="%s"/>'
+#: Points whose numbers are turned into text at once while writing (bounds the memory of the strings).
+_BATCH_POINTS = 65_536
 
 
 # --------------------------------------------------------------------------------------------
@@ -181,14 +183,15 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
     first = lines.first_segment
     plant = np.asarray(system["plant_id"], dtype=np.int64)[first]
     root_id = np.asarray(system["root_id"], dtype=np.int64)[first]
-    labels = [_xml_text(label) for label in np.asarray(system["root_class"]).astype(str)[first].tolist()]
-    points = lines.points * resolution if resolution != 1.0 else lines.points
-    if not np.all(np.isfinite(points)):
+    classes = system["root_class"]  # only the first segments' classes (a Categorical is not expanded)
+    classes = classes.take(first) if hasattr(classes, "take") else np.asarray(classes)[first]
+    labels = [_xml_text(label) for label in np.asarray(classes).astype(str).tolist()]
+    points = lines.points
+    if not np.all(np.isfinite(points * resolution if resolution != 1.0 else points)):
         raise FormatError(f"{path}: coordinates times resolution {resolution!r} are not finite numbers")
-    coords = decimal_strings(points)
-    diameter = decimal_strings(2.0 * np.asarray(system["radius_cm"], dtype=np.float64)[lines.point_segment] * resolution)
-    birth = decimal_strings(np.asarray(system["birth_day"], dtype=np.float64)[lines.point_segment])
-    offsets = lines.point_offsets.tolist()
+    radius = np.asarray(system["radius_cm"], dtype=np.float64)
+    birth_day = np.asarray(system["birth_day"], dtype=np.float64)
+    offsets = lines.point_offsets
     # Children of each polyline, in order along the parent.
     kids = np.flatnonzero(parent_poly >= 0)
     kids = kids[np.lexsort((branch_index[kids], parent_poly[kids]))]
@@ -202,10 +205,28 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
     for p in tops.tolist():
         tops_by_plant.setdefault(int(plant[p]), []).append(p)
 
-    def root_xml(p: int, depth: int) -> str:
+    # The document as a list of events in writing order: ("open", polyline, depth), ("close", depth),
+    # or literal text. The numbers are turned into text a batch of polylines at a time, so the
+    # strings of at most about _BATCH_POINTS points exist at once.
+    events: list[tuple] = []
+    for plant_id in plant_ids:
+        events.append(("text", f'    <plant id="{plant_id}">\n'))
+        for top in tops_by_plant.get(plant_id, []):
+            stack: list[tuple[int, int, bool]] = [(top, 3, False)]
+            while stack:  # depth-first, laterals inside their parent
+                p, depth, closing = stack.pop()
+                if closing:
+                    events.append(("text", "  " * depth + "</root>\n"))
+                    continue
+                events.append(("open", p, depth))
+                stack.append((p, depth, True))
+                stack.extend((c, depth + 1, False) for c in reversed(children.get(p, [])))
+        events.append(("text", "    </plant>\n"))
+
+    def root_xml(p: int, depth: int, a: int, coords, diameter, birth) -> str:
         pad = "  " * depth
-        a, b = offsets[p], offsets[p + 1]
-        k = b - a
+        k = int(offsets[p + 1] - offsets[p])
+        b = a + k
         head = [f'{pad}<root id="{root_id[p]}" label={quoteattr(str(labels[p]))}>\n']
         if branch_index[p] >= 0:
             head.append(f'{pad}  <properties><branch-segment-index value="{branch_index[p]}"/></properties>\n')
@@ -217,25 +238,37 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
         head.append(f"{pad}  </functions>\n")
         return "".join(head)
 
+    def write_batch(fh, batch: list[tuple]) -> None:
+        opened = np.array([e[1] for e in batch if e[0] == "open"], dtype=np.int64)
+        counts = offsets[opened + 1] - offsets[opened]
+        local_start = np.r_[0, np.cumsum(counts)[:-1]] if opened.size else np.zeros(0, dtype=np.int64)
+        rows = np.arange(int(counts.sum()), dtype=np.int64) + np.repeat(offsets[opened] - local_start, counts)
+        picked = points[rows] * resolution if resolution != 1.0 else points[rows]
+        coords = decimal_strings(picked)
+        segment = lines.point_segment[rows]
+        diameter = decimal_strings(2.0 * radius[segment] * resolution)
+        birth = decimal_strings(birth_day[segment])
+        starts = iter(local_start.tolist())
+        fh.write("".join(root_xml(e[1], e[2], next(starts), coords, diameter, birth) if e[0] == "open" else e[1]
+                         for e in batch))
+
     with atomic_path(path) as tmp, open(tmp, "w", encoding="utf-8") as fh:
         fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<rsml>\n')
         fh.write(_metadata_xml(path, resolution, user))
         fh.write("  <scene>\n")
         if plant_ids:
             fh.write(_scene_properties_xml(system))
-        for plant_id in plant_ids:
-            fh.write(f'    <plant id="{plant_id}">\n')
-            for top in tops_by_plant.get(plant_id, []):
-                stack: list[tuple[int, int, bool]] = [(top, 3, False)]
-                while stack:  # depth-first, laterals inside their parent
-                    p, depth, closing = stack.pop()
-                    if closing:
-                        fh.write("  " * depth + "</root>\n")
-                        continue
-                    fh.write(root_xml(p, depth))
-                    stack.append((p, depth, True))
-                    stack.extend((c, depth + 1, False) for c in reversed(children.get(p, [])))
-            fh.write("    </plant>\n")
+        batch: list[tuple] = []
+        batch_points = 0
+        for event in events:
+            batch.append(event)
+            if event[0] == "open":
+                batch_points += int(offsets[event[1] + 1] - offsets[event[1]])
+                if batch_points >= _BATCH_POINTS:
+                    write_batch(fh, batch)
+                    batch, batch_points = [], 0
+        if batch:
+            write_batch(fh, batch)
         fh.write("  </scene>\n</rsml>\n")
     return path
 

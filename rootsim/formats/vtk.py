@@ -9,6 +9,7 @@ from __future__ import annotations
 import json
 import os
 from pathlib import Path
+from typing import Callable, NamedTuple
 
 import numpy as np
 
@@ -24,8 +25,25 @@ SUFFIXES = (".vtp",)
 TUBE_RADIUS_FLOOR_CM = 1e-4
 
 
-def polyline_arrays(system) -> dict:
+class Deferred(NamedTuple):
+    """A point array computed only when it is written: its dtype, its length and a function making it."""
+
+    dtype: np.dtype
+    length: int
+    make: Callable[[], np.ndarray]
+
+
+def polyline_arrays(system, *, deferred: bool = False, point_arrays=None) -> dict:
     """The arrays of :func:`polydata_from_segments` as plain numpy arrays.
+
+    Parameters
+    ----------
+    system : RootSystem
+    deferred : bool
+        Give the point data as :class:`Deferred` arrays, made one at a time by the writer
+        (so that only one of them exists at once).
+    point_arrays : iterable of str, optional
+        Names of the point arrays to make (default all); e.g. a renderer needs only a few.
 
     Returns
     -------
@@ -42,10 +60,10 @@ def polyline_arrays(system) -> dict:
     seg = lines.point_segment
     first = lines.first_segment
     counts = np.diff(lines.point_offsets)
-    codes, names = root_class_codes({"root_class": np.asarray(system["root_class"])[first]})
+    classes = system["root_class"]  # only the first segments' classes (a Categorical is not expanded)
+    classes = classes.take(first) if hasattr(classes, "take") else np.asarray(classes)[first]
+    codes, names = root_class_codes({"root_class": np.asarray(classes)})
     duration = run_duration_days(system)
-    radius = np.asarray(system["radius_cm"], dtype=np.float64)[seg]
-    birth = np.asarray(system["birth_day"], dtype=np.float64)[seg]
     # Root attributes: one value per polyline (its first segment's), repeated over its points.
     per_root = {
         "order": np.asarray(system["order"])[first].astype(np.int32),
@@ -53,17 +71,34 @@ def polyline_arrays(system) -> dict:
         "plant_id": np.asarray(system["plant_id"])[first].astype(np.int32),
         "root_id": np.asarray(system["root_id"])[first].astype(np.int64),
     }
-    point_data = {"radius_cm": radius, "tube_radius_cm": np.maximum(radius, TUBE_RADIUS_FLOOR_CM)}
-    point_data.update({name: np.repeat(values, counts) for name, values in per_root.items()})
-    point_data["segment_id"] = np.asarray(system["segment_id"], dtype=np.int64)[seg]
-    point_data["birth_day"] = birth
-    point_data["age_days"] = duration - birth
+
+    def gathered(name: str, dtype):
+        return lambda: np.asarray(system[name], dtype=dtype)[seg]
+
+    def repeated(values):
+        return lambda: np.repeat(values, counts)
+
+    makers = {
+        "radius_cm": (np.float64, gathered("radius_cm", np.float64)),
+        "tube_radius_cm": (np.float64, lambda: np.maximum(gathered("radius_cm", np.float64)(), TUBE_RADIUS_FLOOR_CM)),
+    }
+    makers.update({name: (values.dtype, repeated(values)) for name, values in per_root.items()})
+    makers["segment_id"] = (np.int64, gathered("segment_id", np.int64))
+    makers["birth_day"] = (np.float64, gathered("birth_day", np.float64))
+    makers["age_days"] = (np.float64, lambda: duration - gathered("birth_day", np.float64)())
     try:
         connector = system["is_connector"]
     except (KeyError, IndexError, TypeError):
         connector = None
     if connector is not None:
-        point_data["is_connector"] = np.asarray(connector, dtype=np.uint8)[seg]
+        makers["is_connector"] = (np.uint8, gathered("is_connector", np.uint8))
+    if point_arrays is not None:
+        wanted = set(point_arrays)
+        makers = {name: maker for name, maker in makers.items() if name in wanted}
+    if deferred:
+        point_data = {name: Deferred(np.dtype(dtype), len(seg), make) for name, (dtype, make) in makers.items()}
+    else:
+        point_data = {name: make() for name, (_, make) in makers.items()}
     meta = getattr(system, "metadata", None) or {}
     return {
         "points": lines.points, "offsets": lines.point_offsets, "point_data": point_data, "cell_data": per_root,
@@ -81,7 +116,7 @@ def _string_array(name: str, values):
     return array
 
 
-def polydata_from_segments(system):
+def polydata_from_segments(system, *, point_arrays=None):
     """Root system as a :class:`pyvista.PolyData` with one polyline per root and shared points.
 
     A root's consecutive segments share their end points; a lateral's polyline starts at its
@@ -92,6 +127,8 @@ def polydata_from_segments(system):
     system : RootSystem
         Segment table with metadata (``run.duration_days`` is used for ages if present,
         otherwise the latest ``birth_day``).
+    point_arrays : iterable of str, optional
+        Only these point arrays (default all of those listed below).
 
     Returns
     -------
@@ -107,7 +144,7 @@ def polydata_from_segments(system):
     """
     import pyvista as pv
 
-    arrays = polyline_arrays(system)
+    arrays = polyline_arrays(system, point_arrays=point_arrays)
     points = arrays["points"]
     if len(points):
         cells = pv.CellArray.from_arrays(arrays["offsets"], np.arange(len(points), dtype=np.int64), deep=True)
@@ -116,7 +153,8 @@ def polydata_from_segments(system):
             poly.point_data[name] = values
         for name, values in arrays["cell_data"].items():
             poly.cell_data[name] = values
-        poly.set_active_scalars("tube_radius_cm", preference="point")
+        if "tube_radius_cm" in arrays["point_data"]:
+            poly.set_active_scalars("tube_radius_cm", preference="point")
     else:
         poly = pv.PolyData()
     field = poly.GetFieldData()
@@ -146,16 +184,21 @@ def _write_vtp_numpy(arrays: dict, path: Path) -> Path:
     blocks: list = []
     position = 0
 
+    def size(block) -> int:
+        if isinstance(block, Deferred):
+            return block.length * block.dtype.itemsize
+        return block.nbytes if isinstance(block, np.ndarray) else len(block)
+
     def add(values) -> int:
         nonlocal position
         start = position
-        nbytes = values.nbytes if isinstance(values, np.ndarray) else len(values)
         blocks.append(values)
-        position += 8 + nbytes
+        position += 8 + size(values)
         return start
 
     def data_array(name, values, components=1):
-        values = np.ascontiguousarray(values, dtype=values.dtype.newbyteorder("<"))
+        if not isinstance(values, Deferred):
+            values = np.ascontiguousarray(values, dtype=values.dtype.newbyteorder("<"))
         kind = _VTK_TYPES[values.dtype]
         comp = f' NumberOfComponents="{components}"' if components != 1 else ""
         return (f'<DataArray type="{kind}" Name={quoteattr(name)}{comp} format="appended" '
@@ -174,7 +217,7 @@ def _write_vtp_numpy(arrays: dict, path: Path) -> Path:
     else:
         point, cell = [], []
     pts = data_array("Points", arrays["points"].reshape(-1, 3), components=3)
-    conn = data_array("connectivity", np.arange(n_points, dtype=np.int64))
+    conn = data_array("connectivity", Deferred(np.dtype(np.int64), n_points, lambda: np.arange(n_points, dtype=np.int64)))
     ends = data_array("offsets", np.asarray(offsets[1:], dtype=np.int64))
     nl = "\n        "
     scalars = ' Scalars="tube_radius_cm"' if n_points else ""
@@ -195,9 +238,15 @@ def _write_vtp_numpy(arrays: dict, path: Path) -> Path:
     with atomic_path(path) as tmp, open(tmp, "wb") as fh:
         fh.write(header.encode("utf-8"))
         for block in blocks:
-            nbytes = block.nbytes if isinstance(block, np.ndarray) else len(block)
+            nbytes = size(block)
             fh.write(np.uint64(nbytes).tobytes())
-            if isinstance(block, np.ndarray):
+            if isinstance(block, Deferred):  # made now, written, freed before the next one
+                values = np.ascontiguousarray(block.make(), dtype=block.dtype.newbyteorder("<"))
+                if values.nbytes != nbytes:  # pragma: no cover - a maker disagreeing with its declared size
+                    raise FormatError(f"{path}: internal error: array of {values.nbytes} bytes, declared {nbytes}")
+                values.tofile(fh)
+                del values
+            elif isinstance(block, np.ndarray):
                 block.tofile(fh)
             else:
                 fh.write(block)
@@ -247,7 +296,7 @@ def write_vtp(system, path: str | os.PathLike, *, compression: str | None = None
     """
     path = Path(path)
     if compression in (None, "none"):
-        return _write_vtp_numpy(polyline_arrays(system), path)
+        return _write_vtp_numpy(polyline_arrays(system, deferred=True), path)
     return _write_xml(polydata_from_segments(system), path, writer_class="vtkXMLPolyDataWriter",
                       compression=compression)
 
