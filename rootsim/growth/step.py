@@ -1,0 +1,492 @@
+"""The compiled growth of one plant: every time step of a run in one call (numba ``njit``).
+
+One call of :func:`grow_plant` grows a plant from sowing to the end of the run with the plant's own
+:class:`numpy.random.Generator`: emergence events, elongation under soil impedance, headings (exact
+tropism maps and the exact Brownian step, :mod:`rootsim.growth.tropisms`), soil look-ups
+(:mod:`rootsim.growth.soil`), branch points, lateral activation, per-root parameter draws
+(:mod:`rootsim.growth.draws`) and the segment columns. A plant's roots depend on the spec, the seed and
+the plant's index alone.
+
+Stores and their limits (each a hard bound on memory; see :mod:`rootsim.growth.engine`):
+
+* segments: column chunks (rows ``SEGMENT_FLOAT_FIELDS`` and ``SEGMENT_INT_FIELDS``), at most
+  ``segment_limit`` rows; a new chunk holds a quarter of the rows so far, so at most 25 % is spare;
+* roots (one row per root, with its growing tip while it grows): at most ``root_limit``;
+* pending branch points (waiting for the parent's apical zone to pass): at most ``pending_limit``.
+
+Capacities double up to their limit; a run that would pass one stops with a status naming the store.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+from numba.typed import List
+
+from .classes import PARAM_NAMES
+from .draws import FIXED, draw_parameter
+from .soil import clamp, constrain, contains, deflect, elongation_factor
+from .tropisms import (
+    JIT,
+    brownian_turn,
+    combined_sine_law_scalar,
+    heading_from_angles_scalar,
+    lateral_heading_scalar,
+    sine_law_turn,
+    toward_direction_turn,
+)
+
+__all__ = ["grow_plant", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
+
+SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
+SEGMENT_INT_FIELDS = ("parent_local", "root_local")
+STATUS_OK, STATUS_SEGMENTS, STATUS_ROOTS, STATUS_PENDING = 0, 1, 2, 3
+
+# Per-root parameter columns.
+P_RADIUS = PARAM_NAMES.index("radius_cm")
+P_INITIAL = PARAM_NAMES.index("initial_angle_from_vertical_deg")
+P_INSERTION = PARAM_NAMES.index("insertion_angle_deg")
+P_RATE = PARAM_NAMES.index("elongation_rate_cm_per_day")
+P_MAXLEN = PARAM_NAMES.index("max_length_cm")
+P_BASAL = PARAM_NAMES.index("basal_zone_cm")
+P_APICAL = PARAM_NAMES.index("apical_zone_cm")
+P_INTERBRANCH = PARAM_NAMES.index("interbranch_distance_cm")
+P_GRAVI = PARAM_NAMES.index("gravitropism_per_cm")
+P_PLAGIO = PARAM_NAMES.index("plagiotropism_per_cm")
+P_PREFERRED = PARAM_NAMES.index("preferred_angle_from_vertical_deg")
+P_EXO = PARAM_NAMES.index("exotropism_per_cm")
+P_TURNING = PARAM_NAMES.index("random_turning_deg_per_sqrt_cm")
+P_LIFESPAN = PARAM_NAMES.index("lifespan_days")
+N_PARAMS = len(PARAM_NAMES)
+
+# Growing tips: float fields.
+(T_X, T_Y, T_Z, T_HX, T_HY, T_HZ, T_H0X, T_H0Y, T_H0Z, T_LEN, T_MAXLEN, T_RATE, T_TROP, T_COSPHI, T_SINPHI,
+ T_EXO, T_SIGMA, T_APICAL, T_NEXT, T_CARRY, T_HALF) = range(21)
+TIP_NF = 21
+# Growing tips: int fields.
+T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER = range(5)
+TIP_NI = 5
+# Roots: float fields (length now and one step ago, the last step's time and rate, ...).
+R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
+ROOT_NF = 7
+ROOT_FLOAT_FIELDS = ("length_cm", "length_previous_cm", "last_step_days", "last_rate_cm_per_day", "max_length_cm",
+                     "death_day", "radius_cm")
+# Roots: int fields.
+R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD = range(5)
+ROOT_NI = 5
+ROOT_INT_FIELDS = ("class_code", "order", "parent_root", "growing", "dead")
+# Pending branch points.
+Q_X, Q_Y, Q_Z, Q_DX, Q_DY, Q_DZ, Q_THRESHOLD, Q_AZIMUTH_U = range(8)
+PEND_NF = 8
+Q_SEGMENT, Q_ROOT, Q_CLASS, Q_ORDER, Q_COUNT, Q_PARENT_CLASS = range(6)
+PEND_NI = 6
+
+#: Bytes each store uses per item at full capacity (8-byte fields), for the memory bound.
+BYTES_PER_ITEM = {
+    "segments": 8 * (len(SEGMENT_FLOAT_FIELDS) + len(SEGMENT_INT_FIELDS)),
+    "roots": 8 * (ROOT_NF + ROOT_NI + TIP_NF + TIP_NI),
+    "pending branch points": 8 * (PEND_NF + PEND_NI),
+}
+
+_FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
+_MIN_STEP_CM = 1e-9
+_FIRST_CHUNK = 4096
+
+
+@njit(**JIT)
+def _room(arr, n, limit):
+    """``arr`` (rows = items) with room for item ``n`` (< limit): capacity doubled, at most ``limit``."""
+    if n < arr.shape[0]:
+        return arr
+    new = np.empty((min(max(2 * arr.shape[0], 16), limit), arr.shape[1]), dtype=arr.dtype)
+    new[:n] = arr[:n]
+    return new
+
+
+@njit(**JIT)
+def _draw_root_parameters(rng, kind, values, cls, out):
+    """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
+    for p in range(N_PARAMS):
+        u = rng.random() if kind[cls, p] != FIXED else 0.0
+        out[p] = draw_parameter(kind[cls, p], values[cls, p], u)
+
+
+@njit(**JIT)
+def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
+              params, birth, carry):
+    """Write root ``r`` and its growing tip (row ``j`` of the tip store)."""
+    rootf[r, R_LEN] = 0.0
+    rootf[r, R_PREV] = 0.0
+    rootf[r, R_DT] = 0.0
+    rootf[r, R_RATE] = 0.0
+    rootf[r, R_MAXLEN] = params[P_MAXLEN]
+    rootf[r, R_DEATH] = birth + params[P_LIFESPAN]
+    rootf[r, R_RADIUS] = params[P_RADIUS]
+    rooti[r, R_CLASS] = cls
+    rooti[r, R_ORDER] = order
+    rooti[r, R_PARENT] = parent_root
+    rooti[r, R_GROWING] = 1
+    rooti[r, R_DEAD] = 0
+    tipf[j, T_X] = x
+    tipf[j, T_Y] = y
+    tipf[j, T_Z] = z
+    tipf[j, T_HX] = hx
+    tipf[j, T_HY] = hy
+    tipf[j, T_HZ] = hz
+    tipf[j, T_H0X] = hx
+    tipf[j, T_H0Y] = hy
+    tipf[j, T_H0Z] = hz
+    tipf[j, T_LEN] = 0.0
+    tipf[j, T_MAXLEN] = params[P_MAXLEN]
+    tipf[j, T_RATE] = params[P_RATE]
+    strength, cos_phi, sin_phi = combined_sine_law_scalar(params[P_GRAVI], params[P_PLAGIO],
+                                                          math.radians(params[P_PREFERRED]))
+    tipf[j, T_TROP] = strength
+    tipf[j, T_COSPHI] = cos_phi
+    tipf[j, T_SINPHI] = sin_phi
+    tipf[j, T_EXO] = params[P_EXO]
+    tipf[j, T_SIGMA] = math.radians(params[P_TURNING])
+    tipf[j, T_APICAL] = params[P_APICAL]
+    tipf[j, T_NEXT] = params[P_BASAL]
+    tipf[j, T_CARRY] = carry
+    tipf[j, T_HALF] = 0.0
+    tipi[j, T_ROOT] = r
+    tipi[j, T_CLASS] = cls
+    tipi[j, T_LAST] = parent_segment
+    tipi[j, T_COUNT] = 0
+    tipi[j, T_ORDER] = order
+
+
+@njit(**JIT)
+def _tropic_half_turn(tipf, j, hx, hy, hz, half_arc):
+    """Half of a step's tropic turn: the combined vertical sine law, then exotropism."""
+    if tipf[j, T_TROP] > 0:
+        hx, hy, hz = sine_law_turn(hx, hy, hz, half_arc, tipf[j, T_TROP], tipf[j, T_COSPHI], tipf[j, T_SINPHI])
+    if tipf[j, T_EXO] > 0:
+        hx, hy, hz = toward_direction_turn(hx, hy, hz, tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z], half_arc,
+                                           tipf[j, T_EXO])
+    return hx, hy, hz
+
+
+@njit(**JIT)
+def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
+    """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
+    its elongation law (exact for both laws when nothing slowed the step down), else by proportion."""
+    prev = rootf[pr, R_PREV]
+    new = rootf[pr, R_LEN]
+    grew = new - prev
+    if not grew > 0:
+        return 0.0
+    last_dt = rootf[pr, R_DT]
+    rate = rootf[pr, R_RATE]
+    max_len = rootf[pr, R_MAXLEN]
+    if law_negexp_parent:
+        ratio = (max_len - threshold) / (max_len - new)
+        after = max_len / rate * math.log(ratio) if ratio > 0 else math.nan
+    else:
+        after = (new - threshold) / rate
+    if not (math.isfinite(after) and rate > 0):
+        after = min(max((new - threshold) / grew, 0.0), 1.0) * last_dt
+    return min(max(after, 0.0), last_dt)
+
+
+@njit(**JIT)
+def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
+               kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
+               soil_bottoms, soil_factor, soil_tops, soil_sin_max, box, log_x_table, ratio_table,
+               duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit):
+    """Grow one plant over the whole run.
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        The plant's own stream (advanced in place).
+    seed_x, seed_y, seed_z : float
+        Seed position, cm.
+    event_day, event_class, event_count, event_depth, event_jitter_rad : ndarray, shape (n_events,)
+        Emergence events sorted by day: day, root class, roots per event, depth (cm), azimuth jitter.
+    kind, values : ndarray
+        Parameter tables (:func:`rootsim.growth.draws.parameter_tables`).
+    law_negexp, spiral, spiral_divergence_rad : ndarray, shape (n_classes,)
+    branch_cumulative, branch_class : ndarray, shape (n_classes, k)
+        Cumulative branch probabilities (2 beyond the last) and the child class of each (-1 none).
+    soil_bottoms, soil_factor, soil_tops, soil_sin_max, box
+        Soil and container (:func:`rootsim.growth.soil.soil_arrays`, :func:`~rootsim.growth.soil.container_box`).
+    log_x_table, ratio_table : ndarray
+        The Brownian step's variance table (:func:`rootsim.growth.tropisms.tangent_variance_table`).
+    duration, step_days : float
+    n_steps : int
+    has_lifespan : bool
+    segment_limit, root_limit, pending_limit : int
+        Most segments, roots and pending branch points this plant may hold.
+
+    Returns
+    -------
+    float_chunks, int_chunks : list of ndarray, shapes (8, size) and (2, size)
+        Segment columns in chunks (all full except the last): see ``SEGMENT_*_FIELDS``.
+    n_segments : int
+    root_float, root_int : ndarray, shapes (n_roots, ROOT_NF), (n_roots, ROOT_NI)
+    dead_at_end : ndarray of bool, shape (n_roots,)
+        Roots past their lifespan at the end of the run, or descended from such a root.
+    status, status_count : int
+        STATUS_OK, or the store that would pass its limit and the count it had reached.
+    status_day : float
+        Day the growth stopped at.
+    """
+    float_chunks = List()
+    int_chunks = List()
+    fchunk = np.empty((8, _FIRST_CHUNK))
+    ichunk = np.empty((2, _FIRST_CHUNK), dtype=np.int64)
+    float_chunks.append(fchunk)
+    int_chunks.append(ichunk)
+    chunk_used = 0
+    n_seg = 0
+
+    tipf = np.empty((16, TIP_NF))
+    tipi = np.empty((16, TIP_NI), dtype=np.int64)
+    rootf = np.empty((16, ROOT_NF))
+    rooti = np.empty((16, ROOT_NI), dtype=np.int64)
+    pendf = np.empty((16, PEND_NF))
+    pendi = np.empty((16, PEND_NI), dtype=np.int64)
+    n_tips = 0
+    n_roots = 0
+    n_pend = 0
+    params = np.empty(N_PARAMS)
+    fallback = np.empty(3)
+    n_events = event_day.size
+    n_branch_options = branch_class.shape[1]
+    ev = 0
+    status = STATUS_OK
+    status_count = 0
+    status_day = 0.0
+    k = 0
+    while True:
+        if k < n_steps:
+            t0 = k * step_days
+            t1 = min((k + 1) * step_days, duration)
+        else:
+            # Laterals that emerged during the last step still have the rest of that step to grow.
+            if k >= n_steps + 64:
+                break
+            carrying = False
+            for j in range(n_tips):
+                if tipf[j, T_CARRY] > 0:
+                    carrying = True
+                    break
+            if not carrying:
+                break
+            t0 = duration
+            t1 = duration
+        k += 1
+
+        # -- emergence -------------------------------------------------------------------------------
+        while ev < n_events and event_day[ev] < t1:
+            cls = event_class[ev]
+            count = event_count[ev]
+            whorl_turn = 2 * math.pi * rng.random()
+            for slot in range(count):
+                if n_roots >= root_limit:
+                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
+                            np.zeros(n_roots, dtype=np.bool_), STATUS_ROOTS, n_roots, t0)
+                jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
+                azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
+                _draw_root_parameters(rng, kind, values, cls, params)
+                hx, hy, hz = heading_from_angles_scalar(math.radians(params[P_INITIAL]), azimuth)
+                x, y, z = clamp(box, seed_x, seed_y, -event_depth[ev])
+                rootf = _room(rootf, n_roots, root_limit)
+                rooti = _room(rooti, n_roots, root_limit)
+                tipf = _room(tipf, n_tips, root_limit)
+                tipi = _room(tipi, n_tips, root_limit)
+                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, 0, -1, -1, x, y, z, hx, hy, hz, params,
+                          event_day[ev], -(event_day[ev] - t0))
+                n_roots += 1
+                n_tips += 1
+            ev += 1
+        if n_tips == 0 and n_pend == 0:
+            continue
+
+        # -- roots past their lifespan (with their laterals) -------------------------------------------
+        if has_lifespan:
+            for r in range(n_roots):
+                if rooti[r, R_DEAD] == 0:
+                    parent = rooti[r, R_PARENT]
+                    if rootf[r, R_DEATH] <= t1 + 1e-12 or (parent >= 0 and rooti[parent, R_DEAD] != 0):
+                        rooti[r, R_DEAD] = 1
+
+        # -- every growing tip ---------------------------------------------------------------------------
+        kept = 0
+        for j in range(n_tips):
+            dt = (t1 - t0) + tipf[j, T_CARRY]
+            tipf[j, T_CARRY] = 0.0
+            sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
+            length = tipf[j, T_LEN]
+            max_len = tipf[j, T_MAXLEN]
+            cls = tipi[j, T_CLASS]
+            rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
+            if law_negexp[cls]:
+                grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
+            else:
+                grown = min(length + rate * dt, max_len)
+            ds = max(grown - length, 0.0)
+            # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
+            # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
+            # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
+            arc = tipf[j, T_HALF] + 0.5 * ds
+            hx, hy, hz = _tropic_half_turn(tipf, j, tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc)
+            sigma = tipf[j, T_SIGMA]
+            drawn = False
+            if sigma > 0:
+                fallback[0] = rng.standard_normal()
+                fallback[1] = rng.standard_normal()
+                fallback[2] = rng.standard_normal()
+                drawn = True
+                hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
+                                           log_x_table, ratio_table)
+            hx, hy, hz = _tropic_half_turn(tipf, j, hx, hy, hz, 0.5 * arc)
+            hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+            if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
+                ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
+            else:
+                if not drawn:
+                    fallback[0] = rng.standard_normal()
+                    fallback[1] = rng.standard_normal()
+                    fallback[2] = rng.standard_normal()
+                ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
+            seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
+            seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
+            new_length = length
+            root = tipi[j, T_ROOT]
+            if ds > _MIN_STEP_CM and seg_len > 0:
+                if n_seg >= segment_limit:
+                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
+                            np.zeros(n_roots, dtype=np.bool_), STATUS_SEGMENTS, n_seg, t0)
+                if chunk_used == fchunk.shape[1]:
+                    size = max(_FIRST_CHUNK, n_seg // 4)
+                    fchunk = np.empty((8, size))
+                    ichunk = np.empty((2, size), dtype=np.int64)
+                    float_chunks.append(fchunk)
+                    int_chunks.append(ichunk)
+                    chunk_used = 0
+                c = chunk_used
+                fchunk[0, c] = sx
+                fchunk[1, c] = sy
+                fchunk[2, c] = sz
+                fchunk[3, c] = ex
+                fchunk[4, c] = ey
+                fchunk[5, c] = ez
+                fchunk[6, c] = seg_len
+                fchunk[7, c] = t1 - 0.5 * dt
+                ichunk[0, c] = tipi[j, T_LAST]
+                ichunk[1, c] = root
+                seg_id = n_seg
+                chunk_used += 1
+                n_seg += 1
+                new_length = length + seg_len
+                # Branch points passed by the new segment (one round per branch point).
+                apical = tipf[j, T_APICAL]
+                nxt = tipf[j, T_NEXT]
+                while nxt <= new_length and nxt + apical <= max_len:
+                    u_pick = rng.random()
+                    pick = 0
+                    while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
+                        pick += 1
+                    child = branch_class[cls, pick] if pick < n_branch_options else -1
+                    if child >= 0:
+                        if n_pend >= pending_limit:
+                            return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(),
+                                    rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), STATUS_PENDING,
+                                    n_pend, t0)
+                        pendf = _room(pendf, n_pend, pending_limit)
+                        pendi = _room(pendi, n_pend, pending_limit)
+                        frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
+                        pendf[n_pend, Q_X] = sx + frac * seg_x
+                        pendf[n_pend, Q_Y] = sy + frac * seg_y
+                        pendf[n_pend, Q_Z] = sz + frac * seg_z
+                        pendf[n_pend, Q_DX] = seg_x / seg_len
+                        pendf[n_pend, Q_DY] = seg_y / seg_len
+                        pendf[n_pend, Q_DZ] = seg_z / seg_len
+                        pendf[n_pend, Q_THRESHOLD] = nxt + apical
+                        pendf[n_pend, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
+                        pendi[n_pend, Q_SEGMENT] = seg_id
+                        pendi[n_pend, Q_ROOT] = root
+                        pendi[n_pend, Q_CLASS] = child
+                        pendi[n_pend, Q_ORDER] = tipi[j, T_ORDER] + 1
+                        pendi[n_pend, Q_COUNT] = tipi[j, T_COUNT]
+                        pendi[n_pend, Q_PARENT_CLASS] = cls
+                        n_pend += 1
+                    tipi[j, T_COUNT] += 1
+                    u_spacing = rng.random() if kind[cls, P_INTERBRANCH] != FIXED else 0.0
+                    nxt += draw_parameter(kind[cls, P_INTERBRANCH], values[cls, P_INTERBRANCH], u_spacing)
+                tipf[j, T_NEXT] = nxt
+                # Commit the tip.
+                tipi[j, T_LAST] = seg_id
+                tipf[j, T_X] = ex
+                tipf[j, T_Y] = ey
+                tipf[j, T_Z] = ez
+                tipf[j, T_HX] = hx
+                tipf[j, T_HY] = hy
+                tipf[j, T_HZ] = hz
+                tipf[j, T_HALF] = 0.5 * seg_len
+                tipf[j, T_LEN] = new_length
+            rootf[root, R_PREV] = rootf[root, R_LEN]
+            rootf[root, R_LEN] = new_length
+            rootf[root, R_DT] = dt
+            rootf[root, R_RATE] = rate
+            finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) or tipf[j, T_RATE] <= 0
+            if has_lifespan and rooti[root, R_DEAD] != 0:
+                finished = True
+            if finished:
+                rooti[root, R_GROWING] = 0
+            else:
+                if kept != j:
+                    tipf[kept] = tipf[j]
+                    tipi[kept] = tipi[j]
+                kept += 1
+        n_tips = kept
+
+        # -- branch points whose parent's apical zone has passed become laterals ------------------------
+        kept = 0
+        for q in range(n_pend):
+            pr = pendi[q, Q_ROOT]
+            threshold = pendf[q, Q_THRESHOLD]
+            ready = rootf[pr, R_LEN] >= threshold and not (has_lifespan and rooti[pr, R_DEAD] != 0)
+            if ready:
+                if n_roots >= root_limit:
+                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
+                            np.zeros(n_roots, dtype=np.bool_), STATUS_ROOTS, n_roots, t0)
+                parent_cls = pendi[q, Q_PARENT_CLASS]
+                carry = _time_since_threshold(rootf, law_negexp[rooti[pr, R_CLASS]], pr, threshold)
+                cls = pendi[q, Q_CLASS]
+                _draw_root_parameters(rng, kind, values, cls, params)
+                if spiral[parent_cls]:
+                    azimuth = pendi[q, Q_COUNT] * spiral_divergence_rad[parent_cls]
+                else:
+                    azimuth = 2 * math.pi * pendf[q, Q_AZIMUTH_U]
+                hx, hy, hz = lateral_heading_scalar(pendf[q, Q_DX], pendf[q, Q_DY], pendf[q, Q_DZ],
+                                                    math.radians(params[P_INSERTION]), azimuth)
+                rootf = _room(rootf, n_roots, root_limit)
+                rooti = _room(rooti, n_roots, root_limit)
+                tipf = _room(tipf, n_tips, root_limit)
+                tipi = _room(tipi, n_tips, root_limit)
+                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, pendi[q, Q_ORDER], pr, pendi[q, Q_SEGMENT],
+                          pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params, t1 - carry, carry)
+                n_roots += 1
+                n_tips += 1
+            elif rooti[pr, R_GROWING] != 0:  # still waiting
+                if kept != q:
+                    pendf[kept] = pendf[q]
+                    pendi[kept] = pendi[q]
+                kept += 1
+            # else: the parent stopped short of the threshold; the branch point never carries a lateral
+        n_pend = kept
+
+    dead_at_end = np.zeros(n_roots, dtype=np.bool_)
+    if has_lifespan:
+        for r in range(n_roots):
+            parent = rooti[r, R_PARENT]
+            dead_at_end[r] = rootf[r, R_DEATH] <= duration + 1e-12 or (parent >= 0 and dead_at_end[parent])
+    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(), dead_at_end,
+            STATUS_OK, 0, duration)
