@@ -16,7 +16,7 @@ from scipy.special import ndtr
 
 from ..distributions import Fixed, Normal, Uniform
 from ..spec import PARAMETER_RANGES
-from .tropisms import JIT
+from .tropisms import JIT, JIT_INLINE
 
 __all__ = ["FIXED", "NORMAL", "UNIFORM", "parameter_tables", "draw_parameter", "normal_quantile"]
 
@@ -78,7 +78,7 @@ def normal_quantile(p):
     """
     q = p if p < 0.5 else 1.0 - p
     t = math.sqrt(-2.0 * math.log(q))
-    x = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (1.0 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t)
+    x = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (1.0 + t * (1.432788 + t * (0.189269 + 0.001308 * t)))
     x = -x  # quantile of q < 0.5
     for _ in range(3):
         err = 0.5 * math.erfc(-x / _SQRT2) - q
@@ -87,14 +87,17 @@ def normal_quantile(p):
     return x if p < 0.5 else -x
 
 
-@njit(**JIT)
-def draw_parameter(kind, values, uniform):
-    """One value of a parameter with table row ``kind``, ``values`` (6,) from one U(0, 1) number."""
-    if kind == FIXED:
-        return values[0]
-    if kind == NORMAL:
-        p = min(max(values[2] + uniform * (values[3] - values[2]), 1e-300), 1 - 1e-16)
-        v = values[0] + values[1] * normal_quantile(p)
+@njit(**JIT_INLINE)
+def draw_parameter(kind, values, cls, param, uniform):
+    """Value of parameter ``param`` for a root of class ``cls`` from one U(0, 1) number (tables of
+    :func:`parameter_tables`)."""
+    k = kind[cls, param]
+    if k == FIXED:
+        return values[cls, param, 0]
+    if k == NORMAL:
+        p = min(max(values[cls, param, 2] + uniform * (values[cls, param, 3] - values[cls, param, 2]), 1e-300),
+                1 - 1e-16)
+        v = values[cls, param, 0] + values[cls, param, 1] * normal_quantile(p)
     else:
-        v = values[0] + uniform * (values[1] - values[0])
-    return min(max(v, values[4]), values[5])
+        v = values[cls, param, 0] + uniform * (values[cls, param, 1] - values[cls, param, 0])
+    return min(max(v, values[cls, param, 4]), values[cls, param, 5])

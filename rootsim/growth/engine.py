@@ -107,9 +107,10 @@ class _PlantResult:
     """One plant's segment chunks and root table, released chunk by chunk while the table is assembled."""
 
     def __init__(self, out):
-        float_chunks, int_chunks, self.n_segments, root_float, root_int, self.dead_at_end = out[:6]
+        float_chunks, int_chunks, chunk_counts, self.n_segments, root_float, root_int, self.dead_at_end = out[:7]
         self.float_chunks = list(float_chunks)
         self.int_chunks = list(int_chunks)
+        self.chunk_counts = list(chunk_counts)
         del float_chunks, int_chunks
         self.radius = root_float[:, R_RADIUS].copy()
         self.order = root_int[:, R_ORDER].copy()
@@ -129,16 +130,14 @@ def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, n
     offset = 0
     root_offset = 0
     for k, p in enumerate(plants):
-        left = p.n_segments
-        while left > 0:
+        segment_offset = offset  # id of the plant's first segment
+        for m in p.chunk_counts:
             fchunk = p.float_chunks.pop(0)
             ichunk = p.int_chunks.pop(0)
-            m = min(left, fchunk.shape[1])
             part = slice(offset, offset + m)
             floats[:8, part] = fchunk[:, :m]
             local_root = ichunk[1, :m]
             local_parent = ichunk[0, :m]
-            segment_offset = offset - (p.n_segments - left)  # first segment id of this plant
             parent[part] = np.where(local_parent >= 0, local_parent + segment_offset, -1)
             root[part] = local_root + root_offset
             plant_id[part] = k
@@ -147,7 +146,6 @@ def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, n
             floats[8, part] = p.radius[local_root]
             del fchunk, ichunk, local_root, local_parent
             offset += m
-            left -= m
         p.float_chunks = p.int_chunks = None
         root_offset += p.n_roots
     names = np.asarray(class_names, dtype=object)
@@ -233,9 +231,10 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             x, y, z = positions[k]
             out = grow_plant(rng, x, y, z, *events, *tables, *soil, box, log_x, ratio, duration, dt, n_steps,
                              classes.has_lifespan, budget - n_segments, budget - n_roots, budget)
-            status, count, day = out[6:]
+            status, count, day = out[7:]
             if status != STATUS_OK:
-                reached = count + (n_segments if status == STATUS_SEGMENTS else n_roots if status == STATUS_ROOTS else 0)
+                before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants
+                reached = count + before
                 raise SegmentBudgetError(budget, reached, day, store=_STORE_NAMES[status], plant=k)
             plant = _PlantResult(out)
             del out

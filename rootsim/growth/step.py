@@ -30,6 +30,7 @@ from .draws import FIXED, draw_parameter
 from .soil import clamp, constrain, contains, deflect, elongation_factor
 from .tropisms import (
     JIT,
+    JIT_INLINE,
     brownian_turn,
     combined_sine_law_scalar,
     heading_from_angles_scalar,
@@ -75,14 +76,15 @@ ROOT_NF = 7
 ROOT_FLOAT_FIELDS = ("length_cm", "length_previous_cm", "last_step_days", "last_rate_cm_per_day", "max_length_cm",
                      "death_day", "radius_cm")
 # Roots: int fields.
-R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD = range(5)
-ROOT_NI = 5
-ROOT_INT_FIELDS = ("class_code", "order", "parent_root", "growing", "dead")
-# Pending branch points.
+R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD, R_QUEUE_HEAD, R_QUEUE_TAIL = range(7)
+ROOT_NI = 7
+ROOT_INT_FIELDS = ("class_code", "order", "parent_root", "growing", "dead", "first_pending", "last_pending")
+# Pending branch points: a pool of rows, each root's in a queue (thresholds increase along it), freed rows
+# in a free list.
 Q_X, Q_Y, Q_Z, Q_DX, Q_DY, Q_DZ, Q_THRESHOLD, Q_AZIMUTH_U = range(8)
 PEND_NF = 8
-Q_SEGMENT, Q_ROOT, Q_CLASS, Q_ORDER, Q_COUNT, Q_PARENT_CLASS = range(6)
-PEND_NI = 6
+Q_SEGMENT, Q_CLASS, Q_COUNT, Q_NEXT = range(4)
+PEND_NI = 4
 
 #: Bytes each store uses per item at full capacity (8-byte fields), for the memory bound.
 BYTES_PER_ITEM = {
@@ -94,6 +96,21 @@ BYTES_PER_ITEM = {
 _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
 _MIN_STEP_CM = 1e-9
 _FIRST_CHUNK = 4096
+
+
+@njit(**JIT)
+def _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count, day):
+    """The return value of a plant whose growth stopped at a store's limit."""
+    return (float_chunks, int_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
+            np.zeros(n_roots, dtype=np.bool_), status, count, day)
+
+
+@njit(**JIT)
+def _resized(arr, n, capacity):
+    """A copy of ``arr`` with ``capacity`` rows holding its first ``n`` rows."""
+    new = np.empty((capacity, arr.shape[1]), dtype=arr.dtype)
+    new[:n] = arr[:n]
+    return new
 
 
 @njit(**JIT)
@@ -111,7 +128,7 @@ def _draw_root_parameters(rng, kind, values, cls, out):
     """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
     for p in range(N_PARAMS):
         u = rng.random() if kind[cls, p] != FIXED else 0.0
-        out[p] = draw_parameter(kind[cls, p], values[cls, p], u)
+        out[p] = draw_parameter(kind, values, cls, p, u)
 
 
 @njit(**JIT)
@@ -130,6 +147,8 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     rooti[r, R_PARENT] = parent_root
     rooti[r, R_GROWING] = 1
     rooti[r, R_DEAD] = 0
+    rooti[r, R_QUEUE_HEAD] = -1
+    rooti[r, R_QUEUE_TAIL] = -1
     tipf[j, T_X] = x
     tipf[j, T_Y] = y
     tipf[j, T_Z] = z
@@ -160,7 +179,7 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipi[j, T_ORDER] = order
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def _tropic_half_turn(tipf, j, hx, hy, hz, half_arc):
     """Half of a step's tropic turn: the combined vertical sine law, then exotropism."""
     if tipf[j, T_TROP] > 0:
@@ -171,7 +190,7 @@ def _tropic_half_turn(tipf, j, hx, hy, hz, half_arc):
     return hx, hy, hz
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
     """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
     its elongation law (exact for both laws when nothing slowed the step down), else by proportion."""
@@ -242,6 +261,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     ichunk = np.empty((2, _FIRST_CHUNK), dtype=np.int64)
     float_chunks.append(fchunk)
     int_chunks.append(ichunk)
+    chunk_counts = List()  # rows used in each chunk but the current one
+    chunk_counts.append(0)
+    chunk_counts.pop()
     chunk_used = 0
     n_seg = 0
 
@@ -253,11 +275,18 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     pendi = np.empty((16, PEND_NI), dtype=np.int64)
     n_tips = 0
     n_roots = 0
-    n_pend = 0
+    n_pend = 0  # live pending branch points
+    n_pend_rows = 0  # rows of the pool ever used
+    free_row = -1  # first row of the free list
+    stepped = np.empty(16, dtype=np.int64)  # roots whose tips stepped this step, in tip order
     params = np.empty(N_PARAMS)
     fallback = np.empty(3)
     n_events = event_day.size
     n_branch_options = branch_class.shape[1]
+    min_interbranch = np.empty(kind.shape[0])  # shortest interbranch distance of each class (bounds the
+    for c in range(kind.shape[0]):  # branch points one step can pass)
+        row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
+        min_interbranch[c] = values[c, P_INTERBRANCH, row]
     ev = 0
     status = STATUS_OK
     status_count = 0
@@ -289,8 +318,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
-                            np.zeros(n_roots, dtype=np.bool_), STATUS_ROOTS, n_roots, t0)
+                    return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                    STATUS_ROOTS, n_roots, t0)
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
                 _draw_root_parameters(rng, kind, values, cls, params)
@@ -317,148 +346,191 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         rooti[r, R_DEAD] = 1
 
         # -- every growing tip ---------------------------------------------------------------------------
+        # Arrays that may be replaced by larger ones are replaced here, outside the loop over tips (an array
+        # variable reassigned inside a compiled loop costs reference counting on every pass).
+        if stepped.size < n_tips:
+            stepped = np.empty(max(2 * stepped.size, n_tips), dtype=np.int64)
+        if chunk_used + n_tips > fchunk.shape[1]:  # at most one segment per tip and step
+            chunk_counts.append(chunk_used)
+            size = max(_FIRST_CHUNK, n_seg // 4, 2 * n_tips)
+            fchunk = np.empty((8, size))
+            ichunk = np.empty((2, size), dtype=np.int64)
+            float_chunks.append(fchunk)
+            int_chunks.append(ichunk)
+            chunk_used = 0
+        n_stepped = n_tips
         kept = 0
-        for j in range(n_tips):
-            dt = (t1 - t0) + tipf[j, T_CARRY]
-            tipf[j, T_CARRY] = 0.0
-            sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
-            length = tipf[j, T_LEN]
-            max_len = tipf[j, T_MAXLEN]
-            cls = tipi[j, T_CLASS]
-            rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
-            if law_negexp[cls]:
-                grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
-            else:
-                grown = min(length + rate * dt, max_len)
-            ds = max(grown - length, 0.0)
-            # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
-            # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
-            # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
-            arc = tipf[j, T_HALF] + 0.5 * ds
-            hx, hy, hz = _tropic_half_turn(tipf, j, tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc)
-            sigma = tipf[j, T_SIGMA]
-            drawn = False
-            if sigma > 0:
-                fallback[0] = rng.standard_normal()
-                fallback[1] = rng.standard_normal()
-                fallback[2] = rng.standard_normal()
-                drawn = True
-                hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
-                                           log_x_table, ratio_table)
-            hx, hy, hz = _tropic_half_turn(tipf, j, hx, hy, hz, 0.5 * arc)
-            hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
-            if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
-                ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
-            else:
-                if not drawn:
+        j = 0
+        need_pending = 0
+        while j < n_tips:
+            if need_pending > 0:
+                capacity = min(pending_limit, max(2 * pendf.shape[0], n_pend + need_pending))
+                pendf = _resized(pendf, n_pend_rows, capacity)
+                pendi = _resized(pendi, n_pend_rows, capacity)
+                need_pending = 0
+            while j < n_tips:
+                cls = tipi[j, T_CLASS]
+                sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
+                dt = (t1 - t0) + tipf[j, T_CARRY]
+                length = tipf[j, T_LEN]
+                max_len = tipf[j, T_MAXLEN]
+                rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
+                if law_negexp[cls]:
+                    grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
+                else:
+                    grown = min(length + rate * dt, max_len)
+                ds = max(grown - length, 0.0)
+                # Room for every branch point this step can pass, before any draw for this tip.
+                reach = length + ds * (1 + 1e-9) + 1e-9
+                if branch_class[cls, 0] >= 0 and tipf[j, T_NEXT] <= reach and pendf.shape[0] < pending_limit:
+                    bound = int((reach - tipf[j, T_NEXT]) / min_interbranch[cls]) + 1
+                    if bound > pendf.shape[0] - n_pend:
+                        need_pending = bound
+                        break
+                tipf[j, T_CARRY] = 0.0
+                # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
+                # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
+                # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
+                arc = tipf[j, T_HALF] + 0.5 * ds
+                hx, hy, hz = _tropic_half_turn(tipf, j, tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc)
+                sigma = tipf[j, T_SIGMA]
+                drawn = False
+                if sigma > 0:
                     fallback[0] = rng.standard_normal()
                     fallback[1] = rng.standard_normal()
                     fallback[2] = rng.standard_normal()
-                ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
-            seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
-            seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
-            new_length = length
-            root = tipi[j, T_ROOT]
-            if ds > _MIN_STEP_CM and seg_len > 0:
-                if n_seg >= segment_limit:
-                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
-                            np.zeros(n_roots, dtype=np.bool_), STATUS_SEGMENTS, n_seg, t0)
-                if chunk_used == fchunk.shape[1]:
-                    size = max(_FIRST_CHUNK, n_seg // 4)
-                    fchunk = np.empty((8, size))
-                    ichunk = np.empty((2, size), dtype=np.int64)
-                    float_chunks.append(fchunk)
-                    int_chunks.append(ichunk)
-                    chunk_used = 0
-                c = chunk_used
-                fchunk[0, c] = sx
-                fchunk[1, c] = sy
-                fchunk[2, c] = sz
-                fchunk[3, c] = ex
-                fchunk[4, c] = ey
-                fchunk[5, c] = ez
-                fchunk[6, c] = seg_len
-                fchunk[7, c] = t1 - 0.5 * dt
-                ichunk[0, c] = tipi[j, T_LAST]
-                ichunk[1, c] = root
-                seg_id = n_seg
-                chunk_used += 1
-                n_seg += 1
-                new_length = length + seg_len
-                # Branch points passed by the new segment (one round per branch point).
-                apical = tipf[j, T_APICAL]
-                nxt = tipf[j, T_NEXT]
-                while nxt <= new_length and nxt + apical <= max_len:
-                    u_pick = rng.random()
-                    pick = 0
-                    while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
-                        pick += 1
-                    child = branch_class[cls, pick] if pick < n_branch_options else -1
-                    if child >= 0:
-                        if n_pend >= pending_limit:
-                            return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(),
-                                    rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), STATUS_PENDING,
-                                    n_pend, t0)
-                        pendf = _room(pendf, n_pend, pending_limit)
-                        pendi = _room(pendi, n_pend, pending_limit)
-                        frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
-                        pendf[n_pend, Q_X] = sx + frac * seg_x
-                        pendf[n_pend, Q_Y] = sy + frac * seg_y
-                        pendf[n_pend, Q_Z] = sz + frac * seg_z
-                        pendf[n_pend, Q_DX] = seg_x / seg_len
-                        pendf[n_pend, Q_DY] = seg_y / seg_len
-                        pendf[n_pend, Q_DZ] = seg_z / seg_len
-                        pendf[n_pend, Q_THRESHOLD] = nxt + apical
-                        pendf[n_pend, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
-                        pendi[n_pend, Q_SEGMENT] = seg_id
-                        pendi[n_pend, Q_ROOT] = root
-                        pendi[n_pend, Q_CLASS] = child
-                        pendi[n_pend, Q_ORDER] = tipi[j, T_ORDER] + 1
-                        pendi[n_pend, Q_COUNT] = tipi[j, T_COUNT]
-                        pendi[n_pend, Q_PARENT_CLASS] = cls
-                        n_pend += 1
-                    tipi[j, T_COUNT] += 1
-                    u_spacing = rng.random() if kind[cls, P_INTERBRANCH] != FIXED else 0.0
-                    nxt += draw_parameter(kind[cls, P_INTERBRANCH], values[cls, P_INTERBRANCH], u_spacing)
-                tipf[j, T_NEXT] = nxt
-                # Commit the tip.
-                tipi[j, T_LAST] = seg_id
-                tipf[j, T_X] = ex
-                tipf[j, T_Y] = ey
-                tipf[j, T_Z] = ez
-                tipf[j, T_HX] = hx
-                tipf[j, T_HY] = hy
-                tipf[j, T_HZ] = hz
-                tipf[j, T_HALF] = 0.5 * seg_len
-                tipf[j, T_LEN] = new_length
-            rootf[root, R_PREV] = rootf[root, R_LEN]
-            rootf[root, R_LEN] = new_length
-            rootf[root, R_DT] = dt
-            rootf[root, R_RATE] = rate
-            finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) or tipf[j, T_RATE] <= 0
-            if has_lifespan and rooti[root, R_DEAD] != 0:
-                finished = True
-            if finished:
-                rooti[root, R_GROWING] = 0
-            else:
-                if kept != j:
-                    tipf[kept] = tipf[j]
-                    tipi[kept] = tipi[j]
-                kept += 1
+                    drawn = True
+                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
+                                               log_x_table, ratio_table)
+                hx, hy, hz = _tropic_half_turn(tipf, j, hx, hy, hz, 0.5 * arc)
+                hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+                if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
+                    ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
+                else:
+                    if not drawn:
+                        fallback[0] = rng.standard_normal()
+                        fallback[1] = rng.standard_normal()
+                        fallback[2] = rng.standard_normal()
+                    ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
+                seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
+                seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
+                new_length = length
+                root = tipi[j, T_ROOT]
+                stepped[j] = root
+                if ds > _MIN_STEP_CM and seg_len > 0:
+                    if n_seg >= segment_limit:
+                        return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                        STATUS_SEGMENTS, n_seg, t0)
+                    c = chunk_used
+                    fchunk[0, c] = sx
+                    fchunk[1, c] = sy
+                    fchunk[2, c] = sz
+                    fchunk[3, c] = ex
+                    fchunk[4, c] = ey
+                    fchunk[5, c] = ez
+                    fchunk[6, c] = seg_len
+                    fchunk[7, c] = t1 - 0.5 * dt
+                    ichunk[0, c] = tipi[j, T_LAST]
+                    ichunk[1, c] = root
+                    seg_id = n_seg
+                    chunk_used += 1
+                    n_seg += 1
+                    new_length = length + seg_len
+                    # Branch points passed by the new segment (one round per branch point).
+                    apical = tipf[j, T_APICAL]
+                    nxt = tipf[j, T_NEXT]
+                    while nxt <= new_length and nxt + apical <= max_len:
+                        u_pick = rng.random()
+                        pick = 0
+                        while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
+                            pick += 1
+                        child = branch_class[cls, pick] if pick < n_branch_options else -1
+                        if child >= 0:
+                            if n_pend >= pending_limit:
+                                return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                                STATUS_PENDING, n_pend, t0)
+                            if free_row >= 0:
+                                q = free_row
+                                free_row = pendi[q, Q_NEXT]
+                            elif n_pend_rows < pendf.shape[0]:
+                                q = n_pend_rows
+                                n_pend_rows += 1
+                            else:  # not reached: room was made above
+                                return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                                STATUS_PENDING, n_pend, t0)
+                            frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
+                            pendf[q, Q_X] = sx + frac * seg_x
+                            pendf[q, Q_Y] = sy + frac * seg_y
+                            pendf[q, Q_Z] = sz + frac * seg_z
+                            pendf[q, Q_DX] = seg_x / seg_len
+                            pendf[q, Q_DY] = seg_y / seg_len
+                            pendf[q, Q_DZ] = seg_z / seg_len
+                            pendf[q, Q_THRESHOLD] = nxt + apical
+                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
+                            pendi[q, Q_SEGMENT] = seg_id
+                            pendi[q, Q_CLASS] = child
+                            pendi[q, Q_COUNT] = tipi[j, T_COUNT]
+                            pendi[q, Q_NEXT] = -1
+                            if rooti[root, R_QUEUE_TAIL] >= 0:
+                                pendi[rooti[root, R_QUEUE_TAIL], Q_NEXT] = q
+                            else:
+                                rooti[root, R_QUEUE_HEAD] = q
+                            rooti[root, R_QUEUE_TAIL] = q
+                            n_pend += 1
+                        tipi[j, T_COUNT] += 1
+                        u_spacing = rng.random() if kind[cls, P_INTERBRANCH] != FIXED else 0.0
+                        nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, u_spacing)
+                    tipf[j, T_NEXT] = nxt
+                    # Commit the tip.
+                    tipi[j, T_LAST] = seg_id
+                    tipf[j, T_X] = ex
+                    tipf[j, T_Y] = ey
+                    tipf[j, T_Z] = ez
+                    tipf[j, T_HX] = hx
+                    tipf[j, T_HY] = hy
+                    tipf[j, T_HZ] = hz
+                    tipf[j, T_HALF] = 0.5 * seg_len
+                    tipf[j, T_LEN] = new_length
+                rootf[root, R_PREV] = rootf[root, R_LEN]
+                rootf[root, R_LEN] = new_length
+                rootf[root, R_DT] = dt
+                rootf[root, R_RATE] = rate
+                finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) or tipf[j, T_RATE] <= 0
+                if has_lifespan and rooti[root, R_DEAD] != 0:
+                    finished = True
+                if finished:
+                    rooti[root, R_GROWING] = 0
+                else:
+                    if kept != j:
+                        for field in range(TIP_NF):
+                            tipf[kept, field] = tipf[j, field]
+                        for field in range(TIP_NI):
+                            tipi[kept, field] = tipi[j, field]
+                    kept += 1
+                j += 1
         n_tips = kept
 
         # -- branch points whose parent's apical zone has passed become laterals ------------------------
-        kept = 0
-        for q in range(n_pend):
-            pr = pendi[q, Q_ROOT]
-            threshold = pendf[q, Q_THRESHOLD]
-            ready = rootf[pr, R_LEN] >= threshold and not (has_lifespan and rooti[pr, R_DEAD] != 0)
-            if ready:
+        # Each root's branch points wait in a queue with increasing thresholds: the ready ones are at its front.
+        # Room for every pending branch point to become a root is made first (outside the loop).
+        if n_roots + n_pend > rootf.shape[0] and rootf.shape[0] < root_limit:
+            capacity = min(root_limit, max(2 * rootf.shape[0], n_roots + n_pend))
+            rootf = _resized(rootf, n_roots, capacity)
+            rooti = _resized(rooti, n_roots, capacity)
+        if n_tips + n_pend > tipf.shape[0] and tipf.shape[0] < root_limit:
+            capacity = min(root_limit, max(2 * tipf.shape[0], n_tips + n_pend))
+            tipf = _resized(tipf, n_tips, capacity)
+            tipi = _resized(tipi, n_tips, capacity)
+        for s_idx in range(n_stepped):
+            pr = stepped[s_idx]
+            q = rooti[pr, R_QUEUE_HEAD]
+            alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
+            while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
-                            np.zeros(n_roots, dtype=np.bool_), STATUS_ROOTS, n_roots, t0)
-                parent_cls = pendi[q, Q_PARENT_CLASS]
-                carry = _time_since_threshold(rootf, law_negexp[rooti[pr, R_CLASS]], pr, threshold)
+                    return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                    STATUS_ROOTS, n_roots, t0)
+                parent_cls = rooti[pr, R_CLASS]
+                carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
                 _draw_root_parameters(rng, kind, values, cls, params)
                 if spiral[parent_cls]:
@@ -467,26 +539,34 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     azimuth = 2 * math.pi * pendf[q, Q_AZIMUTH_U]
                 hx, hy, hz = lateral_heading_scalar(pendf[q, Q_DX], pendf[q, Q_DY], pendf[q, Q_DZ],
                                                     math.radians(params[P_INSERTION]), azimuth)
-                rootf = _room(rootf, n_roots, root_limit)
-                rooti = _room(rooti, n_roots, root_limit)
-                tipf = _room(tipf, n_tips, root_limit)
-                tipi = _room(tipi, n_tips, root_limit)
-                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, pendi[q, Q_ORDER], pr, pendi[q, Q_SEGMENT],
-                          pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params, t1 - carry, carry)
+                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, rooti[pr, R_ORDER] + 1, pr,
+                          pendi[q, Q_SEGMENT], pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params,
+                          t1 - carry, carry)
                 n_roots += 1
                 n_tips += 1
-            elif rooti[pr, R_GROWING] != 0:  # still waiting
-                if kept != q:
-                    pendf[kept] = pendf[q]
-                    pendi[kept] = pendi[q]
-                kept += 1
-            # else: the parent stopped short of the threshold; the branch point never carries a lateral
-        n_pend = kept
+                following = pendi[q, Q_NEXT]
+                pendi[q, Q_NEXT] = free_row
+                free_row = q
+                n_pend -= 1
+                q = following
+            if rooti[pr, R_GROWING] == 0:
+                # The parent stopped short of the remaining thresholds: they never carry a lateral.
+                while q >= 0:
+                    following = pendi[q, Q_NEXT]
+                    pendi[q, Q_NEXT] = free_row
+                    free_row = q
+                    n_pend -= 1
+                    q = following
+            rooti[pr, R_QUEUE_HEAD] = q
+            if q < 0:
+                rooti[pr, R_QUEUE_TAIL] = -1
 
     dead_at_end = np.zeros(n_roots, dtype=np.bool_)
     if has_lifespan:
         for r in range(n_roots):
             parent = rooti[r, R_PARENT]
             dead_at_end[r] = rootf[r, R_DEATH] <= duration + 1e-12 or (parent >= 0 and dead_at_end[parent])
-    return (float_chunks, int_chunks, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(), dead_at_end,
-            STATUS_OK, 0, duration)
+    chunk_counts.append(chunk_used)
+    return (float_chunks, int_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
+                            rooti[:n_roots].copy(),
+            dead_at_end, STATUS_OK, 0, duration)

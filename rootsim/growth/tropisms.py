@@ -33,11 +33,13 @@ __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step
 
 #: Options of every compiled kernel: cached on disk; IEEE division (x/0 gives inf or nan, as in numpy).
 JIT = {"cache": True, "error_model": "numpy", "nogil": True}
+#: The same for small kernels called per tip: inlined into the caller (no call or array reference counting).
+JIT_INLINE = {**JIT, "inline": "always"}
 
 
 # -- scalar kernels (compiled) ------------------------------------------------------------------
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def tan_half_angle(sin_a, cos_a):
     """tan(a/2) from sin a and cos a, well conditioned for every a: sin/(1 + cos) where cos >= 0, else
     (1 - cos)/sin; capped at ±1e150 at a = ±π (the unstable equilibrium of a sine law stays put, and its
@@ -64,7 +66,7 @@ def combined_sine_law_scalar(gravitropism_per_cm, plagiotropism_per_cm, preferre
     return strength, 1.0, 0.0
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def sine_law_turn(hx, hy, hz, step_cm, strength_per_cm, cos_phi, sin_phi):
     """Exact step of dθ/ds = -A sin(θ - φ) for the angle θ from the downward vertical; azimuth kept.
 
@@ -88,7 +90,7 @@ def sine_law_turn(hx, hy, hz, step_cm, strength_per_cm, cos_phi, sin_phi):
     return sin_new, 0.0, -cos_new  # a vertical root bending away leans toward +x
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
     """Exact sine-law step rotating heading h toward target t in their common plane:
     dβ/ds = -k sin β, tan(β/2) -> tan(β/2) exp(-k s). Returns the new heading (x, y, z)."""
@@ -106,7 +108,7 @@ def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
     return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def tangent_variance_scalar(x, log_x_table, ratio_table):
     """Per-axis variance τ of the tangent Gaussian for a spherical Brownian step of variance x = σ² Δs.
 
@@ -132,7 +134,7 @@ def tangent_variance_scalar(x, log_x_table, ratio_table):
     return x * (ratio_table[i] + w * (ratio_table[i + 1] - ratio_table[i]))
 
 
-@njit(**JIT)
+@njit(**JIT_INLINE)
 def brownian_turn(hx, hy, hz, nx, ny, nz, step_cm, sigma_rad_per_sqrt_cm, log_x_table, ratio_table):
     """Spherical Brownian step over ``step_cm``: rotate h by a tangent Gaussian (exponential map).
 
@@ -310,7 +312,8 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
     n = h.shape[1]
     out = np.empty_like(h)
     _toward_loop(h, np.ascontiguousarray(target, dtype=np.float64),
-                 *[np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=np.float64) for v in (step_cm, strength_per_cm)],
+                 *[np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=np.float64)
+                   for v in (step_cm, strength_per_cm)],
                  out)
     return out
 
@@ -354,4 +357,5 @@ def lateral_heading(parent_direction, insertion_angle_rad, azimuth_rad):
     p = np.asarray(parent_direction, dtype=np.float64)
     n = p.shape[1]
     ins, az = (np.broadcast_to(np.asarray(v, float), (n,)) for v in (insertion_angle_rad, azimuth_rad))
-    return np.array([lateral_heading_scalar(p[0, j], p[1, j], p[2, j], ins[j], az[j]) for j in range(n)]).reshape(-1, 3).T
+    out = [lateral_heading_scalar(p[0, j], p[1, j], p[2, j], ins[j], az[j]) for j in range(n)]
+    return np.array(out).reshape(-1, 3).T
