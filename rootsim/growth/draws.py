@@ -16,7 +16,7 @@ from scipy.special import ndtr
 
 from ..distributions import Fixed, Normal, Uniform
 from ..spec import PARAMETER_RANGES
-from .tropisms import JIT, JIT_INLINE
+from .tropisms import JIT, JIT_BORROW
 
 __all__ = ["FIXED", "NORMAL", "UNIFORM", "parameter_tables", "draw_parameter", "normal_quantile"]
 
@@ -73,21 +73,21 @@ def normal_quantile(p):
     """Standard normal quantile Φ⁻¹(p) for 0 < p < 1.
 
     Start from Abramowitz & Stegun (1964) 26.2.23 (rational approximation, |error| < 4.5e-4) and refine
-    by Halley's method on Φ(x) - p, with Φ(x) = erfc(-x/√2)/2 (three iterations: cubic convergence from
-    1e-4 reaches double precision).
+    by Halley's method on Φ(x) - p, with Φ(x) = erfc(-x/√2)/2 (two iterations: cubic convergence takes an
+    error of 4.5e-4 to about 1e-10 and then below double precision).
     """
     q = p if p < 0.5 else 1.0 - p
     t = math.sqrt(-2.0 * math.log(q))
     x = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (1.0 + t * (1.432788 + t * (0.189269 + 0.001308 * t)))
     x = -x  # quantile of q < 0.5
-    for _ in range(3):
+    for _ in range(2):
         err = 0.5 * math.erfc(-x / _SQRT2) - q
         u = err * _SQRT2PI * math.exp(0.5 * x * x)
         x = x - u / (1.0 + 0.5 * x * u)
     return x if p < 0.5 else -x
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def draw_parameter(kind, values, cls, param, uniform):
     """Value of parameter ``param`` for a root of class ``cls`` from one U(0, 1) number (tables of
     :func:`parameter_tables`)."""

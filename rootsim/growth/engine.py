@@ -32,6 +32,7 @@ from .step import (
     STATUS_PENDING,
     STATUS_ROOTS,
     STATUS_SEGMENTS,
+    copy_chunk,
     grow_plant,
 )
 from .tropisms import tangent_variance_table
@@ -112,9 +113,9 @@ class _PlantResult:
         self.int_chunks = list(int_chunks)
         self.chunk_counts = list(chunk_counts)
         del float_chunks, int_chunks
-        self.radius = root_float[:, R_RADIUS].copy()
-        self.order = root_int[:, R_ORDER].copy()
-        self.class_code = root_int[:, R_CLASS].copy()
+        self.radius = np.ascontiguousarray(root_float[:, R_RADIUS])
+        self.order = np.ascontiguousarray(root_int[:, R_ORDER])
+        self.class_code = np.ascontiguousarray(root_int[:, R_CLASS], dtype=np.int16)
         self.n_roots = len(self.radius)
 
 
@@ -134,17 +135,9 @@ def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, n
         for m in p.chunk_counts:
             fchunk = p.float_chunks.pop(0)
             ichunk = p.int_chunks.pop(0)
-            part = slice(offset, offset + m)
-            floats[:8, part] = fchunk[:, :m]
-            local_root = ichunk[1, :m]
-            local_parent = ichunk[0, :m]
-            parent[part] = np.where(local_parent >= 0, local_parent + segment_offset, -1)
-            root[part] = local_root + root_offset
-            plant_id[part] = k
-            order[part] = p.order[local_root]
-            class_code[part] = p.class_code[local_root]
-            floats[8, part] = p.radius[local_root]
-            del fchunk, ichunk, local_root, local_parent
+            copy_chunk(fchunk, ichunk, m, offset, segment_offset, root_offset, k, p.order, p.class_code, p.radius,
+                       floats, parent, root, plant_id, order, class_code)
+            del fchunk, ichunk  # released once copied
             offset += m
         p.float_chunks = p.int_chunks = None
         root_offset += p.n_roots

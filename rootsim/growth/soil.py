@@ -21,7 +21,7 @@ import numpy as np
 from numba import njit
 
 from ..spec import Container, Soil
-from .tropisms import JIT, JIT_INLINE
+from .tropisms import JIT, JIT_BORROW
 
 __all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "constrain", "clamp", "contains"]
 
@@ -76,7 +76,7 @@ def container_box(container: Container) -> np.ndarray:
                      (container.thickness_cm or 0.0) / 2.0, depth], dtype=np.float64)
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def elongation_factor(interval_bottoms_cm, factor, x, y, z):
     """Multiplier of elongation at the point (x, y, z).
 
@@ -90,7 +90,7 @@ def elongation_factor(interval_bottoms_cm, factor, x, y, z):
     return factor[i]
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm):
     """Turn a shallow-angled direction that would enter a strong layer to run along its top.
 
@@ -109,7 +109,7 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
     return dx, dy, dz
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def contains(box, x, y, z):
     """True if (x, y, z) lies inside the soil volume (within 1e-9 cm)."""
     tol = _TOLERANCE_CM
@@ -123,7 +123,7 @@ def contains(box, x, y, z):
     return True
 
 
-@njit(**JIT)
+@njit(**JIT_BORROW)
 def clamp(box, x, y, z):
     """The nearest point inside the soil volume."""
     z = min(z, 0.0)
@@ -140,7 +140,7 @@ def clamp(box, x, y, z):
     return x, y, z
 
 
-@njit(**JIT)
+@njit(**JIT_BORROW)
 def _snap(box, x, y, z):
     """Put a point within 1e-9 cm of a flat boundary exactly on it (rounding of landings)."""
     tol = _TOLERANCE_CM
@@ -160,7 +160,7 @@ def _snap(box, x, y, z):
     return x, y, z
 
 
-@njit(**JIT)
+@njit(**JIT_BORROW)
 def _reflect_inward(box, ex, ey, ez, dx, dy, dz):
     """Flip the components of d that point out through a boundary the end point e crosses."""
     if ez > 0:

@@ -30,6 +30,7 @@ from .draws import FIXED, draw_parameter
 from .soil import clamp, constrain, contains, deflect, elongation_factor
 from .tropisms import (
     JIT,
+    JIT_BORROW,
     JIT_INLINE,
     brownian_turn,
     combined_sine_law_scalar,
@@ -39,7 +40,7 @@ from .tropisms import (
     toward_direction_turn,
 )
 
-__all__ = ["grow_plant", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+__all__ = ["grow_plant", "copy_chunk", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
            "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
@@ -180,17 +181,16 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
 
 
 @njit(**JIT_INLINE)
-def _tropic_half_turn(tipf, j, hx, hy, hz, half_arc):
-    """Half of a step's tropic turn: the combined vertical sine law, then exotropism."""
-    if tipf[j, T_TROP] > 0:
-        hx, hy, hz = sine_law_turn(hx, hy, hz, half_arc, tipf[j, T_TROP], tipf[j, T_COSPHI], tipf[j, T_SINPHI])
-    if tipf[j, T_EXO] > 0:
-        hx, hy, hz = toward_direction_turn(hx, hy, hz, tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z], half_arc,
-                                           tipf[j, T_EXO])
+def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropism, h0x, h0y, h0z):
+    """Half of a step's tropic turn: the combined vertical sine law, then exotropism toward h0."""
+    if strength > 0:
+        hx, hy, hz = sine_law_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi)
+    if exotropism > 0:
+        hx, hy, hz = toward_direction_turn(hx, hy, hz, h0x, h0y, h0z, half_arc, exotropism)
     return hx, hy, hz
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
     """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
     its elongation law (exact for both laws when nothing slowed the step down), else by proportion."""
@@ -392,7 +392,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
                 # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
                 arc = tipf[j, T_HALF] + 0.5 * ds
-                hx, hy, hz = _tropic_half_turn(tipf, j, tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc)
+                strength, cos_phi, sin_phi = tipf[j, T_TROP], tipf[j, T_COSPHI], tipf[j, T_SINPHI]
+                exotropism, h0x, h0y, h0z = tipf[j, T_EXO], tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z]
+                hx, hy, hz = _tropic_half_turn(tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc, strength,
+                                               cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -402,7 +405,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     drawn = True
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
                                                log_x_table, ratio_table)
-                hx, hy, hz = _tropic_half_turn(tipf, j, hx, hy, hz, 0.5 * arc)
+                hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
+                                               h0y, h0z)
                 hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
@@ -570,3 +574,25 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     return (float_chunks, int_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
             dead_at_end, STATUS_OK, 0, duration)
+
+
+@njit(**JIT)
+def copy_chunk(fchunk, ichunk, count, offset, segment_offset, root_offset, plant, root_order, root_class, root_radius,
+               floats, parent, root, plant_id, order, class_code):
+    """Copy ``count`` segments of a plant's chunk into the table's columns from row ``offset`` on.
+
+    Local parent and root ids become table ids (``segment_offset``, ``root_offset``: the plant's first
+    segment and root); order, class code and radius (rows 8 of ``floats``) come from the plant's roots.
+    """
+    for c in range(count):
+        i = offset + c
+        for field in range(8):
+            floats[field, i] = fchunk[field, c]
+        local_parent = ichunk[0, c]
+        local_root = ichunk[1, c]
+        parent[i] = local_parent + segment_offset if local_parent >= 0 else -1
+        root[i] = local_root + root_offset
+        plant_id[i] = plant
+        order[i] = root_order[local_root]
+        class_code[i] = root_class[local_root]
+        floats[8, i] = root_radius[local_root]

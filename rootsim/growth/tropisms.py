@@ -35,6 +35,9 @@ __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step
 JIT = {"cache": True, "error_model": "numpy", "nogil": True}
 #: The same for small kernels called per tip: inlined into the caller (no call or array reference counting).
 JIT_INLINE = {**JIT, "inline": "always"}
+#: For kernels that read arrays and allocate nothing: no reference counting of their array arguments (a
+#: counted reference per call would cost more than the work itself).
+JIT_BORROW = {**JIT, "_nrt": False}
 
 
 # -- scalar kernels (compiled) ------------------------------------------------------------------
@@ -74,7 +77,7 @@ def sine_law_turn(hx, hy, hz, step_cm, strength_per_cm, cos_phi, sin_phi):
     tan(ψ/2) -> tan(ψ/2) exp(-A s); tan(atan2/2) stays finite at the unstable equilibrium ψ = ±π.
     """
     cos_t = min(max(-hz, -1.0), 1.0)
-    horiz = math.hypot(hx, hy)
+    horiz = math.sqrt(hx * hx + hy * hy)  # components of a unit vector: no overflow to guard against
     sin_t = horiz
     cos_p = cos_t * cos_phi + sin_t * sin_phi
     sin_p = sin_t * cos_phi - cos_t * sin_phi
@@ -108,7 +111,7 @@ def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
     return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def tangent_variance_scalar(x, log_x_table, ratio_table):
     """Per-axis variance τ of the tangent Gaussian for a spherical Brownian step of variance x = σ² Δs.
 
@@ -134,7 +137,7 @@ def tangent_variance_scalar(x, log_x_table, ratio_table):
     return x * (ratio_table[i] + w * (ratio_table[i + 1] - ratio_table[i]))
 
 
-@njit(**JIT_INLINE)
+@njit(**JIT_BORROW)
 def brownian_turn(hx, hy, hz, nx, ny, nz, step_cm, sigma_rad_per_sqrt_cm, log_x_table, ratio_table):
     """Spherical Brownian step over ``step_cm``: rotate h by a tangent Gaussian (exponential map).
 
