@@ -31,8 +31,10 @@ from .step import (
     STATUS_OK,
     STATUS_PENDING,
     STATUS_ROOTS,
+    SEGMENT_FLOAT_FIELDS,
     STATUS_SEGMENTS,
-    copy_chunk,
+    copy_parent_column,
+    copy_root_columns,
     grow_plant,
 )
 from .tropisms import tangent_variance_table
@@ -43,9 +45,10 @@ _STORE_NAMES = {STATUS_SEGMENTS: "segments", STATUS_ROOTS: "roots", STATUS_PENDI
 
 #: Bytes per segment of the returned table (five int64 columns, root_class references, nine float64 columns).
 RESULT_BYTES_PER_SEGMENT = 8 * 5 + 8 + 8 * 9
-#: Most bytes a run's stores may hold per segment of its budget: segment chunks (25 % spare) while growing,
-#: plus roots with their tips and pending branch points (capacity doubling: up to 1.5 x while copying),
-#: or the result table with the chunks still to copy at the end.
+#: Most bytes a run's stores may hold per segment of its budget, all stores full: segment chunks (25 %
+#: spare) plus roots with their tips and pending branch points (capacity doubling: old and new arrays while
+#: copying) while growing; at the end the table is built column by column as the chunks are released
+#: (at most the table plus the chunks plus one column).
 MEMORY_BYTES_PER_BUDGET_SEGMENT = int(max(
     1.25 * BYTES_PER_ITEM["segments"] + 1.5 * (BYTES_PER_ITEM["roots"] + BYTES_PER_ITEM["pending branch points"]),
     RESULT_BYTES_PER_SEGMENT + 1.25 * BYTES_PER_ITEM["segments"],
@@ -105,14 +108,18 @@ def _metadata(spec: Spec, positions: np.ndarray, class_names: list[str]) -> dict
 
 
 class _PlantResult:
-    """One plant's segment chunks and root table, released chunk by chunk while the table is assembled."""
+    """One plant's segment chunks (one array per column and chunk) and root table."""
 
     def __init__(self, out):
-        float_chunks, int_chunks, chunk_counts, self.n_segments, root_float, root_int, self.dead_at_end = out[:7]
-        self.float_chunks = list(float_chunks)
-        self.int_chunks = list(int_chunks)
+        float_chunks, parent_chunks, root_chunks, chunk_counts, self.n_segments, root_float, root_int = out[:7]
+        self.dead_at_end = out[7]
+        n_fields = len(SEGMENT_FLOAT_FIELDS)
+        floats = list(float_chunks)
+        self.float_chunks = {name: floats[f::n_fields] for f, name in enumerate(SEGMENT_FLOAT_FIELDS)}
+        self.parent_chunks = list(parent_chunks)
+        self.root_chunks = list(root_chunks)
         self.chunk_counts = list(chunk_counts)
-        del float_chunks, int_chunks
+        del floats, float_chunks, parent_chunks, root_chunks
         self.radius = np.ascontiguousarray(root_float[:, R_RADIUS])
         self.order = np.ascontiguousarray(root_int[:, R_ORDER])
         self.class_code = np.ascontiguousarray(root_int[:, R_CLASS], dtype=np.int16)
@@ -120,42 +127,57 @@ class _PlantResult:
 
 
 def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, np.ndarray]:
-    """The segment table's columns from the plants' chunks (each chunk released once copied)."""
+    """The segment table's columns from the plants' chunks.
+
+    One column (or the columns derived from one chunk column) at a time, releasing each chunk array once
+    copied, so the chunks and the table are never both held whole.
+    """
     n = sum(p.n_segments for p in plants)
-    floats = np.empty((9, n))  # x0 y0 z0 x1 y1 z1 length birth radius; rows are the float columns
-    parent = np.empty(n, dtype=np.int64)
+    columns = {}
+
+    def each_chunk(chunks_of):
+        """(plant index, plant, chunk array, rows, first row in the table) of every chunk, releasing each."""
+        offset = 0
+        for k, p in enumerate(plants):
+            chunks = chunks_of(p)
+            for c, m in enumerate(p.chunk_counts):
+                array, chunks[c] = chunks[c], None
+                yield k, p, array, m, offset
+                offset += m
+
     root = np.empty(n, dtype=np.int64)
     plant_id = np.empty(n, dtype=np.int64)
     order = np.empty(n, dtype=np.int64)
     class_code = np.empty(n, dtype=np.int16)
-    offset = 0
-    root_offset = 0
-    for k, p in enumerate(plants):
-        segment_offset = offset  # id of the plant's first segment
-        for m in p.chunk_counts:
-            fchunk = p.float_chunks.pop(0)
-            ichunk = p.int_chunks.pop(0)
-            copy_chunk(fchunk, ichunk, m, offset, segment_offset, root_offset, k, p.order, p.class_code, p.radius,
-                       floats, parent, root, plant_id, order, class_code)
-            del fchunk, ichunk  # released once copied
-            offset += m
-        p.float_chunks = p.int_chunks = None
-        root_offset += p.n_roots
+    radius = np.empty(n)
+    root_offsets = np.cumsum([0] + [p.n_roots for p in plants])
+    for k, p, local_root, m, offset in each_chunk(lambda p: p.root_chunks):
+        copy_root_columns(local_root, m, offset, root_offsets[k], k, p.order, p.class_code, p.radius, root, plant_id,
+                          order, class_code, radius)
+        del local_root
     names = np.asarray(class_names, dtype=object)
-    columns = {
-        "segment_id": np.arange(n, dtype=np.int64),
-        "parent_id": parent,
-        "plant_id": plant_id,
-        "root_id": root,
-        "order": order,
-        "root_class": names[class_code] if n else np.zeros(0, dtype=object),
-    }
-    for row, name in enumerate(("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")):
-        columns[name] = floats[row]
-    columns["radius_cm"] = floats[8]
-    ordered = ("segment_id", "parent_id", "plant_id", "root_id", "order", "root_class", "x0", "y0", "z0", "x1", "y1",
-               "z1", "radius_cm", "length_cm", "birth_day")
-    return {name: columns[name] for name in ordered}
+    root_class = names[class_code] if n else np.zeros(0, dtype=object)
+    del class_code
+    parent = np.empty(n, dtype=np.int64)
+    segment_offsets = np.cumsum([0] + [p.n_segments for p in plants])
+    for k, p, local_parent, m, offset in each_chunk(lambda p: p.parent_chunks):
+        copy_parent_column(local_parent, m, offset, segment_offsets[k], parent)
+        del local_parent
+    columns = {"segment_id": np.arange(n, dtype=np.int64), "parent_id": parent, "plant_id": plant_id,
+               "root_id": root, "order": order, "root_class": root_class}
+    floats = {}
+    for name in SEGMENT_FLOAT_FIELDS:
+        column = np.empty(n)
+        for _, _, chunk, m, offset in each_chunk(lambda p: p.float_chunks[name]):
+            column[offset: offset + m] = chunk[:m]
+            del chunk
+        floats[name] = column
+    for name in ("x0", "y0", "z0", "x1", "y1", "z1"):
+        columns[name] = floats[name]
+    columns["radius_cm"] = radius
+    columns["length_cm"] = floats["length_cm"]
+    columns["birth_day"] = floats["birth_day"]
+    return columns
 
 
 def _drop_dead(columns: dict, plants: list[_PlantResult]) -> dict:
@@ -224,7 +246,7 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             x, y, z = positions[k]
             out = grow_plant(rng, x, y, z, *events, *tables, *soil, box, log_x, ratio, duration, dt, n_steps,
                              classes.has_lifespan, budget - n_segments, budget - n_roots, budget)
-            status, count, day = out[7:]
+            status, count, day = out[8:]
             if status != STATUS_OK:
                 before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants
                 reached = count + before

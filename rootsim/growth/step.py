@@ -9,8 +9,9 @@ the plant's index alone.
 
 Stores and their limits (each a hard bound on memory; see :mod:`rootsim.growth.engine`):
 
-* segments: column chunks (rows ``SEGMENT_FLOAT_FIELDS`` and ``SEGMENT_INT_FIELDS``), at most
-  ``segment_limit`` rows; a new chunk holds a quarter of the rows so far, so at most 25 % is spare;
+* segments: column chunks (``SEGMENT_FLOAT_FIELDS`` and ``SEGMENT_INT_FIELDS``), at most
+  ``segment_limit`` rows; a new chunk holds an eighth of the rows so far (at least 8 steps of every tip)
+  and is closed when it may not hold the next step, so at most 25 % is spare;
 * roots (one row per root, with its growing tip while it grows): at most ``root_limit``;
 * pending branch points (waiting for the parent's apical zone to pass): at most ``pending_limit``.
 
@@ -40,11 +41,11 @@ from .tropisms import (
     toward_direction_turn,
 )
 
-__all__ = ["grow_plant", "copy_chunk", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+__all__ = ["grow_plant", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
            "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
-SEGMENT_INT_FIELDS = ("parent_local", "root_local")
+SEGMENT_INT_FIELDS = ("parent_local", "root_local")  # int64, int32
 STATUS_OK, STATUS_SEGMENTS, STATUS_ROOTS, STATUS_PENDING = 0, 1, 2, 3
 
 # Per-root parameter columns.
@@ -89,7 +90,7 @@ PEND_NI = 4
 
 #: Bytes each store uses per item at full capacity (8-byte fields), for the memory bound.
 BYTES_PER_ITEM = {
-    "segments": 8 * (len(SEGMENT_FLOAT_FIELDS) + len(SEGMENT_INT_FIELDS)),
+    "segments": 8 * len(SEGMENT_FLOAT_FIELDS) + 8 + 4,
     "roots": 8 * (ROOT_NF + ROOT_NI + TIP_NF + TIP_NI),
     "pending branch points": 8 * (PEND_NF + PEND_NI),
 }
@@ -100,10 +101,11 @@ _FIRST_CHUNK = 4096
 
 
 @njit(**JIT)
-def _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count, day):
+def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
+             day):
     """The return value of a plant whose growth stopped at a store's limit."""
-    return (float_chunks, int_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(), rooti[:n_roots].copy(),
-            np.zeros(n_roots, dtype=np.bool_), status, count, day)
+    return (float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
+            rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day)
 
 
 @njit(**JIT)
@@ -244,8 +246,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
 
     Returns
     -------
-    float_chunks, int_chunks : list of ndarray, shapes (8, size) and (2, size)
-        Segment columns in chunks (all full except the last): see ``SEGMENT_*_FIELDS``.
+    float_chunks, parent_chunks, root_chunks : list of ndarray
+        Segment columns in chunks: ``SEGMENT_FLOAT_FIELDS`` of chunk 0, then of chunk 1, ...; parents
+        (segment numbers within the plant, -1 none) and roots (root numbers within the plant) per chunk.
+    chunk_counts : list of int
+        Rows used in each chunk.
     n_segments : int
     root_float, root_int : ndarray, shapes (n_roots, ROOT_NF), (n_roots, ROOT_NI)
     dead_at_end : ndarray of bool, shape (n_roots,)
@@ -255,15 +260,22 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     status_day : float
         Day the growth stopped at.
     """
-    float_chunks = List()
-    int_chunks = List()
-    fchunk = np.empty((8, _FIRST_CHUNK))
-    ichunk = np.empty((2, _FIRST_CHUNK), dtype=np.int64)
-    float_chunks.append(fchunk)
-    int_chunks.append(ichunk)
+    # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
+    float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
+    parent_chunks = List()
+    root_chunks = List()
     chunk_counts = List()  # rows used in each chunk but the current one
     chunk_counts.append(0)
     chunk_counts.pop()
+    c_x0, c_y0, c_z0 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_x1, c_y1, c_z1 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_len, c_birth = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_parent = np.empty(_FIRST_CHUNK, dtype=np.int64)
+    c_root = np.empty(_FIRST_CHUNK, dtype=np.int32)
+    for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
+        float_chunks.append(column)
+    parent_chunks.append(c_parent)
+    root_chunks.append(c_root)
     chunk_used = 0
     n_seg = 0
 
@@ -318,7 +330,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
                                     STATUS_ROOTS, n_roots, t0)
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
@@ -350,13 +362,18 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         # variable reassigned inside a compiled loop costs reference counting on every pass).
         if stepped.size < n_tips:
             stepped = np.empty(max(2 * stepped.size, n_tips), dtype=np.int64)
-        if chunk_used + n_tips > fchunk.shape[1]:  # at most one segment per tip and step
+        if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
             chunk_counts.append(chunk_used)
-            size = max(_FIRST_CHUNK, n_seg // 4, 2 * n_tips)
-            fchunk = np.empty((8, size))
-            ichunk = np.empty((2, size), dtype=np.int64)
-            float_chunks.append(fchunk)
-            int_chunks.append(ichunk)
+            size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
+            c_x0, c_y0, c_z0 = np.empty(size), np.empty(size), np.empty(size)
+            c_x1, c_y1, c_z1 = np.empty(size), np.empty(size), np.empty(size)
+            c_len, c_birth = np.empty(size), np.empty(size)
+            c_parent = np.empty(size, dtype=np.int64)
+            c_root = np.empty(size, dtype=np.int32)
+            for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
+                float_chunks.append(column)
+            parent_chunks.append(c_parent)
+            root_chunks.append(c_root)
             chunk_used = 0
         n_stepped = n_tips
         kept = 0
@@ -423,19 +440,19 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 stepped[j] = root
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
-                        return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
                                         STATUS_SEGMENTS, n_seg, t0)
                     c = chunk_used
-                    fchunk[0, c] = sx
-                    fchunk[1, c] = sy
-                    fchunk[2, c] = sz
-                    fchunk[3, c] = ex
-                    fchunk[4, c] = ey
-                    fchunk[5, c] = ez
-                    fchunk[6, c] = seg_len
-                    fchunk[7, c] = t1 - 0.5 * dt
-                    ichunk[0, c] = tipi[j, T_LAST]
-                    ichunk[1, c] = root
+                    c_x0[c] = sx
+                    c_y0[c] = sy
+                    c_z0[c] = sz
+                    c_x1[c] = ex
+                    c_y1[c] = ey
+                    c_z1[c] = ez
+                    c_len[c] = seg_len
+                    c_birth[c] = t1 - 0.5 * dt
+                    c_parent[c] = tipi[j, T_LAST]
+                    c_root[c] = root
                     seg_id = n_seg
                     chunk_used += 1
                     n_seg += 1
@@ -451,7 +468,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         child = branch_class[cls, pick] if pick < n_branch_options else -1
                         if child >= 0:
                             if n_pend >= pending_limit:
-                                return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
                                                 STATUS_PENDING, n_pend, t0)
                             if free_row >= 0:
                                 q = free_row
@@ -460,7 +477,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 q = n_pend_rows
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
-                                return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
                                                 STATUS_PENDING, n_pend, t0)
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
@@ -531,7 +548,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, int_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
                                     STATUS_ROOTS, n_roots, t0)
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
@@ -571,28 +588,31 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             parent = rooti[r, R_PARENT]
             dead_at_end[r] = rootf[r, R_DEATH] <= duration + 1e-12 or (parent >= 0 and dead_at_end[parent])
     chunk_counts.append(chunk_used)
-    return (float_chunks, int_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
+    return (float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
             dead_at_end, STATUS_OK, 0, duration)
 
 
 @njit(**JIT)
-def copy_chunk(fchunk, ichunk, count, offset, segment_offset, root_offset, plant, root_order, root_class, root_radius,
-               floats, parent, root, plant_id, order, class_code):
-    """Copy ``count`` segments of a plant's chunk into the table's columns from row ``offset`` on.
+def copy_root_columns(local_root, count, offset, root_offset, plant, root_order, root_class, root_radius,
+                      root, plant_id, order, class_code, radius):
+    """Columns that come from a segment's root, for ``count`` segments of a chunk from row ``offset`` on.
 
-    Local parent and root ids become table ids (``segment_offset``, ``root_offset``: the plant's first
-    segment and root); order, class code and radius (rows 8 of ``floats``) come from the plant's roots.
+    ``local_root`` holds root numbers within the plant; ``root_offset`` is the plant's first root id.
     """
     for c in range(count):
         i = offset + c
-        for field in range(8):
-            floats[field, i] = fchunk[field, c]
-        local_parent = ichunk[0, c]
-        local_root = ichunk[1, c]
-        parent[i] = local_parent + segment_offset if local_parent >= 0 else -1
-        root[i] = local_root + root_offset
+        r = local_root[c]
+        root[i] = r + root_offset
         plant_id[i] = plant
-        order[i] = root_order[local_root]
-        class_code[i] = root_class[local_root]
-        floats[8, i] = root_radius[local_root]
+        order[i] = root_order[r]
+        class_code[i] = root_class[r]
+        radius[i] = root_radius[r]
+
+
+@njit(**JIT)
+def copy_parent_column(local_parent, count, offset, segment_offset, parent):
+    """Parent ids within the plant (-1: none) as table ids (``segment_offset``: the plant's first segment)."""
+    for c in range(count):
+        p = local_parent[c]
+        parent[offset + c] = p + segment_offset if p >= 0 else -1
