@@ -33,6 +33,7 @@ from .step import (
     STATUS_ROOTS,
     SEGMENT_FLOAT_FIELDS,
     STATUS_SEGMENTS,
+    chunk_item,
     copy_parent_column,
     copy_root_columns,
     grow_plant,
@@ -114,11 +115,12 @@ class _PlantResult:
         float_chunks, parent_chunks, root_chunks, chunk_counts, self.n_segments, root_float, root_int = out[:7]
         self.dead_at_end = out[7]
         n_fields = len(SEGMENT_FLOAT_FIELDS)
-        floats = list(float_chunks)
+        self.chunk_counts = [int(m) for m in chunk_counts]
+        n_chunks = len(self.chunk_counts)
+        floats = [chunk_item(float_chunks, i) for i in range(n_fields * n_chunks)]
         self.float_chunks = {name: floats[f::n_fields] for f, name in enumerate(SEGMENT_FLOAT_FIELDS)}
-        self.parent_chunks = list(parent_chunks)
-        self.root_chunks = list(root_chunks)
-        self.chunk_counts = list(chunk_counts)
+        self.parent_chunks = [chunk_item(parent_chunks, i) for i in range(n_chunks)]
+        self.root_chunks = [chunk_item(root_chunks, i) for i in range(n_chunks)]
         del floats, float_chunks, parent_chunks, root_chunks
         self.radius = np.ascontiguousarray(root_float[:, R_RADIUS])
         self.order = np.ascontiguousarray(root_int[:, R_ORDER])

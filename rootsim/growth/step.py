@@ -41,7 +41,7 @@ from .tropisms import (
     toward_direction_turn,
 )
 
-__all__ = ["grow_plant", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+__all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
            "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
@@ -104,8 +104,15 @@ _FIRST_CHUNK = 4096
 def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
              day):
     """The return value of a plant whose growth stopped at a store's limit."""
-    return (float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
+    return (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:n_roots].copy(),
             rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day)
+
+
+@njit(**JIT)
+def chunk_item(chunks, index):
+    """Chunk ``index`` of a list returned by :func:`grow_plant` (a compiled, cached accessor: reading numba's
+    typed lists from Python would compile helpers anew in every process)."""
+    return chunks[index]
 
 
 @njit(**JIT)
@@ -249,8 +256,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     float_chunks, parent_chunks, root_chunks : list of ndarray
         Segment columns in chunks: ``SEGMENT_FLOAT_FIELDS`` of chunk 0, then of chunk 1, ...; parents
         (segment numbers within the plant, -1 none) and roots (root numbers within the plant) per chunk.
-    chunk_counts : list of int
-        Rows used in each chunk.
+    chunk_counts : ndarray of int64, shape (n_chunks,)
+        Rows used in each chunk (read the chunks with :func:`chunk_item`).
     n_segments : int
     root_float, root_int : ndarray, shapes (n_roots, ROOT_NF), (n_roots, ROOT_NI)
     dead_at_end : ndarray of bool, shape (n_roots,)
@@ -588,7 +595,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             parent = rooti[r, R_PARENT]
             dead_at_end[r] = rootf[r, R_DEATH] <= duration + 1e-12 or (parent >= 0 and dead_at_end[parent])
     chunk_counts.append(chunk_used)
-    return (float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf[:n_roots].copy(),
+    counts = np.empty(len(chunk_counts), dtype=np.int64)
+    for c in range(counts.size):
+        counts[c] = chunk_counts[c]
+    return (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
             dead_at_end, STATUS_OK, 0, duration)
 
