@@ -70,8 +70,8 @@ N_PARAMS = len(PARAM_NAMES)
  T_EXO, T_SIGMA, T_APICAL, T_NEXT, T_CARRY, T_HALF) = range(21)
 TIP_NF = 21
 # Growing tips: int fields.
-T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER = range(5)
-TIP_NI = 5
+T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE = range(6)
+TIP_NI = 6
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
 R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
 ROOT_NF = 7
@@ -171,8 +171,11 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipf[j, T_LEN] = 0.0
     tipf[j, T_MAXLEN] = params[P_MAXLEN]
     tipf[j, T_RATE] = params[P_RATE]
-    strength, cos_phi, sin_phi = combined_sine_law_scalar(params[P_GRAVI], params[P_PLAGIO],
-                                                          math.radians(params[P_PREFERRED]))
+    if params[P_GRAVI] == 0 and params[P_PLAGIO] == 0:
+        strength, cos_phi, sin_phi = 0.0, 1.0, 0.0
+    else:
+        strength, cos_phi, sin_phi = combined_sine_law_scalar(params[P_GRAVI], params[P_PLAGIO],
+                                                              math.radians(params[P_PREFERRED]))
     tipf[j, T_TROP] = strength
     tipf[j, T_COSPHI] = cos_phi
     tipf[j, T_SINPHI] = sin_phi
@@ -187,6 +190,7 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipi[j, T_LAST] = parent_segment
     tipi[j, T_COUNT] = 0
     tipi[j, T_ORDER] = order
+    tipi[j, T_DONE] = 0
 
 
 @njit(**JIT_INLINE)
@@ -293,6 +297,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     pendf = np.empty((16, PEND_NF))
     pendi = np.empty((16, PEND_NI), dtype=np.int64)
     n_tips = 0
+    n_done = 0  # finished tips still in the table
     n_roots = 0
     n_pend = 0  # live pending branch points
     n_pend_rows = 0  # rows of the pool ever used
@@ -329,6 +334,18 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             t0 = duration
             t1 = duration
         k += 1
+        if 4 * n_done > n_tips:  # drop finished tips once they are a quarter of the table (order kept)
+            kept = 0
+            for j in range(n_tips):
+                if tipi[j, T_DONE] == 0:
+                    if kept != j:
+                        for field in range(TIP_NF):
+                            tipf[kept, field] = tipf[j, field]
+                        for field in range(TIP_NI):
+                            tipi[kept, field] = tipi[j, field]
+                    kept += 1
+            n_tips = kept
+            n_done = 0
 
         # -- emergence -------------------------------------------------------------------------------
         while ev < n_events and event_day[ev] < t1:
@@ -383,7 +400,6 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             root_chunks.append(c_root)
             chunk_used = 0
         n_stepped = n_tips
-        kept = 0
         j = 0
         need_pending = 0
         while j < n_tips:
@@ -393,6 +409,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 pendi = _resized(pendi, n_pend_rows, capacity)
                 need_pending = 0
             while j < n_tips:
+                if tipi[j, T_DONE] != 0:  # finished in an earlier step, not yet dropped
+                    stepped[j] = -1
+                    j += 1
+                    continue
                 cls = tipi[j, T_CLASS]
                 sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
                 dt = (t1 - t0) + tipf[j, T_CARRY]
@@ -528,15 +548,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     finished = True
                 if finished:
                     rooti[root, R_GROWING] = 0
-                else:
-                    if kept != j:
-                        for field in range(TIP_NF):
-                            tipf[kept, field] = tipf[j, field]
-                        for field in range(TIP_NI):
-                            tipi[kept, field] = tipi[j, field]
-                    kept += 1
+                    tipi[j, T_DONE] = 1
+                    n_done += 1
                 j += 1
-        n_tips = kept
 
         # -- branch points whose parent's apical zone has passed become laterals ------------------------
         # Each root's branch points wait in a queue with increasing thresholds: the ready ones are at its front.
@@ -551,6 +565,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             tipi = _resized(tipi, n_tips, capacity)
         for s_idx in range(n_stepped):
             pr = stepped[s_idx]
+            if pr < 0:
+                continue
             q = rooti[pr, R_QUEUE_HEAD]
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
