@@ -21,7 +21,7 @@ import numpy as np
 from numba import njit
 
 from ..spec import Container, Soil
-from .tropisms import JIT, JIT_BORROW
+from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
 __all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "constrain", "clamp", "contains"]
 
@@ -76,7 +76,7 @@ def container_box(container: Container) -> np.ndarray:
                      (container.thickness_cm or 0.0) / 2.0, depth], dtype=np.float64)
 
 
-@njit(**JIT_BORROW)
+@njit(**JIT_INLINE)
 def elongation_factor(interval_bottoms_cm, factor, x, y, z):
     """Multiplier of elongation at the point (x, y, z).
 
@@ -90,7 +90,7 @@ def elongation_factor(interval_bottoms_cm, factor, x, y, z):
     return factor[i]
 
 
-@njit(**JIT_BORROW)
+@njit(**JIT_INLINE)
 def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm):
     """Turn a shallow-angled direction that would enter a strong layer to run along its top.
 
@@ -109,7 +109,7 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
     return dx, dy, dz
 
 
-@njit(**JIT_BORROW)
+@njit(**JIT_INLINE)
 def contains(box, x, y, z):
     """True if (x, y, z) lies inside the soil volume (within 1e-9 cm)."""
     tol = _TOLERANCE_CM
