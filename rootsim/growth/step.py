@@ -137,8 +137,10 @@ def _room(arr, n, limit):
 def _draw_root_parameters(rng, kind, values, cls, out):
     """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
     for p in range(N_PARAMS):
-        u = rng.random() if kind[cls, p] != FIXED else 0.0
-        out[p] = draw_parameter(kind, values, cls, p, u)
+        if kind[cls, p] == FIXED:
+            out[p] = values[cls, p, 0]
+        else:
+            out[p] = draw_parameter(kind, values, cls, p, rng.random())
 
 
 @njit(**JIT)
@@ -526,8 +528,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             rooti[root, R_QUEUE_TAIL] = q
                             n_pend += 1
                         tipi[j, T_COUNT] += 1
-                        u_spacing = rng.random() if kind[cls, P_INTERBRANCH] != FIXED else 0.0
-                        nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, u_spacing)
+                        if kind[cls, P_INTERBRANCH] == FIXED:
+                            nxt += values[cls, P_INTERBRANCH, 0]
+                        else:
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random())
                     tipf[j, T_NEXT] = nxt
                     # Commit the tip.
                     tipi[j, T_LAST] = seg_id
