@@ -228,7 +228,8 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
     positions = plant_positions(spec)
     n_plants = len(positions)
     events = _emergence_events(spec, classes)
-    soil = soil_arrays(spec.soil)
+    bottoms, factor, tops, sin_max = soil_arrays(spec.soil)
+    soil = (bottoms, factor, tops, float(sin_max))
     box = container_box(spec.container)
     log_x, ratio = tangent_variance_table()
     duration = spec.run.duration_days
@@ -246,8 +247,10 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
         for k in range(n_plants):
             rng = np.random.default_rng(seeds[k])
             x, y, z = positions[k]
-            out = grow_plant(rng, x, y, z, *events, *tables, *soil, box, log_x, ratio, duration, dt, n_steps,
-                             classes.has_lifespan, budget - n_segments, budget - n_roots, budget)
+            # Plain Python scalars of fixed types: one compiled (and cached) version serves every spec.
+            out = grow_plant(rng, float(x), float(y), float(z), *events, *tables, *soil, box, log_x, ratio,
+                             float(duration), float(dt), int(n_steps), bool(classes.has_lifespan),
+                             int(budget - n_segments), int(budget - n_roots), int(budget))
             status, count, day = out[8:]
             if status != STATUS_OK:
                 before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants
