@@ -41,7 +41,8 @@ from .tropisms import (
     toward_direction_turn,
 )
 
-__all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS", "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+__all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS",
+           "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
            "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
@@ -356,8 +357,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
-                                    STATUS_ROOTS, n_roots, t0)
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
                 _draw_root_parameters(rng, kind, values, cls, params)
@@ -469,8 +470,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 stepped[j] = root
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
-                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
-                                        STATUS_SEGMENTS, n_seg, t0)
+                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                        rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0)
                     c = chunk_used
                     c_x0[c] = sx
                     c_y0[c] = sy
@@ -497,8 +498,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         child = branch_class[cls, pick] if pick < n_branch_options else -1
                         if child >= 0:
                             if n_pend >= pending_limit:
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
-                                                STATUS_PENDING, n_pend, t0)
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
                             if free_row >= 0:
                                 q = free_row
                                 free_row = pendi[q, Q_NEXT]
@@ -506,8 +507,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 q = n_pend_rows
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
-                                                STATUS_PENDING, n_pend, t0)
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
                             pendf[q, Q_Y] = sy + frac * seg_y
@@ -575,8 +576,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots,
-                                    STATUS_ROOTS, n_roots, t0)
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
