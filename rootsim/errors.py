@@ -56,17 +56,26 @@ class SegmentTableError(RootsimError, ValueError):
 
 
 class SegmentBudgetError(RootsimError, RuntimeError):
-    """Growth stopped because the run would exceed its segment budget."""
+    """Growth stopped because the run would exceed its segment budget.
 
-    def __init__(self, budget: int, reached: int, day: float):
+    The budget (``run.max_segments``) bounds every store that grows with a run: the segments, the roots
+    and the branch points waiting to carry a lateral (``store`` names the one that would pass it).
+    """
+
+    def __init__(self, budget: int, reached: int, day: float, *, store: str = "segments", plant: int | None = None):
         self.budget = int(budget)
         self.reached = int(reached)
         self.day = float(day)
-        super().__init__(
-            f"segment budget of {self.budget:,} exceeded: the run had reached {self.reached:,} segments "
-            f"on day {self.day:g}; raise run.max_segments in the spec or pass --max-segments, "
-            "or shorten the run with --days"
-        )
+        self.store = store
+        where = f"on day {self.day:g}" + ("" if plant is None else f" (plant {plant})")
+        if store == "segments":
+            text = (f"segment budget of {self.budget:,} exceeded: the run had reached {self.reached:,} segments "
+                    f"{where}; raise run.max_segments in the spec or pass --max-segments, or shorten the run with --days")
+        else:
+            text = (f"segment budget of {self.budget:,} exceeded by {store}: a plant held {self.reached:,} {store} "
+                    f"{where} (each store of a run may hold at most run.max_segments items); check the branching "
+                    "and emergence parameters (interbranch_distance_cm, roots_per_event), or raise run.max_segments")
+        super().__init__(text)
 
 
 class FormatError(RootsimError, ValueError):

@@ -391,6 +391,8 @@ def _with_stand(box: np.ndarray, layout: dict | None, *, view: str) -> np.ndarra
 STAND_COLOUR = "black"
 #: Diameter of a plant marker at 1200 x 900 pixels.
 PLANT_MARKER_PX = 14.0
+#: Smallest diameter of a plant marker, pixels (small pictures keep visible markers).
+MIN_PLANT_MARKER_PX = 8.0
 
 
 def _add_stand(plotter, layout: dict | None, *, view: str, scale: float, y_range: tuple[float, float]) -> None:
@@ -432,7 +434,7 @@ def _add_stand(plotter, layout: dict | None, *, view: str, scale: float, y_range
     if len(positions):
         points = positions.copy()
         points[:, 2] = 0.1  # on top of the surface plane and the roots below it
-        plotter.add_points(points, color=STAND_COLOUR, point_size=PLANT_MARKER_PX * scale,
+        plotter.add_points(points, color=STAND_COLOUR, point_size=max(MIN_PLANT_MARKER_PX, PLANT_MARKER_PX * scale),
                            render_points_as_spheres=True, lighting=False)
 
 

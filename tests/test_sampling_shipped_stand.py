@@ -57,7 +57,9 @@ def test_tube_under_reads_the_topsoil_and_over_reads_depth_with_gap_and_wall_gro
     # Plant Soil 161:225-232; Vos & Groenwold 1987; from memory), from poor tube-soil contact near the surface
     # and roots growing along the tube deeper down. A 0.1 cm gap to 30 cm and 10 % wall growth below it:
     # the gap can only remove image length and wall growth only add it, so the same tubes read lower in the
-    # topsoil and higher below; with them the topsoil ratio is below the ratio at 30-90 cm.
+    # topsoil and higher below; with them the topsoil ratio is below the ratio at 60-90 cm. (The 30-60 cm band of a
+    # 45-degree tube starting beside the row lies 30-60 cm away from it, under the inter-row, where the RLD at that
+    # depth is below the stand mean whatever the method: that band reads low by position, so it is not compared.)
     tubes = [Tube(x_cm=0, y_cm=y, angle_from_vertical_deg=45, length_cm=130, outer_diameter_cm=5.6,
                   depth_of_field_cm=0.2, window_cm=5) for y in (-5.0, 5.0)]
     field = [dataclasses.replace(t, gap_cm=0.1, gap_depth_cm=30, wall_growth_fraction=0.1) for t in tubes]
@@ -67,4 +69,4 @@ def test_tube_under_reads_the_topsoil_and_over_reads_depth_with_gap_and_wall_gro
     biased = field_table.set_index("depth_top_cm")["ratio_mean"]
     assert biased.loc[0.0] < clean.loc[0.0]
     assert biased.loc[30.0] > clean.loc[30.0] and biased.loc[60.0] > clean.loc[60.0]
-    assert biased.loc[0.0] < min(biased.loc[30.0], biased.loc[60.0])
+    assert biased.loc[0.0] < biased.loc[60.0]

@@ -212,9 +212,11 @@ def test_bad_soil_input_gives_one_error_line_and_exit_2(tmp_path, capsys, soil_t
 
 
 def test_compiled_layers_match_the_growth_engines_layer_rule():
-    # independent implementation: rootsim.growth.soil.SoilField (the engine's layers, searchsorted) must give the
-    # same resistance, hence the same elongation factor 2^(-R / R_half), as the compiled field kernel
-    from rootsim.growth.soil import SoilField
+    # independent implementation: the growth engine's own layer look-up (rootsim.growth.soil: interval table and
+    # elongation_factor) must give the same resistance, hence the same elongation factor 2^(-R / R_half), as the
+    # compiled field kernel
+    from rootsim.growth.soil import elongation_factor as engine_factor
+    from rootsim.growth.soil import soil_arrays
     from rootsim.soil.build import soil_fields_from_spec
     from rootsim.soil.strength import EXPONENTIAL, elongation_factor_kernel
 
@@ -225,9 +227,10 @@ def test_compiled_layers_match_the_growth_engines_layer_rule():
     fields = soil_fields_from_spec(spec)
     depth = np.concatenate([RNG.uniform(-1, 120, 3000), [0, 5, 20, 35, 50, 90, 4.999999, 35.000001]])
     resistance = fields.values("penetration_resistance_mpa", 0.0, 0.0, -depth)
-    engine = SoilField(spec.soil)
+    bottoms, engine_table, _, _ = soil_arrays(spec.soil)
     factor = [elongation_factor_kernel(r, EXPONENTIAL, 1.5, 1.0) for r in resistance]
-    np.testing.assert_allclose(factor, engine.elongation_factor(depth), rtol=1e-14)
+    engine = [engine_factor(bottoms, engine_table, 0.0, 0.0, -d) for d in depth]
+    np.testing.assert_allclose(factor, engine, rtol=1e-14)
 
 
 def test_layers_and_an_npy_cell_grid_in_parameter_files_agree(tmp_path):

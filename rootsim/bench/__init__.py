@@ -1,5 +1,9 @@
 """``rootsim bench``: throughputs of each stage next to a simple floor measured in the same run.
 
+Every time is CPU time of this process (:func:`time.process_time`), the median of repeated runs, so
+other work sharing the machine slows the wall clock but not the figures. A floor is the best simple
+way to do the same job with numpy (named in each entry).
+
 The growth stage (:mod:`rootsim.bench.growth`) grows a stand of at least one million segments.
 Every other module in this package that defines ``NAME``, ``ORDER`` and
 ``run(system, *, workdir) -> dict[str, dict]`` adds entries measured on that stand.
@@ -10,15 +14,20 @@ from __future__ import annotations
 
 import importlib
 import pkgutil
+import statistics
 import tempfile
 import time
 
-__all__ = ["make_entry", "run_bench", "stage_names", "timed"]
+__all__ = ["make_entry", "run_bench", "stage_names", "timed", "TIMING"]
+
+#: How every time in the bench is measured (stated in each entry).
+TIMING = "CPU seconds of this process (time.process_time), median of the repeats"
 
 
 def make_entry(*, segments: int, seconds: float, floor_seconds: float, floor: str, **extra) -> dict:
     """One benchmark entry: work size, time, the floor's time and their ratio."""
     entry = {
+        "timing": TIMING,
         "segments": int(segments),
         "seconds": float(seconds),
         "floor_seconds": float(floor_seconds),
@@ -30,15 +39,20 @@ def make_entry(*, segments: int, seconds: float, floor_seconds: float, floor: st
     return entry
 
 
-def timed(fn, *args, repeat: int = 1, **kwargs):
-    """Run ``fn`` ``repeat`` times; return (best seconds, last result)."""
-    best = float("inf")
+def timed(fn, *args, repeat: int = 3, **kwargs):
+    """Run ``fn`` ``repeat`` times; return (median CPU seconds, last result).
+
+    CPU time (:func:`time.process_time`) counts this process's work only, whatever else runs on the
+    machine; the median of the repeats discards a slow first run (caches, page faults) or an odd one.
+    """
+    times = []
     result = None
     for _ in range(max(1, repeat)):
-        t = time.perf_counter()
+        result = None  # release the previous result before the next run
+        t = time.process_time()
         result = fn(*args, **kwargs)
-        best = min(best, time.perf_counter() - t)
-    return best, result
+        times.append(time.process_time() - t)
+    return statistics.median(times), result
 
 
 def _stage_modules():

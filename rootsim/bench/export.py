@@ -8,8 +8,10 @@ vtk_export
     connectivity, offsets, every point and cell array), in the same run.
 mesh_export
     :func:`rootsim.formats.mesh.write_mesh` to binary STL with the decimation a large stand
-    calls for (``sides`` and ``merge_short_cm`` stated in the entry). Floor: ``numpy.save`` of
-    the mesh's vertex and face arrays.
+    calls for (``sides`` and ``merge_short_cm`` stated in the entry). Floor: building tube vertex
+    and face arrays of the same size with numpy (a ring of ``sides`` vertices around both ends of
+    as many segments as the mesh has tube segments, frames from each segment's direction, the
+    side triangles) plus ``numpy.save`` of both.
 mesh_export_full
     The same without decimation (8 sides, every segment its own piece), to binary PLY.
 """
@@ -55,6 +57,37 @@ def _polydata_arrays(system) -> list[np.ndarray]:
     return arrays
 
 
+def numpy_tube_arrays(system, n_segments: int, sides: int) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices (2 sides n, 3) and side faces (2 sides n, 3) of open tubes around the first ``n_segments``
+    segments: a ring of ``sides`` vertices at each end, in the plane across the segment."""
+    start = np.stack([system["x0"][:n_segments], system["y0"][:n_segments], system["z0"][:n_segments]], axis=1)
+    end = np.stack([system["x1"][:n_segments], system["y1"][:n_segments], system["z1"][:n_segments]], axis=1)
+    radius = np.asarray(system["radius_cm"][:n_segments], dtype=np.float64)
+    axis = end - start
+    axis /= np.maximum(np.linalg.norm(axis, axis=1), 1e-12)[:, None]
+    side = np.cross(axis, [0.0, 0.0, 1.0])
+    flat = np.linalg.norm(side, axis=1) < 1e-9
+    side[flat] = [1.0, 0.0, 0.0]
+    side /= np.linalg.norm(side, axis=1)[:, None]
+    other = np.cross(axis, side)
+    angle = 2 * np.pi * np.arange(sides) / sides
+    ring = (np.cos(angle)[None, :, None] * side[:, None, :] + np.sin(angle)[None, :, None] * other[:, None, :]) \
+        * radius[:, None, None]
+    vertices = np.concatenate([start[:, None, :] + ring, end[:, None, :] + ring], axis=1).reshape(-1, 3)
+    base = (2 * sides * np.arange(len(start)))[:, None]
+    k = np.arange(sides)
+    a, b = base + k, base + (k + 1) % sides
+    c, d = a + sides, b + sides
+    faces = np.concatenate([np.stack([a, b, d], axis=-1), np.stack([a, d, c], axis=-1)], axis=1).reshape(-1, 3)
+    return vertices, faces
+
+
+def _build_and_save_tubes(system, n_segments: int, sides: int, directory: Path) -> int:
+    vertices, faces = numpy_tube_arrays(system, n_segments, sides)
+    _save_all([vertices, faces], directory)
+    return len(faces)
+
+
 def _mesh_entry(system, workdir: Path, *, options: dict, suffix: str, repeat: int) -> dict:
     from ..formats.mesh import tube_mesh_arrays, write_mesh
 
@@ -63,11 +96,14 @@ def _mesh_entry(system, workdir: Path, *, options: dict, suffix: str, repeat: in
     size = os.path.getsize(target)
     target.unlink()
     arrays = tube_mesh_arrays(system, **options)
-    floor, _ = timed(_save_all, [arrays.vertices, arrays.faces], workdir, repeat=repeat)
+    n_tube = min(int(arrays.n_edges), len(system["x0"]))
+    floor, floor_faces = timed(_build_and_save_tubes, system, n_tube, options["sides"], workdir, repeat=repeat)
     _remove(workdir, "floor_*.npy")
     return make_entry(
         segments=len(system["x0"]), seconds=seconds, floor_seconds=floor,
-        floor="numpy.save of the mesh's vertex (float64) and face (int64) arrays, same run",
+        floor="numpy: rings of the same sides around both ends of as many segments as the mesh has tube "
+              "segments, side triangles, numpy.save of vertices and faces",
+        floor_faces=int(floor_faces),
         format=suffix[1:], sides=options["sides"], merge_short_cm=options["merge_short_cm"],
         faces=int(len(arrays.faces)), vertices=int(len(arrays.vertices)), tube_pieces=int(arrays.n_pieces),
         tube_segments=int(arrays.n_edges), file_bytes=int(size),

@@ -1,13 +1,16 @@
-"""Growth benchmark: a stand of at least one million segments against a random-walk floor."""
+"""Growth benchmark: a stand of at least one million segments against a random-walk floor.
+
+Besides CPU time, the entry reports memory per segment two ways: ``bytes_per_segment`` is the peak of
+the memory traced by :mod:`tracemalloc` while growing (numpy's and the compiled step's arrays, counted
+when allocated) and ``peak_resident_bytes_per_segment`` the peak resident memory added (pages touched);
+and ``first_call_seconds``, what a fresh process pays on its first growth (numba's cache load).
+"""
 
 from __future__ import annotations
 
-import time
-import tracemalloc
-
 import numpy as np
 
-from . import make_entry
+from . import make_entry, timed
 
 NAME = "growth"
 
@@ -42,53 +45,99 @@ BENCH_SPEC = {
 }
 
 
-def random_walk_floor(n: int, *, seed: int = 0) -> float:
-    """Seconds numpy needs to draw ``n`` random unit steps and accumulate them into positions."""
+def random_walk_floor(n: int, *, seed: int = 0) -> None:
+    """Draw ``n`` random unit steps with numpy and accumulate them into positions (the growth floor)."""
     rng = np.random.default_rng(seed)
-    t = time.perf_counter()
     steps = rng.standard_normal((n, 3))
     steps /= np.sqrt(np.einsum("ij,ij->i", steps, steps))[:, None]
-    positions = np.cumsum(steps, axis=0)
-    elapsed = time.perf_counter() - t
-    del steps, positions
-    return elapsed
+    np.cumsum(steps, axis=0)
+
+
+def _status_bytes(key: str) -> int | None:
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith(key + ":"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        return None
+    return None
+
+
+def peak_resident_bytes(fn, *args, **kwargs):
+    """Peak resident memory added while ``fn`` runs (Linux: the high-water mark reset through
+    ``/proc/self/clear_refs``), and its result; None where the platform cannot tell."""
+    import gc
+
+    gc.collect()
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")  # reset the peak resident set size to the current one (Linux >= 4.0)
+    except OSError:
+        return None, fn(*args, **kwargs)
+    before = _status_bytes("VmRSS")
+    result = fn(*args, **kwargs)
+    peak = _status_bytes("VmHWM")
+    return (None if before is None or peak is None else peak - before), result
+
+
+def first_call_seconds() -> float | None:
+    """CPU seconds a fresh Python process spends on its first :func:`rootsim.grow` (a one-plant, one-day
+    spec) beyond the second call: loading the compiled step from numba's cache (or compiling it)."""
+    import subprocess
+    import sys
+
+    code = (
+        "import time\n"
+        "from rootsim.spec import parse_spec\n"
+        "from rootsim.growth import grow\n"
+        "spec = parse_spec({'run': {'duration_days': 1}, 'emergence': [{'root_class': 'a'}], "
+        "'root_classes': {'a': {'branches': [{'root_class': 'b'}]}, 'b': {}}}, source='<bench>')\n"
+        "t = time.process_time(); grow(spec, progress=False); first = time.process_time() - t\n"
+        "t = time.process_time(); grow(spec, progress=False); second = time.process_time() - t\n"
+        "print(first - second)\n"
+    )
+    try:
+        out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=600, check=True)
+        return float(out.stdout.strip().splitlines()[-1])
+    except (subprocess.SubprocessError, OSError, ValueError, IndexError):
+        return None
 
 
 def run_growth(*, segments: int = 1_000_000, seed: int = 0):
     """Grow the bench stand (enlarged until it has ``segments``); return ({"growth": entry}, system)."""
+    import tracemalloc
+
     from ..growth import grow
+    from ..growth.engine import MEMORY_BYTES_PER_BUDGET_SEGMENT
     from ..spec import parse_spec
 
+    first_call = first_call_seconds()  # before this process compiles or loads anything
     data = {**BENCH_SPEC, "run": {**BENCH_SPEC["run"], "seed": seed}}
     plants = data["stand"]["plants_per_row"]
     while True:
         data["stand"] = {**data["stand"], "plants_per_row": plants}
         spec = parse_spec(data, source="<bench>")
-        t = time.perf_counter()
         system = grow(spec, progress=False)
-        seconds = time.perf_counter() - t
         if len(system) >= segments:
             break
         plants = int(np.ceil(plants * segments / max(len(system), 1) * 1.05))
     n = len(system)
-    floor = min(random_walk_floor(n, seed=k) for k in range(3))
-    seconds = min(seconds, _timed_grow(spec))
     del system
+    seconds, _ = timed(grow, spec, progress=False, repeat=3)
+    floor, _ = timed(random_walk_floor, n, repeat=5)
+    resident, _ = peak_resident_bytes(grow, spec, progress=False)
     tracemalloc.start()
     base = tracemalloc.get_traced_memory()[0]
     system = grow(spec, progress=False)
-    peak = tracemalloc.get_traced_memory()[1] - base
+    traced = tracemalloc.get_traced_memory()[1] - base
     tracemalloc.stop()
     entry = make_entry(segments=n, seconds=seconds, floor_seconds=floor,
-                       floor="numpy: draw the same number of random unit steps and cumsum them into positions",
-                       bytes_per_segment=peak / n, plants=spec.stand.n_plants, days=spec.run.duration_days,
+                       floor="numpy: draw as many random unit steps and cumsum them into positions",
+                       bytes_per_segment=traced / n,
+                       peak_resident_bytes_per_segment=None if resident is None else resident / n,
+                       budget_bound_bytes_per_segment=MEMORY_BYTES_PER_BUDGET_SEGMENT,
+                       first_call_seconds=first_call,
+                       plants=spec.stand.n_plants, days=spec.run.duration_days,
                        time_step_days=spec.run.time_step_days)
     return {"growth": entry}, system
-
-
-def _timed_grow(spec) -> float:
-    from ..growth import grow
-
-    t = time.perf_counter()
-    grow(spec, progress=False)
-    return time.perf_counter() - t

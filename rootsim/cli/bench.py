@@ -10,8 +10,10 @@ ORDER = 90
 HELP = "benchmark growth, profiles, sampling and exports against simple numpy floors"
 DESCRIPTION = """\
 Grow a stand of at least --segments segments, then time each later stage (profiles, core sampling,
-exports) on it. Each stage is reported next to a floor measured in the same run (for growth: numpy
-drawing the same number of random unit steps and summing them into positions), as a ratio.
+exports) on it. Each stage is reported next to a floor measured in the same run (the best simple numpy
+way to do the same job; for growth: numpy drawing the same number of random unit steps and summing them
+into positions), as a ratio. Times are CPU seconds of the process (time.process_time), medians of
+repeated runs, so other work on the machine does not inflate them.
 
 examples:
   rootsim bench
@@ -44,10 +46,14 @@ def run(args) -> int:
     if args.json:
         print(json.dumps(results, indent=2))
         return 0
+    from ..bench import TIMING
+
+    print(f"times: {TIMING}")
     print(f"{'stage':<16}{'segments':>12}{'seconds':>10}{'floor s':>10}{'ratio':>8}  extra")
     for name, e in results.items():
         extra = ", ".join(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}" for k, v in e.items()
-                          if k not in ("segments", "seconds", "floor_seconds", "ratio_to_floor", "floor", "segments_per_second"))
+                          if k not in ("segments", "seconds", "floor_seconds", "ratio_to_floor", "floor", "segments_per_second",
+                                        "timing"))
         print(f"{name:<16}{e['segments']:>12,}{e['seconds']:>10.3f}{e['floor_seconds']:>10.3f}{e['ratio_to_floor']:>8.2f}  {extra}")
         print(f"{'':<16}floor: {e['floor']}")
     return 0

@@ -1,13 +1,11 @@
-"""Per-class parameter tables and vectorized per-root draws."""
+"""Per-class parameter tables of a spec, as arrays for the compiled growth step."""
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
-from ..distributions import Fixed
 from ..spec import PARAMETER_RANGES, Spec
+from .draws import parameter_tables
 
 __all__ = ["ClassTable", "PARAM_NAMES"]
 
@@ -35,40 +33,5 @@ class ClassTable:
             self.branch_cumulative_probability[i, : len(cum)] = cum
             self.branch_class[i, : len(cum)] = [self.index[b.root_class] for b in c.branches]
         self.any_branching = bool((self.branch_class >= 0).any())
-
-    def draw(self, class_code: np.ndarray, uniforms: np.ndarray) -> dict[str, np.ndarray]:
-        """Per-root parameter values.
-
-        Parameters
-        ----------
-        class_code : ndarray of int, shape (n,)
-        uniforms : ndarray, shape (n, len(PARAM_NAMES))
-            Independent U(0, 1) draws, one column per parameter.
-
-        Returns
-        -------
-        dict of str to ndarray, shape (n,)
-            Values in the units of the parameter names; ``lifespan_days`` is inf where absent.
-        """
-        n = len(class_code)
-        out = {name: np.empty(n) for name in PARAM_NAMES}
-        for code in np.unique(class_code):
-            mask = class_code == code
-            rc = self.classes[code]
-            for j, name in enumerate(PARAM_NAMES):
-                dist = getattr(rc, name)
-                if dist is None:
-                    out[name][mask] = math.inf
-                elif isinstance(dist, Fixed):
-                    out[name][mask] = dist.value
-                else:
-                    out[name][mask] = dist.from_uniform(uniforms[mask, j], PARAMETER_RANGES[name])
-        return out
-
-    def draw_one(self, name: str, class_code: np.ndarray, uniforms: np.ndarray) -> np.ndarray:
-        """Values of one parameter, shape (n,), from uniforms of shape (n,)."""
-        out = np.empty(len(class_code))
-        for code in np.unique(class_code):
-            mask = class_code == code
-            out[mask] = getattr(self.classes[code], name).from_uniform(uniforms[mask], PARAMETER_RANGES[name])
-        return out
+        # Per-root parameter draws (rootsim.growth.draws): kind and numbers of every (class, parameter).
+        self.parameter_kind, self.parameter_values = parameter_tables(classes, PARAM_NAMES)

@@ -1,6 +1,16 @@
-"""Soil impedance, deflection by strong layers, the soil surface and container walls.
+"""Soil look-ups of the compiled growth step: impedance, deflection by strong layers, surface and walls.
 
-Positions and directions are arrays of shape (3, n); depth is -z.
+Every look-up the step makes goes through the compiled functions of this module, which take plain
+arrays built once per run by :func:`soil_arrays` and :func:`container_box`:
+
+* :func:`elongation_factor` – multiplier of elongation at a point,
+* :func:`deflect` – turn a direction that would enter a strong layer at a shallow angle,
+* :func:`constrain` – keep a step inside the soil and the container (slide along the boundary),
+* :func:`clamp` – move a point into the soil volume.
+
+Today the soil is a stack of depth layers; a 3D field (or biopores, or gradient tropisms) replaces
+the bodies of these functions and the arrays they take, not the step. Positions are (x, y, z) in cm,
+z up, soil surface at z = 0; depth is -z.
 """
 
 from __future__ import annotations
@@ -8,273 +18,287 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from numba import njit
 
 from ..spec import Container, Soil
+from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
-__all__ = ["SoilField", "ContainerWalls"]
+__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "constrain", "clamp", "contains"]
+
+#: Container kinds in :func:`container_box` (its element 0).
+FIELD, POT, RHIZOBOX = 0, 1, 2
+_TOLERANCE_CM = 1e-9
 
 
-class SoilField:
-    """Penetration resistance by depth and the elongation factor it implies.
+def soil_arrays(soil: Soil):
+    """Arrays describing the layered soil for the compiled look-ups.
 
     The elongation factor is ``2 ** (-R / R_half)`` (exponential decline of elongation with
-    penetration resistance, common practice; Bengough et al. 2011, J. Exp. Bot. 62:59-68,
+    penetration resistance R, common practice; Bengough et al. 2011, J. Exp. Bot. 62:59-68,
     doi:10.1093/jxb/erq350). Depths outside every layer have R = 0.
+
+    Returns
+    -------
+    interval_bottoms_cm : ndarray, shape (k,)
+        Interval i of depth is [bottoms[i-1], bottoms[i]) (interval 0 starts at the surface).
+    factor : ndarray, shape (k + 1,)
+        Elongation factor of each interval (the last one extends below the deepest layer).
+    deflecting_tops_cm : ndarray, shape (m,)
+        Depths of the tops of layers at or above the deflection threshold.
+    sin_max_incidence : float
+        Sine of the largest angle (from the horizontal) at which a tip is deflected.
     """
-
-    def __init__(self, soil: Soil):
-        self.soil = soil
-        layers = sorted(soil.layers, key=lambda l: l.depth_top_cm)
-        edges = [0.0]
-        resist = []
-        for layer in layers:
-            if layer.depth_top_cm > edges[-1]:
-                edges.append(layer.depth_top_cm)
-                resist.append(0.0)
-            elif layer.depth_top_cm < edges[-1]:  # touching layers: top equals previous bottom
-                edges[-1] = layer.depth_top_cm
-            edges.append(layer.depth_bottom_cm)
-            resist.append(layer.penetration_resistance_mpa)
-        resist.append(0.0)
-        self.edges_cm = np.asarray(edges[1:], dtype=np.float64)  # interval i is [edges[i-1], edges[i])
-        self.resistance_mpa = np.asarray(resist, dtype=np.float64)
-        factor = np.exp2(-self.resistance_mpa / soil.elongation_halving_resistance_mpa)
-        self.factor = factor
-        self.uniform = bool(np.all(factor == 1.0))
-        self.deflecting_tops_cm = np.asarray(
-            [l.depth_top_cm for l in layers if l.penetration_resistance_mpa >= soil.deflection_threshold_mpa and l.depth_top_cm > 0],
-            dtype=np.float64,
-        )
-        self.sin_max_incidence = math.sin(math.radians(soil.deflection_max_incidence_deg))
-
-    def elongation_factor(self, depth_cm: np.ndarray) -> np.ndarray:
-        """Multiplier of elongation, shape (n,), at the given depths (cm)."""
-        if self.uniform:
-            return np.ones_like(depth_cm)
-        # side="left": a tip lying exactly on a layer's top is still above it (as in :meth:`deflect`).
-        return self.factor[np.searchsorted(self.edges_cm, depth_cm, side="left")]
-
-    def deflect(self, start: np.ndarray, direction: np.ndarray, step_cm: np.ndarray) -> np.ndarray:
-        """Turn shallow-angled directions that would enter a strong layer to run along its top.
-
-        Parameters
-        ----------
-        start, direction : ndarray, shape (3, n)
-        step_cm : ndarray, shape (n,)
-
-        Returns
-        -------
-        ndarray, shape (3, n)
-            Directions, horizontal where deflected.
-        """
-        if self.deflecting_tops_cm.size == 0:
-            return direction
-        depth0 = -start[2]
-        depth1 = depth0 - direction[2] * step_cm
-        shallow = -direction[2] < self.sin_max_incidence
-        hit = np.zeros(depth0.shape, dtype=bool)
-        for top in self.deflecting_tops_cm:
-            hit |= (depth0 <= top) & (depth1 > top)
-        hit &= shallow
-        if not hit.any():
-            return direction
-        out = direction.copy()
-        horiz = np.hypot(out[0, hit], out[1, hit])
-        ok = horiz > 1e-12
-        out[0, hit] = np.where(ok, out[0, hit] / np.where(ok, horiz, 1.0), 1.0)
-        out[1, hit] = np.where(ok, out[1, hit] / np.where(ok, horiz, 1.0), 0.0)
-        out[2, hit] = 0.0
-        return out
+    layers = sorted(soil.layers, key=lambda layer: layer.depth_top_cm)
+    edges = [0.0]
+    resist = []
+    for layer in layers:
+        if layer.depth_top_cm > edges[-1]:
+            edges.append(layer.depth_top_cm)
+            resist.append(0.0)
+        elif layer.depth_top_cm < edges[-1]:  # touching layers: top equals previous bottom
+            edges[-1] = layer.depth_top_cm
+        edges.append(layer.depth_bottom_cm)
+        resist.append(layer.penetration_resistance_mpa)
+    resist.append(0.0)
+    bottoms = np.asarray(edges[1:], dtype=np.float64)
+    factor = np.exp2(-np.asarray(resist, dtype=np.float64) / soil.elongation_halving_resistance_mpa)
+    tops = np.asarray([layer.depth_top_cm for layer in layers
+                       if layer.penetration_resistance_mpa >= soil.deflection_threshold_mpa and layer.depth_top_cm > 0],
+                      dtype=np.float64)
+    return bottoms, factor, tops, math.sin(math.radians(soil.deflection_max_incidence_deg))
 
 
-class ContainerWalls:
-    """The soil surface (z = 0) and the walls of a pot or rhizobox: tips slide along them, never cross."""
+def container_box(container: Container) -> np.ndarray:
+    """``[kind, radius_cm, half_width_cm, half_thickness_cm, depth_cm]`` (depth inf for an open field)."""
+    kind = {"field": FIELD, "pot": POT, "rhizobox": RHIZOBOX}[container.kind]
+    depth = math.inf if container.depth_cm is None else container.depth_cm
+    return np.array([kind, (container.diameter_cm or 0.0) / 2.0, (container.width_cm or 0.0) / 2.0,
+                     (container.thickness_cm or 0.0) / 2.0, depth], dtype=np.float64)
 
-    def __init__(self, container: Container):
-        self.container = container
-        self.kind = container.kind
-        self.radius = (container.diameter_cm or 0.0) / 2.0
-        self.half_width = (container.width_cm or 0.0) / 2.0
-        self.half_thickness = (container.thickness_cm or 0.0) / 2.0
-        self.depth = container.depth_cm
 
-    def contains(self, points: np.ndarray, *, tolerance: float = 1e-9) -> np.ndarray:
-        """Boolean mask, shape (n,): points (3, n) inside the soil volume."""
-        x, y, z = points
-        ok = z <= tolerance
-        if self.depth is not None:
-            ok &= z >= -self.depth - tolerance
-        if self.kind == "pot":
-            ok &= np.hypot(x, y) <= self.radius + tolerance
-        elif self.kind == "rhizobox":
-            ok &= (np.abs(x) <= self.half_width + tolerance) & (np.abs(y) <= self.half_thickness + tolerance)
-        return ok
+@njit(**JIT_INLINE)
+def elongation_factor(interval_bottoms_cm, factor, x, y, z):
+    """Multiplier of elongation at the point (x, y, z).
 
-    def constrain(self, start: np.ndarray, direction: np.ndarray, step_cm: np.ndarray, fallback: np.ndarray):
-        """Project directions off the boundaries they would cross, then clamp the end points inside.
+    A tip lying exactly on a layer's top is still above it (as in :func:`deflect`).
+    """
+    depth = -z
+    i = 0
+    n = interval_bottoms_cm.size
+    while i < n and interval_bottoms_cm[i] < depth:
+        i += 1
+    return factor[i]
 
-        Parameters
-        ----------
-        start, direction : ndarray, shape (3, n)
-        step_cm : ndarray, shape (n,)
-        fallback : ndarray, shape (3, n)
-            Random vectors used when a direction has no component left along the boundary.
 
-        Returns
-        -------
-        end : ndarray, shape (3, n)
-        direction : ndarray, shape (3, n)
-            Unit directions after sliding along boundaries.
-        touched : ndarray of bool, shape (n,)
-        """
-        end = start + direction * step_cm
-        touched = ~self.contains(end)
-        if not touched.any():
-            return end, direction, touched
-        idx = np.flatnonzero(touched)
-        s0, step = start[:, idx], step_cm[idx]
-        d = direction[:, idx].copy()
-        # Land on every boundary crossed and slide along it: the component across a flat wall is cut to just
-        # reach the wall and the others take up the rest of the unit length, so the step keeps its length; a
-        # pot's curved wall is met at the full step length too. A corner may take a second or third pass
-        # (e.g. the surface, then a side wall).
-        pinned = np.zeros(d.shape, dtype=bool)  # components held so the step ends on a flat boundary
-        target = np.zeros(d.shape)
-        for _ in range(6):
-            e = s0 + d * step
-            out = ~self.contains(e)
-            if not out.any():
-                break
-            if self.kind == "pot":
-                d = self._land_on_pot_wall(s0, d, step, out & (np.hypot(e[0], e[1]) > self.radius))
-            planes = [(2, e[2] > 0, 0.0)]
-            if self.depth is not None:
-                planes.append((2, e[2] < -self.depth, -self.depth))
-            if self.kind == "rhizobox":
-                for axis, half in ((0, self.half_width), (1, self.half_thickness)):
-                    planes += [(axis, e[axis] > half, half), (axis, e[axis] < -half, -half)]
-            for axis, hit, plane in planes:
-                hit = hit & out
-                pinned[axis] |= hit
-                target[axis] = np.where(hit, np.clip((plane - s0[axis]) / step, -1.0, 1.0), target[axis])
-            rows = pinned.any(axis=0)
-            if rows.any():
-                d = _fill_free_components(d, pinned, target, rows, fallback[:, idx])
+@njit(**JIT_INLINE)
+def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm):
+    """Turn a shallow-angled direction that would enter a strong layer to run along its top.
+
+    Returns the direction (unchanged, or horizontal where deflected).
+    """
+    if deflecting_tops_cm.size == 0 or not (-dz < sin_max_incidence):
+        return dx, dy, dz
+    depth0 = -z
+    depth1 = depth0 - dz * step_cm
+    for top in deflecting_tops_cm:
+        if depth0 <= top and depth1 > top:
+            horiz = math.hypot(dx, dy)
+            if horiz > 1e-12:
+                return dx / horiz, dy / horiz, 0.0
+            return 1.0, 0.0, 0.0
+    return dx, dy, dz
+
+
+@njit(**JIT_INLINE)
+def contains(box, x, y, z):
+    """True if (x, y, z) lies inside the soil volume (within 1e-9 cm)."""
+    tol = _TOLERANCE_CM
+    if z > tol or z < -box[4] - tol:
+        return False
+    kind = box[0]
+    if kind == POT:
+        return math.hypot(x, y) <= box[1] + tol
+    if kind == RHIZOBOX:
+        return abs(x) <= box[2] + tol and abs(y) <= box[3] + tol
+    return True
+
+
+@njit(**JIT_BORROW)
+def clamp(box, x, y, z):
+    """The nearest point inside the soil volume."""
+    z = min(z, 0.0)
+    z = max(z, -box[4])
+    if box[0] == POT:
+        rad = math.hypot(x, y)
+        if rad > box[1]:
+            scale = box[1] * (1 - 1e-12) / rad
+            x *= scale
+            y *= scale
+    elif box[0] == RHIZOBOX:
+        x = min(max(x, -box[2]), box[2])
+        y = min(max(y, -box[3]), box[3])
+    return x, y, z
+
+
+@njit(**JIT_BORROW)
+def _snap(box, x, y, z):
+    """Put a point within 1e-9 cm of a flat boundary exactly on it (rounding of landings)."""
+    tol = _TOLERANCE_CM
+    if z > -tol:
+        z = 0.0
+    if abs(z + box[4]) < tol:
+        z = -box[4]
+    if box[0] == RHIZOBOX:
+        if abs(x - box[2]) < tol:
+            x = box[2]
+        if abs(x + box[2]) < tol:
+            x = -box[2]
+        if abs(y - box[3]) < tol:
+            y = box[3]
+        if abs(y + box[3]) < tol:
+            y = -box[3]
+    return x, y, z
+
+
+@njit(**JIT_BORROW)
+def _reflect_inward(box, ex, ey, ez, dx, dy, dz):
+    """Flip the components of d that point out through a boundary the end point e crosses."""
+    if ez > 0:
+        dz = -abs(dz)
+    if ez < -box[4]:
+        dz = abs(dz)
+    if box[0] == RHIZOBOX:
+        if ex > box[2]:
+            dx = -abs(dx)
+        if ex < -box[2]:
+            dx = abs(dx)
+        if ey > box[3]:
+            dy = -abs(dy)
+        if ey < -box[3]:
+            dy = abs(dy)
+    elif box[0] == POT:
+        rad = math.hypot(ex, ey)
+        if rad > box[1]:
+            nx = ex / rad if rad > 0 else 0.0
+            ny = ey / rad if rad > 0 else 0.0
+            outward = max(dx * nx + dy * ny, 0.0)
+            dx -= 2 * outward * nx
+            dy -= 2 * outward * ny
+    return dx, dy, dz
+
+
+@njit(**JIT)
+def _land_on_pot_wall(radius_cm, sx, sy, dx, dy, step_cm):
+    """Turn the horizontal part of d (same length) so the end point lies on the pot wall.
+
+    The horizontal displacement of length h = step |d_xy| from q = start_xy must end on the circle
+    |p| = R: p is an intersection of that circle with the circle |p - q| = h, the one nearest the
+    current heading. Where no intersection exists the direction is left to the clamp.
+    """
+    h = step_cm * math.hypot(dx, dy)
+    dq = math.hypot(sx, sy)
+    radius = radius_cm * (1 - 1e-12)
+    if not (dq > 1e-12 and h >= radius - dq and h <= radius + dq and h > 0):
+        return dx, dy
+    qx, qy = sx / dq, sy / dq
+    a = (dq * dq + radius * radius - h * h) / (2 * dq)
+    b = math.sqrt(max(radius * radius - a * a, 0.0))
+    p1x, p1y = a * qx - b * qy, a * qy + b * qx
+    p2x, p2y = a * qx + b * qy, a * qy - b * qx
+    ax, ay = sx + dx * step_cm, sy + dy * step_cm
+    if (p1x - ax) ** 2 + (p1y - ay) ** 2 <= (p2x - ax) ** 2 + (p2y - ay) ** 2:
+        return (p1x - sx) / step_cm, (p1y - sy) / step_cm
+    return (p2x - sx) / step_cm, (p2y - sy) / step_cm
+
+
+@njit(**JIT)
+def _fill_free_components(d, pinned, target, fallback):
+    """Pinned components of the unit direction ``d`` (3,) set to ``target``, the free ones scaled to fill
+    the unit length; where the free components vanish, the ``fallback`` vector supplies them (in place)."""
+    fixed2 = 0.0
+    free2 = 0.0
+    for a in range(3):
+        if pinned[a]:
+            fixed2 += target[a] * target[a]
         else:
-            # Pinned in a corner where no sliding direction keeps the full step: turn back into the soil
-            # off the boundaries still crossed.
-            d = self._reflect_inward(s0 + d * step, d)
-        # In a corner where every component is held (surface and two walls), the step that lands on the corner
-        # is shorter than the growth: the rest goes down (up from the bottom) along the walls' edge.
-        norm2 = np.einsum("ij,ij->j", d, d)
-        short = norm2 < 1.0 - 1e-12
-        if short.any():
-            vertical = np.sqrt(np.maximum(1.0 - d[0, short] ** 2 - d[1, short] ** 2, 0.0))
-            at_bottom = (self.depth is not None) & (s0[2, short] - vertical * step[short] < -self.depth)
-            d[2, short] = np.where(at_bottom, vertical, -vertical)
-        direction = direction.copy()
-        direction[:, idx] = d
-        end[:, idx] = self._snap(self.clamp(s0 + d * step))  # only rounding (or a step longer than the box) is left
-        return end, direction, touched
-
-    def _snap(self, points: np.ndarray, tolerance: float = 1e-9) -> np.ndarray:
-        """Put points (3, n) within ``tolerance`` cm of a flat boundary exactly on it (rounding of landings)."""
-        p = points
-        p[2] = np.where(p[2] > -tolerance, 0.0, p[2])
-        if self.depth is not None:
-            p[2] = np.where(np.abs(p[2] + self.depth) < tolerance, -self.depth, p[2])
-        if self.kind == "rhizobox":
-            for axis, half in ((0, self.half_width), (1, self.half_thickness)):
-                p[axis] = np.where(np.abs(p[axis] - half) < tolerance, half, p[axis])
-                p[axis] = np.where(np.abs(p[axis] + half) < tolerance, -half, p[axis])
-        return p
-
-    def _reflect_inward(self, end: np.ndarray, d: np.ndarray) -> np.ndarray:
-        """Flip the components of ``d`` (3, n) that point out through a boundary ``end`` (3, n) crosses."""
-        d = d.copy()
-        d[2] = np.where(end[2] > 0, -np.abs(d[2]), d[2])
-        if self.depth is not None:
-            d[2] = np.where(end[2] < -self.depth, np.abs(d[2]), d[2])
-        if self.kind == "rhizobox":
-            for axis, half in ((0, self.half_width), (1, self.half_thickness)):
-                d[axis] = np.where(end[axis] > half, -np.abs(d[axis]), d[axis])
-                d[axis] = np.where(end[axis] < -half, np.abs(d[axis]), d[axis])
-        elif self.kind == "pot":
-            rad = np.hypot(end[0], end[1])
-            out = rad > self.radius
-            nx = np.where(out, end[0] / np.where(rad > 0, rad, 1.0), 0.0)
-            ny = np.where(out, end[1] / np.where(rad > 0, rad, 1.0), 0.0)
-            outward = np.maximum(d[0] * nx + d[1] * ny, 0.0)
-            d[0] -= 2 * outward * nx
-            d[1] -= 2 * outward * ny
-        return d
-
-    def _land_on_pot_wall(self, start, d, step, mask):
-        """Turn the horizontal part of ``d`` (same length) so the end point lies on the pot wall.
-
-        The horizontal displacement of length h = step |d_xy| from q = start_xy must end on the circle
-        |p| = R: p is an intersection of that circle with the circle |p - q| = h, the one nearest the
-        current heading. Where no intersection exists (h > R + |q|) the direction is left to the clamp.
-        """
-        if not mask.any():
-            return d
-        k = np.flatnonzero(mask)
-        q = start[:2, k]
-        h = step[k] * np.hypot(d[0, k], d[1, k])
-        dq = np.hypot(q[0], q[1])
-        radius = self.radius * (1 - 1e-12)
-        ok = (dq > 1e-12) & (h >= radius - dq) & (h <= radius + dq) & (h > 0)
-        if not ok.any():
-            return d
-        k, q, h, dq = k[ok], q[:, ok], h[ok], dq[ok]
-        qhat = q / dq
-        perp = np.stack([-qhat[1], qhat[0]])
-        a = (dq * dq + radius * radius - h * h) / (2 * dq)
-        b = np.sqrt(np.maximum(radius * radius - a * a, 0.0))
-        p1 = a * qhat + b * perp
-        p2 = a * qhat - b * perp
-        aim = q + d[:2, k] * step[k]
-        pick = np.einsum("ij,ij->j", p1 - aim, p1 - aim) <= np.einsum("ij,ij->j", p2 - aim, p2 - aim)
-        p = np.where(pick, p1, p2)
-        d = d.copy()
-        d[:2, k] = (p - q) / step[k]
-        return d
-
-    def clamp(self, points: np.ndarray) -> np.ndarray:
-        """Move points (3, n) onto the nearest point inside the soil volume."""
-        p = points.copy()
-        p[2] = np.minimum(p[2], 0.0)
-        if self.depth is not None:
-            p[2] = np.maximum(p[2], -self.depth)
-        if self.kind == "pot":
-            rad = np.hypot(p[0], p[1])
-            scale = np.where(rad > self.radius, self.radius * (1 - 1e-12) / np.where(rad > 0, rad, 1.0), 1.0)
-            p[0] *= scale
-            p[1] *= scale
-        elif self.kind == "rhizobox":
-            p[0] = np.clip(p[0], -self.half_width, self.half_width)
-            p[1] = np.clip(p[1], -self.half_thickness, self.half_thickness)
-        return p
+            free2 += d[a] * d[a]
+    if math.sqrt(free2) < 1e-12:
+        free2 = 0.0
+        for a in range(3):
+            if not pinned[a]:
+                d[a] = fallback[a]
+                free2 += d[a] * d[a]
+    free_norm = math.sqrt(free2)
+    scale = math.sqrt(max(1.0 - fixed2, 0.0)) / (free_norm if free_norm > 0 else 1.0)
+    for a in range(3):
+        d[a] = target[a] if pinned[a] else d[a] * scale
 
 
+@njit(**JIT)
+def constrain(box, sx, sy, sz, dx, dy, dz, step_cm, fallback):
+    """Keep a step of ``step_cm`` from s along unit d inside the soil: land on every boundary it would
+    cross and slide along it at the full step length.
 
-def _fill_free_components(d, pinned, target, rows, fallback):
-    """Unit directions (3, n): pinned components set to ``target``, the free ones scaled to fill the length.
+    The component across a flat wall is cut to just reach the wall and the others take up the rest of the
+    unit length; a pot's curved wall is met at the full step length too; a corner may take a second or third
+    pass. Pinned in a corner with no sliding direction, the step turns back into the soil; where every
+    component is held (surface and two walls) the rest goes down (up from the bottom) along the walls' edge.
 
-    Used so that a step ends exactly on each flat boundary it would cross (the components across them) while
-    keeping its length (the components along them). Where the free components vanish, a random fallback
-    direction supplies them.
+    Parameters
+    ----------
+    box : ndarray, shape (5,)
+        From :func:`container_box`.
+    fallback : ndarray, shape (3,)
+        Random vector used when a direction has no component left along the boundary.
+
+    Returns
+    -------
+    ex, ey, ez, dx, dy, dz : float
+        End point and unit direction after sliding.
     """
-    d = d.copy()
-    k = np.flatnonzero(rows)
-    p = pinned[:, k]
-    fixed = np.where(p, target[:, k], 0.0)
-    free = np.where(p, 0.0, d[:, k])
-    free_norm = np.sqrt(np.einsum("ij,ij->j", free, free))
-    tiny = free_norm < 1e-12
-    if tiny.any():
-        free[:, tiny] = np.where(p[:, tiny], 0.0, fallback[:, k][:, tiny])
-        free_norm = np.sqrt(np.einsum("ij,ij->j", free, free))
-    want = np.sqrt(np.maximum(1.0 - np.einsum("ij,ij->j", fixed, fixed), 0.0))
-    d[:, k] = fixed + free * (want / np.where(free_norm > 0, free_norm, 1.0))
-    return d
+    ex, ey, ez = sx + dx * step_cm, sy + dy * step_cm, sz + dz * step_cm
+    if contains(box, ex, ey, ez):
+        return ex, ey, ez, dx, dy, dz
+    d = np.array([dx, dy, dz])
+    s = (sx, sy, sz)
+    pinned = np.zeros(3, dtype=np.bool_)
+    target = np.zeros(3)
+    escaped = True
+    for _ in range(6):
+        ex, ey, ez = sx + d[0] * step_cm, sy + d[1] * step_cm, sz + d[2] * step_cm
+        if contains(box, ex, ey, ez):
+            escaped = False
+            break
+        if box[0] == POT and math.hypot(ex, ey) > box[1]:
+            d[0], d[1] = _land_on_pot_wall(box[1], sx, sy, d[0], d[1], step_cm)
+        e = (ex, ey, ez)
+        hit = False
+        if ez > 0:
+            pinned[2] = True
+            target[2] = min(max((0.0 - sz) / step_cm, -1.0), 1.0)
+        if ez < -box[4]:
+            pinned[2] = True
+            target[2] = min(max((-box[4] - sz) / step_cm, -1.0), 1.0)
+        if box[0] == RHIZOBOX:
+            for axis in range(2):
+                half = box[2 + axis]
+                if e[axis] > half:
+                    pinned[axis] = True
+                    target[axis] = min(max((half - s[axis]) / step_cm, -1.0), 1.0)
+                if e[axis] < -half:
+                    pinned[axis] = True
+                    target[axis] = min(max((-half - s[axis]) / step_cm, -1.0), 1.0)
+        hit = pinned[0] or pinned[1] or pinned[2]
+        if hit:
+            _fill_free_components(d, pinned, target, fallback)
+    if escaped:
+        d[0], d[1], d[2] = _reflect_inward(box, sx + d[0] * step_cm, sy + d[1] * step_cm, sz + d[2] * step_cm,
+                                           d[0], d[1], d[2])
+    norm2 = d[0] * d[0] + d[1] * d[1] + d[2] * d[2]
+    if norm2 < 1.0 - 1e-12:
+        vertical = math.sqrt(max(1.0 - d[0] * d[0] - d[1] * d[1], 0.0))
+        at_bottom = sz - vertical * step_cm < -box[4]
+        d[2] = vertical if at_bottom else -vertical
+    ex, ey, ez = clamp(box, sx + d[0] * step_cm, sy + d[1] * step_cm, sz + d[2] * step_cm)
+    ex, ey, ez = _snap(box, ex, ey, ez)
+    return ex, ey, ez, d[0], d[1], d[2]

@@ -14,124 +14,211 @@ Exotropism pulls the heading back toward the root's initial heading by the same 
 plane of the two vectors. Random deviation is a step of spherical Brownian motion: a tangent
 Gaussian with per-axis standard deviation σ √Δs applied through the exponential map, so the
 heading variance grows with arc length, not with the number of steps.
+
+The maps are written once, as scalar functions compiled with numba (``njit``), and called per tip
+by the compiled growth step (:mod:`rootsim.growth.step`); the array functions below are thin loops
+over the same kernels for analysis and tests.
 """
 
 from __future__ import annotations
 
 import functools
+import math
 
 import numpy as np
+from numba import njit
 
 __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step", "random_deviation_step",
-           "heading_from_angles"]
+           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table"]
+
+#: Options of every compiled kernel: cached on disk; IEEE division (x/0 gives inf or nan, as in numpy).
+JIT = {"cache": True, "error_model": "numpy", "nogil": True}
+#: The same for small kernels called per tip: inlined into the caller (no call or array reference counting).
+JIT_INLINE = {**JIT, "inline": "always"}
+#: For kernels that read arrays and allocate nothing: no reference counting of their array arguments (a
+#: counted reference per call would cost more than the work itself).
+JIT_BORROW = {**JIT, "_nrt": False}
 
 
-def _tan_half_angle(sin_a, cos_a):
+# -- scalar kernels (compiled) ------------------------------------------------------------------
+
+@njit(**JIT_INLINE)
+def tan_half_angle(sin_a, cos_a):
     """tan(a/2) from sin a and cos a, well conditioned for every a: sin/(1 + cos) where cos >= 0, else
     (1 - cos)/sin; capped at ±1e150 at a = ±π (the unstable equilibrium of a sine law stays put, and its
     square stays finite)."""
-    upper = cos_a >= 0
-    num = np.where(upper, sin_a, 1.0 - cos_a)
-    den = np.where(upper, 1.0 + cos_a, sin_a)
-    tiny = np.abs(den) < 1e-150
-    den = np.where(tiny, np.where(np.signbit(den), -1e-150, 1e-150), den)
-    return np.clip(num / den, -1e150, 1e150)
+    if cos_a >= 0:
+        num = sin_a
+        den = 1.0 + cos_a
+    else:
+        num = 1.0 - cos_a
+        den = sin_a
+    if abs(den) < 1e-150:
+        den = -1e-150 if math.copysign(1.0, den) < 0 else 1e-150
+    return min(max(num / den, -1e150), 1e150)
 
 
-def combined_sine_law(gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad):
-    """Strength A (1/cm) and equilibrium angle φ (rad) of the combined vertical-plane sine law.
-
-    Parameters
-    ----------
-    gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad : array_like, shape (n,)
-
-    Returns
-    -------
-    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
-    """
-    a = np.asarray(gravitropism_per_cm, dtype=np.float64)
-    b = np.asarray(plagiotropism_per_cm, dtype=np.float64)
-    c = a + b * np.cos(preferred_angle_rad)
-    s = b * np.sin(preferred_angle_rad)
-    strength = np.hypot(c, s)
-    safe = np.where(strength > 0, strength, 1.0)
-    cos_phi = np.where(strength > 0, c / safe, 1.0)
-    sin_phi = np.where(strength > 0, s / safe, 0.0)
-    return strength, cos_phi, sin_phi
+@njit(**JIT)
+def combined_sine_law_scalar(gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad):
+    """Strength A (1/cm), cos φ and sin φ of the combined sine law -A sin(θ - φ) (see the module text)."""
+    c = gravitropism_per_cm + plagiotropism_per_cm * math.cos(preferred_angle_rad)
+    s = plagiotropism_per_cm * math.sin(preferred_angle_rad)
+    strength = math.hypot(c, s)
+    if strength > 0:
+        return strength, c / strength, s / strength
+    return strength, 1.0, 0.0
 
 
-def vertical_sine_law_step(heading, step_cm, strength_per_cm, cos_phi, sin_phi):
+@njit(**JIT_INLINE)
+def sine_law_turn(hx, hy, hz, step_cm, strength_per_cm, cos_phi, sin_phi):
     """Exact step of dθ/ds = -A sin(θ - φ) for the angle θ from the downward vertical; azimuth kept.
 
-    Parameters
-    ----------
-    heading : ndarray, shape (3, n)
-        Unit headings (modified copy returned).
-    step_cm : ndarray, shape (n,)
-        Arc length of the step.
-    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
-        From :func:`combined_sine_law`.
-
-    Returns
-    -------
-    ndarray, shape (3, n)
+    Returns the new unit heading (x, y, z). ψ = θ - φ is solved in the half-angle form
+    tan(ψ/2) -> tan(ψ/2) exp(-A s); tan(atan2/2) stays finite at the unstable equilibrium ψ = ±π.
     """
-    hx, hy, hz = heading
-    cos_t = np.clip(-hz, -1.0, 1.0)
-    horiz = np.hypot(hx, hy)
+    cos_t = min(max(-hz, -1.0), 1.0)
+    horiz = math.sqrt(hx * hx + hy * hy)  # components of a unit vector: no overflow to guard against
     sin_t = horiz
-    # ψ = θ - φ, solved in the half-angle form tan(ψ/2) -> tan(ψ/2) exp(-A s). tan(atan2/2) stays finite
-    # at the unstable equilibrium ψ = ±π (a root pointing straight up keeps pointing up until turned).
     cos_p = cos_t * cos_phi + sin_t * sin_phi
     sin_p = sin_t * cos_phi - cos_t * sin_phi
-    half = _tan_half_angle(sin_p, cos_p) * np.exp(-strength_per_cm * step_cm)
+    half = tan_half_angle(sin_p, cos_p) * math.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_p = (1.0 - h2) / (1.0 + h2)
     sin_p = 2.0 * half / (1.0 + h2)
     cos_new = cos_p * cos_phi - sin_p * sin_phi
-    sin_new = sin_p * cos_phi + cos_p * sin_phi
-    sin_new = np.maximum(sin_new, 0.0)
-    has_azimuth = horiz > 1e-12
-    scale = np.where(has_azimuth, sin_new / np.where(has_azimuth, horiz, 1.0), 0.0)
-    out = np.empty_like(heading)
-    out[0] = np.where(has_azimuth, hx * scale, sin_new)  # a vertical root bending away leans toward +x
-    out[1] = hy * scale
-    out[2] = -cos_new
-    return out
+    sin_new = max(sin_p * cos_phi + cos_p * sin_phi, 0.0)
+    if horiz > 1e-12:
+        scale = sin_new / horiz
+        return hx * scale, hy * scale, -cos_new
+    return sin_new, 0.0, -cos_new  # a vertical root bending away leans toward +x
 
 
-def toward_direction_step(heading, target, step_cm, strength_per_cm):
-    """Exact sine-law step rotating ``heading`` toward ``target`` in their common plane.
-
-    The angle β between them obeys dβ/ds = -k sin β: tan(β/2) -> tan(β/2) exp(-k s).
-
-    Parameters
-    ----------
-    heading, target : ndarray, shape (3, n)
-        Unit vectors.
-    step_cm, strength_per_cm : ndarray, shape (n,)
-    """
-    cos_b = np.clip(np.einsum("ij,ij->j", heading, target), -1.0, 1.0)
-    perp = heading - cos_b * target
-    sin_b = np.sqrt(np.einsum("ij,ij->j", perp, perp))
-    half = _tan_half_angle(sin_b, cos_b) * np.exp(-strength_per_cm * step_cm)
+@njit(**JIT_INLINE)
+def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
+    """Exact sine-law step rotating heading h toward target t in their common plane:
+    dβ/ds = -k sin β, tan(β/2) -> tan(β/2) exp(-k s). Returns the new heading (x, y, z)."""
+    cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
+    px = hx - cos_b * tx
+    py = hy - cos_b * ty
+    pz = hz - cos_b * tz
+    sin_b = math.sqrt(px * px + py * py + pz * pz)
+    if not sin_b > 1e-12:
+        return hx, hy, hz
+    half = tan_half_angle(sin_b, cos_b) * math.exp(-strength_per_cm * step_cm)
     h2 = half * half
     cos_n = (1.0 - h2) / (1.0 + h2)
     sin_n = 2.0 * half / (1.0 + h2)
-    ok = sin_b > 1e-12
-    unit_perp = perp / np.where(ok, sin_b, 1.0)
-    out = cos_n * target + sin_n * unit_perp
-    return np.where(ok, out, heading)
+    return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
+
+@njit(**JIT_BORROW)
+def tangent_variance_scalar(x, log_x_table, ratio_table):
+    """Per-axis variance τ of the tangent Gaussian for a spherical Brownian step of variance x = σ² Δs.
+
+    Series inversion of 1 - τ + τ²/3 - τ³/15 = exp(-x), τ = x - x²/6 - x³/90 + O(x⁴), below x = 0.05
+    (relative error under 1e-6); above, the table of :func:`tangent_variance_table` (τ/x against log x,
+    interpolated linearly, constant beyond its end).
+    """
+    if x < 0.05:
+        return x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
+    n = log_x_table.size
+    lx = math.log(x)
+    if lx >= log_x_table[n - 1]:
+        return x * ratio_table[n - 1]
+    if lx <= log_x_table[0]:
+        return x * ratio_table[0]
+    spacing = (log_x_table[n - 1] - log_x_table[0]) / (n - 1)
+    i = min(max(int((lx - log_x_table[0]) / spacing), 0), n - 2)
+    while i > 0 and log_x_table[i] > lx:
+        i -= 1
+    while i < n - 2 and log_x_table[i + 1] < lx:
+        i += 1
+    w = (lx - log_x_table[i]) / (log_x_table[i + 1] - log_x_table[i])
+    return x * (ratio_table[i] + w * (ratio_table[i + 1] - ratio_table[i]))
+
+
+@njit(**JIT_INLINE)
+def cos_and_sinc(angle):
+    """cos a and sin(a)/a for an angle a >= 0 (rad).
+
+    Up to a = 0.5 (the usual size of one step's Brownian turn) by their Taylor series to the a¹⁶ term, evaluated
+    by Horner's rule: the first omitted terms, a¹⁸/18! and a¹⁸/19!, are below 1e-21, under double precision
+    (common practice); beyond, from the library's sine and cosine.
+    """
+    if angle > 0.5:
+        return math.cos(angle), math.sin(angle) / angle
+    b = angle * angle
+    cos_a = 1.0 + b * (-1.0 / 2 + b * (1.0 / 24 + b * (-1.0 / 720 + b * (1.0 / 40320 + b * (
+        -1.0 / 3628800 + b * (1.0 / 479001600 + b * (-1.0 / 87178291200 + b / 20922789888000)))))))
+    sinc_a = 1.0 + b * (-1.0 / 6 + b * (1.0 / 120 + b * (-1.0 / 5040 + b * (1.0 / 362880 + b * (
+        -1.0 / 39916800 + b * (1.0 / 6227020800 + b * (-1.0 / 1307674368000 + b / 355687428096000)))))))
+    return cos_a, sinc_a
+
+
+@njit(**JIT_BORROW)
+def brownian_turn(hx, hy, hz, nx, ny, nz, step_cm, sigma_rad_per_sqrt_cm, log_x_table, ratio_table):
+    """Spherical Brownian step over ``step_cm``: rotate h by a tangent Gaussian (exponential map).
+
+    (nx, ny, nz) are independent standard normals; the tangent Gaussian's per-axis variance is
+    :func:`tangent_variance_scalar` of σ² Δs, so the mean cosine between the headings before and after is
+    exp(-σ² Δs) for any step, as for spherical Brownian motion with per-axis angular variance σ² per cm.
+    """
+    along = nx * hx + ny * hy + nz * hz
+    scale = math.sqrt(tangent_variance_scalar(sigma_rad_per_sqrt_cm * sigma_rad_per_sqrt_cm * step_cm,
+                                              log_x_table, ratio_table))
+    vx = (nx - along * hx) * scale
+    vy = (ny - along * hy) * scale
+    vz = (nz - along * hz) * scale
+    angle = math.sqrt(vx * vx + vy * vy + vz * vz)
+    c, sinc = cos_and_sinc(angle)
+    ox = c * hx + sinc * vx
+    oy = c * hy + sinc * vy
+    oz = c * hz + sinc * vz
+    norm = math.sqrt(ox * ox + oy * oy + oz * oz)
+    return ox / norm, oy / norm, oz / norm
+
+
+@njit(**JIT)
+def heading_from_angles_scalar(angle_from_vertical_rad, azimuth_rad):
+    """Unit heading (x, y, z) from the angle to the downward vertical and the azimuth."""
+    s = math.sin(angle_from_vertical_rad)
+    return s * math.cos(azimuth_rad), s * math.sin(azimuth_rad), -math.cos(angle_from_vertical_rad)
+
+
+@njit(**JIT)
+def lateral_heading_scalar(px, py, pz, insertion_angle_rad, azimuth_rad):
+    """Heading at ``insertion_angle_rad`` from the parent axis p, turned by ``azimuth_rad`` around it
+    (azimuth 0 points along the horizontal perpendicular to the parent, p × up)."""
+    e1x, e1y, e1z = py, -px, 0.0  # p × (0, 0, 1)
+    norm = math.sqrt(e1x * e1x + e1y * e1y)
+    if norm < 1e-9:
+        e1x, e1y, norm = 1.0, 0.0, 1.0
+    e1x /= norm
+    e1y /= norm
+    e2x = py * e1z - pz * e1y
+    e2y = pz * e1x - px * e1z
+    e2z = px * e1y - py * e1x
+    ca, sa = math.cos(azimuth_rad), math.sin(azimuth_rad)
+    ci, si = math.cos(insertion_angle_rad), math.sin(insertion_angle_rad)
+    return (ci * px + si * (ca * e1x + sa * e2x), ci * py + si * (ca * e1y + sa * e2y),
+            ci * pz + si * (ca * e1z + sa * e2z))
+
+
+# -- the Brownian step's variance table ----------------------------------------------------------
 
 @functools.lru_cache(maxsize=1)
-def _tangent_variance_table():
+def tangent_variance_table():
     """Per-axis variance τ of the tangent Gaussian whose exponential-map step has the mean cosine of
     spherical Brownian motion over the same arc: E[cos |v|] = exp(-x), x = σ² Δs.
 
     For a 2-D Gaussian of per-axis variance τ, |v| is Rayleigh and E[cos |v|] = 1 - sqrt(2τ) F(sqrt(τ/2))
     with F Dawson's integral (term-by-term from the series 1 - τ + τ²/3 - τ³/15 + ..., whose coefficients
-    are 1/(2n-1)!!). Inverting it gives τ = x - x²/6 + O(x³); tabulated as τ/x against x.
+    are 1/(2n-1)!!). Inverting it gives τ = x - x²/6 + O(x³); tabulated as τ/x against log x.
+
+    Returns
+    -------
+    log_x, ratio : ndarray, shape (3000,)
+        Evenly spaced log x (x from 0.01 to 20) and τ/x there.
     """
     from scipy.special import dawsn
 
@@ -148,6 +235,13 @@ def _tangent_variance_table():
     return np.log(x), ratio
 
 
+# -- array forms (loops over the kernels) ----------------------------------------------------------
+
+@njit(**JIT)
+def _tangent_variance_loop(x, log_x, ratio, out):
+    for j in range(x.size):
+        out[j] = tangent_variance_scalar(x[j], log_x, ratio)
+
 
 def tangent_variance(brownian_variance: np.ndarray) -> np.ndarray:
     """Per-axis variance of the tangent Gaussian for a spherical Brownian step of per-axis variance x = σ² Δs.
@@ -160,26 +254,100 @@ def tangent_variance(brownian_variance: np.ndarray) -> np.ndarray:
     Returns
     -------
     ndarray, shape (n,)
-        τ with E[cos |v|] = exp(-σ² Δs) for v ~ N(0, τ I₂) (see :func:`_tangent_variance_table`).
+        τ with E[cos |v|] = exp(-σ² Δs) for v ~ N(0, τ I₂) (see :func:`tangent_variance_table`).
     """
-    x = np.asarray(brownian_variance, dtype=np.float64)
-    # Series inversion of 1 - τ + τ²/3 - τ³/15 = exp(-x): τ = x - x²/6 - x³/90 + O(x⁴), used below x = 0.05
-    # (relative error under 1e-6); the table (interpolated in log x) above.
-    out = x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
-    big = np.flatnonzero(x >= 0.05)
-    if big.size:
-        log_x, ratio = _tangent_variance_table()
-        out[big] = x[big] * np.interp(np.log(x[big]), log_x, ratio, right=ratio[-1])
+    x = np.ascontiguousarray(brownian_variance, dtype=np.float64).ravel()
+    out = np.empty_like(x)
+    _tangent_variance_loop(x, *tangent_variance_table(), out)
+    return out.reshape(np.shape(brownian_variance))
+
+
+def combined_sine_law(gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad):
+    """Strength A (1/cm) and equilibrium angle φ (rad) of the combined vertical-plane sine law.
+
+    Parameters
+    ----------
+    gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad : array_like, shape (n,)
+
+    Returns
+    -------
+    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
+    """
+    a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in
+                                    (gravitropism_per_cm, plagiotropism_per_cm, preferred_angle_rad)))
+    out = np.array([combined_sine_law_scalar(*v) for v in zip(a.ravel(), b.ravel(), c.ravel())]).reshape(-1, 3)
+    return out[:, 0].reshape(a.shape), out[:, 1].reshape(a.shape), out[:, 2].reshape(a.shape)
+
+
+@njit(**JIT)
+def _sine_law_loop(heading, step_cm, strength, cos_phi, sin_phi, out):
+    for j in range(heading.shape[1]):
+        out[0, j], out[1, j], out[2, j] = sine_law_turn(heading[0, j], heading[1, j], heading[2, j], step_cm[j],
+                                                        strength[j], cos_phi[j], sin_phi[j])
+
+
+def vertical_sine_law_step(heading, step_cm, strength_per_cm, cos_phi, sin_phi):
+    """Exact step of dθ/ds = -A sin(θ - φ) for the angle θ from the downward vertical; azimuth kept.
+
+    Parameters
+    ----------
+    heading : ndarray, shape (3, n)
+        Unit headings (a new array is returned).
+    step_cm : ndarray, shape (n,)
+        Arc length of the step.
+    strength_per_cm, cos_phi, sin_phi : ndarray, shape (n,)
+        From :func:`combined_sine_law`.
+
+    Returns
+    -------
+    ndarray, shape (3, n)
+    """
+    h = np.ascontiguousarray(heading, dtype=np.float64)
+    n = h.shape[1]
+    args = [np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=np.float64)
+            for v in (step_cm, strength_per_cm, cos_phi, sin_phi)]
+    out = np.empty_like(h)
+    _sine_law_loop(h, *args, out)
     return out
 
 
-def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
-    """Spherical Brownian step over ``step_cm``: rotate by a tangent Gaussian (exponential map).
+@njit(**JIT)
+def _toward_loop(heading, target, step_cm, strength, out):
+    for j in range(heading.shape[1]):
+        out[0, j], out[1, j], out[2, j] = toward_direction_turn(heading[0, j], heading[1, j], heading[2, j],
+                                                                target[0, j], target[1, j], target[2, j],
+                                                                step_cm[j], strength[j])
 
-    The tangent Gaussian's per-axis variance is :func:`tangent_variance` of σ² Δs, so the mean cosine
-    between the headings before and after is exp(-σ² Δs) for any step, as for spherical Brownian motion
-    with per-axis angular variance σ² per cm (generator (σ²/2) Δ_S). Consecutive steps are independent
-    isotropic turns, so headings k steps apart have mean cosine exp(-σ² Σ Δs) as well.
+
+def toward_direction_step(heading, target, step_cm, strength_per_cm):
+    """Exact sine-law step rotating ``heading`` toward ``target`` in their common plane.
+
+    Parameters
+    ----------
+    heading, target : ndarray, shape (3, n)
+        Unit vectors.
+    step_cm, strength_per_cm : ndarray, shape (n,)
+    """
+    h = np.ascontiguousarray(heading, dtype=np.float64)
+    n = h.shape[1]
+    out = np.empty_like(h)
+    _toward_loop(h, np.ascontiguousarray(target, dtype=np.float64),
+                 *[np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=np.float64)
+                   for v in (step_cm, strength_per_cm)],
+                 out)
+    return out
+
+
+@njit(**JIT)
+def _brownian_loop(heading, normals, step_cm, sigma, log_x, ratio, out):
+    for j in range(heading.shape[1]):
+        out[0, j], out[1, j], out[2, j] = brownian_turn(heading[0, j], heading[1, j], heading[2, j], normals[0, j],
+                                                        normals[1, j], normals[2, j], step_cm[j], sigma[j],
+                                                        log_x, ratio)
+
+
+def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
+    """Spherical Brownian step over ``step_cm`` (see :func:`brownian_turn`).
 
     Parameters
     ----------
@@ -188,35 +356,26 @@ def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
         Independent standard normal draws.
     step_cm, sigma_rad_per_sqrt_cm : ndarray, shape (n,)
     """
-    along = np.einsum("ij,ij->j", normals, heading)
-    scale = np.sqrt(tangent_variance(sigma_rad_per_sqrt_cm * sigma_rad_per_sqrt_cm * step_cm))
-    tangent = (normals - along * heading) * scale
-    angle = np.sqrt(np.einsum("ij,ij->j", tangent, tangent))
-    ok = angle > 1e-15
-    sinc = np.where(ok, np.sin(angle) / np.where(ok, angle, 1.0), 1.0)
-    out = np.cos(angle) * heading + sinc * tangent
-    out /= np.sqrt(np.einsum("ij,ij->j", out, out))
+    h = np.ascontiguousarray(heading, dtype=np.float64)
+    n = h.shape[1]
+    out = np.empty_like(h)
+    _brownian_loop(h, np.ascontiguousarray(normals, dtype=np.float64),
+                   *[np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=np.float64)
+                     for v in (step_cm, sigma_rad_per_sqrt_cm)], *tangent_variance_table(), out)
     return out
 
 
 def heading_from_angles(angle_from_vertical_rad, azimuth_rad):
     """Unit headings, shape (3, n), from the angle to the downward vertical and the azimuth."""
-    s = np.sin(angle_from_vertical_rad)
-    return np.stack([s * np.cos(azimuth_rad), s * np.sin(azimuth_rad), -np.cos(angle_from_vertical_rad)])
+    a, z = np.broadcast_arrays(np.asarray(angle_from_vertical_rad, float), np.asarray(azimuth_rad, float))
+    return np.array([heading_from_angles_scalar(u, v) for u, v in zip(a.ravel(), z.ravel())]).reshape(-1, 3).T
 
 
 def lateral_heading(parent_direction, insertion_angle_rad, azimuth_rad):
-    """Headings, shape (3, n), at ``insertion_angle_rad`` from the parent axis, turned by ``azimuth_rad``
-    around it (azimuth 0 points along the horizontal perpendicular to the parent)."""
-    p = parent_direction
-    up = np.zeros_like(p)
-    up[2] = 1.0
-    e1 = np.cross(p, up, axis=0)
-    norm = np.sqrt(np.einsum("ij,ij->j", e1, e1))
-    vertical = norm < 1e-9
-    e1[:, vertical] = np.array([[1.0], [0.0], [0.0]])
-    norm = np.where(vertical, 1.0, norm)
-    e1 /= norm
-    e2 = np.cross(p, e1, axis=0)
-    radial = np.cos(azimuth_rad) * e1 + np.sin(azimuth_rad) * e2
-    return np.cos(insertion_angle_rad) * p + np.sin(insertion_angle_rad) * radial
+    """Headings, shape (3, n), at ``insertion_angle_rad`` from the parent axis (3, n), turned by
+    ``azimuth_rad`` around it (azimuth 0 points along the horizontal perpendicular to the parent)."""
+    p = np.asarray(parent_direction, dtype=np.float64)
+    n = p.shape[1]
+    ins, az = (np.broadcast_to(np.asarray(v, float), (n,)) for v in (insertion_angle_rad, azimuth_rad))
+    out = [lateral_heading_scalar(p[0, j], p[1, j], p[2, j], ins[j], az[j]) for j in range(n)]
+    return np.array(out).reshape(-1, 3).T

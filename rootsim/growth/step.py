@@ -1,0 +1,649 @@
+"""The compiled growth of one plant: every time step of a run in one call (numba ``njit``).
+
+One call of :func:`grow_plant` grows a plant from sowing to the end of the run with the plant's own
+:class:`numpy.random.Generator`: emergence events, elongation under soil impedance, headings (exact
+tropism maps and the exact Brownian step, :mod:`rootsim.growth.tropisms`), soil look-ups
+(:mod:`rootsim.growth.soil`), branch points, lateral activation, per-root parameter draws
+(:mod:`rootsim.growth.draws`) and the segment columns. A plant's roots depend on the spec, the seed and
+the plant's index alone.
+
+Stores and their limits (each a hard bound on memory; see :mod:`rootsim.growth.engine`):
+
+* segments: column chunks (``SEGMENT_FLOAT_FIELDS`` and ``SEGMENT_INT_FIELDS``), at most
+  ``segment_limit`` rows; a new chunk holds an eighth of the rows so far (at least 8 steps of every tip)
+  and is closed when it may not hold the next step, so at most 25 % is spare;
+* roots (one row per root, with its growing tip while it grows): at most ``root_limit``;
+* pending branch points (waiting for the parent's apical zone to pass): at most ``pending_limit``.
+
+Capacities double up to their limit; a run that would pass one stops with a status naming the store.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+from numba.typed import List
+
+from .classes import PARAM_NAMES
+from .draws import FIXED, draw_parameter
+from .soil import clamp, constrain, contains, deflect, elongation_factor
+from .tropisms import (
+    JIT,
+    JIT_BORROW,
+    JIT_INLINE,
+    brownian_turn,
+    combined_sine_law_scalar,
+    heading_from_angles_scalar,
+    lateral_heading_scalar,
+    sine_law_turn,
+    toward_direction_turn,
+)
+
+__all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS",
+           "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
+           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
+
+SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
+SEGMENT_INT_FIELDS = ("parent_local", "root_local")  # int64, int32
+STATUS_OK, STATUS_SEGMENTS, STATUS_ROOTS, STATUS_PENDING = 0, 1, 2, 3
+
+# Per-root parameter columns.
+P_RADIUS = PARAM_NAMES.index("radius_cm")
+P_INITIAL = PARAM_NAMES.index("initial_angle_from_vertical_deg")
+P_INSERTION = PARAM_NAMES.index("insertion_angle_deg")
+P_RATE = PARAM_NAMES.index("elongation_rate_cm_per_day")
+P_MAXLEN = PARAM_NAMES.index("max_length_cm")
+P_BASAL = PARAM_NAMES.index("basal_zone_cm")
+P_APICAL = PARAM_NAMES.index("apical_zone_cm")
+P_INTERBRANCH = PARAM_NAMES.index("interbranch_distance_cm")
+P_GRAVI = PARAM_NAMES.index("gravitropism_per_cm")
+P_PLAGIO = PARAM_NAMES.index("plagiotropism_per_cm")
+P_PREFERRED = PARAM_NAMES.index("preferred_angle_from_vertical_deg")
+P_EXO = PARAM_NAMES.index("exotropism_per_cm")
+P_TURNING = PARAM_NAMES.index("random_turning_deg_per_sqrt_cm")
+P_LIFESPAN = PARAM_NAMES.index("lifespan_days")
+N_PARAMS = len(PARAM_NAMES)
+
+# Growing tips: float fields.
+(T_X, T_Y, T_Z, T_HX, T_HY, T_HZ, T_H0X, T_H0Y, T_H0Z, T_LEN, T_MAXLEN, T_RATE, T_TROP, T_COSPHI, T_SINPHI,
+ T_EXO, T_SIGMA, T_APICAL, T_NEXT, T_CARRY, T_HALF) = range(21)
+TIP_NF = 21
+# Growing tips: int fields.
+T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE = range(6)
+TIP_NI = 6
+# Roots: float fields (length now and one step ago, the last step's time and rate, ...).
+R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
+ROOT_NF = 7
+ROOT_FLOAT_FIELDS = ("length_cm", "length_previous_cm", "last_step_days", "last_rate_cm_per_day", "max_length_cm",
+                     "death_day", "radius_cm")
+# Roots: int fields.
+R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD, R_QUEUE_HEAD, R_QUEUE_TAIL = range(7)
+ROOT_NI = 7
+ROOT_INT_FIELDS = ("class_code", "order", "parent_root", "growing", "dead", "first_pending", "last_pending")
+# Pending branch points: a pool of rows, each root's in a queue (thresholds increase along it), freed rows
+# in a free list.
+Q_X, Q_Y, Q_Z, Q_DX, Q_DY, Q_DZ, Q_THRESHOLD, Q_AZIMUTH_U = range(8)
+PEND_NF = 8
+Q_SEGMENT, Q_CLASS, Q_COUNT, Q_NEXT = range(4)
+PEND_NI = 4
+
+#: Bytes each store uses per item at full capacity (8-byte fields), for the memory bound.
+BYTES_PER_ITEM = {
+    "segments": 8 * len(SEGMENT_FLOAT_FIELDS) + 8 + 4,
+    "roots": 8 * (ROOT_NF + ROOT_NI + TIP_NF + TIP_NI),
+    "pending branch points": 8 * (PEND_NF + PEND_NI),
+}
+
+_FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
+_MIN_STEP_CM = 1e-9
+_FIRST_CHUNK = 4096
+
+
+@njit(**JIT)
+def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
+             day):
+    """The return value of a plant whose growth stopped at a store's limit."""
+    return (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:n_roots].copy(),
+            rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day)
+
+
+@njit(**JIT)
+def chunk_item(chunks, index):
+    """Chunk ``index`` of a list returned by :func:`grow_plant` (a compiled, cached accessor: reading numba's
+    typed lists from Python would compile helpers anew in every process)."""
+    return chunks[index]
+
+
+@njit(**JIT)
+def _resized(arr, n, capacity):
+    """A copy of ``arr`` with ``capacity`` rows holding its first ``n`` rows."""
+    new = np.empty((capacity, arr.shape[1]), dtype=arr.dtype)
+    new[:n] = arr[:n]
+    return new
+
+
+@njit(**JIT)
+def _room(arr, n, limit):
+    """``arr`` (rows = items) with room for item ``n`` (< limit): capacity doubled, at most ``limit``."""
+    if n < arr.shape[0]:
+        return arr
+    new = np.empty((min(max(2 * arr.shape[0], 16), limit), arr.shape[1]), dtype=arr.dtype)
+    new[:n] = arr[:n]
+    return new
+
+
+@njit(**JIT)
+def _draw_root_parameters(rng, kind, values, cls, out):
+    """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
+    for p in range(N_PARAMS):
+        if kind[cls, p] == FIXED:
+            out[p] = values[cls, p, 0]
+        else:
+            out[p] = draw_parameter(kind, values, cls, p, rng.random())
+
+
+@njit(**JIT)
+def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
+              params, birth, carry):
+    """Write root ``r`` and its growing tip (row ``j`` of the tip store)."""
+    rootf[r, R_LEN] = 0.0
+    rootf[r, R_PREV] = 0.0
+    rootf[r, R_DT] = 0.0
+    rootf[r, R_RATE] = 0.0
+    rootf[r, R_MAXLEN] = params[P_MAXLEN]
+    rootf[r, R_DEATH] = birth + params[P_LIFESPAN]
+    rootf[r, R_RADIUS] = params[P_RADIUS]
+    rooti[r, R_CLASS] = cls
+    rooti[r, R_ORDER] = order
+    rooti[r, R_PARENT] = parent_root
+    rooti[r, R_GROWING] = 1
+    rooti[r, R_DEAD] = 0
+    rooti[r, R_QUEUE_HEAD] = -1
+    rooti[r, R_QUEUE_TAIL] = -1
+    tipf[j, T_X] = x
+    tipf[j, T_Y] = y
+    tipf[j, T_Z] = z
+    tipf[j, T_HX] = hx
+    tipf[j, T_HY] = hy
+    tipf[j, T_HZ] = hz
+    tipf[j, T_H0X] = hx
+    tipf[j, T_H0Y] = hy
+    tipf[j, T_H0Z] = hz
+    tipf[j, T_LEN] = 0.0
+    tipf[j, T_MAXLEN] = params[P_MAXLEN]
+    tipf[j, T_RATE] = params[P_RATE]
+    if params[P_GRAVI] == 0 and params[P_PLAGIO] == 0:
+        strength, cos_phi, sin_phi = 0.0, 1.0, 0.0
+    else:
+        strength, cos_phi, sin_phi = combined_sine_law_scalar(params[P_GRAVI], params[P_PLAGIO],
+                                                              math.radians(params[P_PREFERRED]))
+    tipf[j, T_TROP] = strength
+    tipf[j, T_COSPHI] = cos_phi
+    tipf[j, T_SINPHI] = sin_phi
+    tipf[j, T_EXO] = params[P_EXO]
+    tipf[j, T_SIGMA] = math.radians(params[P_TURNING])
+    tipf[j, T_APICAL] = params[P_APICAL]
+    tipf[j, T_NEXT] = params[P_BASAL]
+    tipf[j, T_CARRY] = carry
+    tipf[j, T_HALF] = 0.0
+    tipi[j, T_ROOT] = r
+    tipi[j, T_CLASS] = cls
+    tipi[j, T_LAST] = parent_segment
+    tipi[j, T_COUNT] = 0
+    tipi[j, T_ORDER] = order
+    tipi[j, T_DONE] = 0
+
+
+@njit(**JIT_INLINE)
+def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropism, h0x, h0y, h0z):
+    """Half of a step's tropic turn: the combined vertical sine law, then exotropism toward h0."""
+    if strength > 0:
+        hx, hy, hz = sine_law_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi)
+    if exotropism > 0:
+        hx, hy, hz = toward_direction_turn(hx, hy, hz, h0x, h0y, h0z, half_arc, exotropism)
+    return hx, hy, hz
+
+
+@njit(**JIT_BORROW)
+def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
+    """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
+    its elongation law (exact for both laws when nothing slowed the step down), else by proportion."""
+    prev = rootf[pr, R_PREV]
+    new = rootf[pr, R_LEN]
+    grew = new - prev
+    if not grew > 0:
+        return 0.0
+    last_dt = rootf[pr, R_DT]
+    rate = rootf[pr, R_RATE]
+    max_len = rootf[pr, R_MAXLEN]
+    if law_negexp_parent:
+        ratio = (max_len - threshold) / (max_len - new)
+        after = max_len / rate * math.log(ratio) if ratio > 0 else math.nan
+    else:
+        after = (new - threshold) / rate
+    if not (math.isfinite(after) and rate > 0):
+        after = min(max((new - threshold) / grew, 0.0), 1.0) * last_dt
+    return min(max(after, 0.0), last_dt)
+
+
+@njit(**JIT)
+def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
+               kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
+               soil_bottoms, soil_factor, soil_tops, soil_sin_max, box, log_x_table, ratio_table,
+               duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit):
+    """Grow one plant over the whole run.
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        The plant's own stream (advanced in place).
+    seed_x, seed_y, seed_z : float
+        Seed position, cm.
+    event_day, event_class, event_count, event_depth, event_jitter_rad : ndarray, shape (n_events,)
+        Emergence events sorted by day: day, root class, roots per event, depth (cm), azimuth jitter.
+    kind, values : ndarray
+        Parameter tables (:func:`rootsim.growth.draws.parameter_tables`).
+    law_negexp, spiral, spiral_divergence_rad : ndarray, shape (n_classes,)
+    branch_cumulative, branch_class : ndarray, shape (n_classes, k)
+        Cumulative branch probabilities (2 beyond the last) and the child class of each (-1 none).
+    soil_bottoms, soil_factor, soil_tops, soil_sin_max, box
+        Soil and container (:func:`rootsim.growth.soil.soil_arrays`, :func:`~rootsim.growth.soil.container_box`).
+    log_x_table, ratio_table : ndarray
+        The Brownian step's variance table (:func:`rootsim.growth.tropisms.tangent_variance_table`).
+    duration, step_days : float
+    n_steps : int
+    has_lifespan : bool
+    segment_limit, root_limit, pending_limit : int
+        Most segments, roots and pending branch points this plant may hold.
+
+    Returns
+    -------
+    float_chunks, parent_chunks, root_chunks : list of ndarray
+        Segment columns in chunks: ``SEGMENT_FLOAT_FIELDS`` of chunk 0, then of chunk 1, ...; parents
+        (segment numbers within the plant, -1 none) and roots (root numbers within the plant) per chunk.
+    chunk_counts : ndarray of int64, shape (n_chunks,)
+        Rows used in each chunk (read the chunks with :func:`chunk_item`).
+    n_segments : int
+    root_float, root_int : ndarray, shapes (n_roots, ROOT_NF), (n_roots, ROOT_NI)
+    dead_at_end : ndarray of bool, shape (n_roots,)
+        Roots past their lifespan at the end of the run, or descended from such a root.
+    status, status_count : int
+        STATUS_OK, or the store that would pass its limit and the count it had reached.
+    status_day : float
+        Day the growth stopped at.
+    """
+    # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
+    float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
+    parent_chunks = List()
+    root_chunks = List()
+    chunk_counts = List()  # rows used in each chunk but the current one
+    chunk_counts.append(0)
+    chunk_counts.pop()
+    c_x0, c_y0, c_z0 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_x1, c_y1, c_z1 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_len, c_birth = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
+    c_parent = np.empty(_FIRST_CHUNK, dtype=np.int64)
+    c_root = np.empty(_FIRST_CHUNK, dtype=np.int32)
+    for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
+        float_chunks.append(column)
+    parent_chunks.append(c_parent)
+    root_chunks.append(c_root)
+    chunk_used = 0
+    n_seg = 0
+
+    tipf = np.empty((16, TIP_NF))
+    tipi = np.empty((16, TIP_NI), dtype=np.int64)
+    rootf = np.empty((16, ROOT_NF))
+    rooti = np.empty((16, ROOT_NI), dtype=np.int64)
+    pendf = np.empty((16, PEND_NF))
+    pendi = np.empty((16, PEND_NI), dtype=np.int64)
+    n_tips = 0
+    n_done = 0  # finished tips still in the table
+    n_roots = 0
+    n_pend = 0  # live pending branch points
+    n_pend_rows = 0  # rows of the pool ever used
+    free_row = -1  # first row of the free list
+    stepped = np.empty(16, dtype=np.int64)  # roots whose tips stepped this step, in tip order
+    params = np.empty(N_PARAMS)
+    fallback = np.empty(3)
+    n_events = event_day.size
+    n_branch_options = branch_class.shape[1]
+    min_interbranch = np.empty(kind.shape[0])  # shortest interbranch distance of each class (bounds the
+    for c in range(kind.shape[0]):  # branch points one step can pass)
+        row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
+        min_interbranch[c] = values[c, P_INTERBRANCH, row]
+    ev = 0
+    status = STATUS_OK
+    status_count = 0
+    status_day = 0.0
+    k = 0
+    while True:
+        if k < n_steps:
+            t0 = k * step_days
+            t1 = min((k + 1) * step_days, duration)
+        else:
+            # Laterals that emerged during the last step still have the rest of that step to grow.
+            if k >= n_steps + 64:
+                break
+            carrying = False
+            for j in range(n_tips):
+                if tipf[j, T_CARRY] > 0:
+                    carrying = True
+                    break
+            if not carrying:
+                break
+            t0 = duration
+            t1 = duration
+        k += 1
+        if 4 * n_done > n_tips:  # drop finished tips once they are a quarter of the table (order kept)
+            kept = 0
+            for j in range(n_tips):
+                if tipi[j, T_DONE] == 0:
+                    if kept != j:
+                        for field in range(TIP_NF):
+                            tipf[kept, field] = tipf[j, field]
+                        for field in range(TIP_NI):
+                            tipi[kept, field] = tipi[j, field]
+                    kept += 1
+            n_tips = kept
+            n_done = 0
+
+        # -- emergence -------------------------------------------------------------------------------
+        while ev < n_events and event_day[ev] < t1:
+            cls = event_class[ev]
+            count = event_count[ev]
+            whorl_turn = 2 * math.pi * rng.random()
+            for slot in range(count):
+                if n_roots >= root_limit:
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
+                jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
+                azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
+                _draw_root_parameters(rng, kind, values, cls, params)
+                hx, hy, hz = heading_from_angles_scalar(math.radians(params[P_INITIAL]), azimuth)
+                x, y, z = clamp(box, seed_x, seed_y, -event_depth[ev])
+                rootf = _room(rootf, n_roots, root_limit)
+                rooti = _room(rooti, n_roots, root_limit)
+                tipf = _room(tipf, n_tips, root_limit)
+                tipi = _room(tipi, n_tips, root_limit)
+                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, 0, -1, -1, x, y, z, hx, hy, hz, params,
+                          event_day[ev], -(event_day[ev] - t0))
+                n_roots += 1
+                n_tips += 1
+            ev += 1
+        if n_tips == 0 and n_pend == 0:
+            continue
+
+        # -- roots past their lifespan (with their laterals) -------------------------------------------
+        if has_lifespan:
+            for r in range(n_roots):
+                if rooti[r, R_DEAD] == 0:
+                    parent = rooti[r, R_PARENT]
+                    if rootf[r, R_DEATH] <= t1 + 1e-12 or (parent >= 0 and rooti[parent, R_DEAD] != 0):
+                        rooti[r, R_DEAD] = 1
+
+        # -- every growing tip ---------------------------------------------------------------------------
+        # Arrays that may be replaced by larger ones are replaced here, outside the loop over tips (an array
+        # variable reassigned inside a compiled loop costs reference counting on every pass).
+        if stepped.size < n_tips:
+            stepped = np.empty(max(2 * stepped.size, n_tips), dtype=np.int64)
+        if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
+            chunk_counts.append(chunk_used)
+            size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
+            c_x0, c_y0, c_z0 = np.empty(size), np.empty(size), np.empty(size)
+            c_x1, c_y1, c_z1 = np.empty(size), np.empty(size), np.empty(size)
+            c_len, c_birth = np.empty(size), np.empty(size)
+            c_parent = np.empty(size, dtype=np.int64)
+            c_root = np.empty(size, dtype=np.int32)
+            for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
+                float_chunks.append(column)
+            parent_chunks.append(c_parent)
+            root_chunks.append(c_root)
+            chunk_used = 0
+        n_stepped = n_tips
+        j = 0
+        need_pending = 0
+        while j < n_tips:
+            if need_pending > 0:
+                capacity = min(pending_limit, max(2 * pendf.shape[0], n_pend + need_pending))
+                pendf = _resized(pendf, n_pend_rows, capacity)
+                pendi = _resized(pendi, n_pend_rows, capacity)
+                need_pending = 0
+            while j < n_tips:
+                if tipi[j, T_DONE] != 0:  # finished in an earlier step, not yet dropped
+                    stepped[j] = -1
+                    j += 1
+                    continue
+                cls = tipi[j, T_CLASS]
+                sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
+                dt = (t1 - t0) + tipf[j, T_CARRY]
+                length = tipf[j, T_LEN]
+                max_len = tipf[j, T_MAXLEN]
+                rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
+                if law_negexp[cls]:
+                    grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
+                else:
+                    grown = min(length + rate * dt, max_len)
+                ds = max(grown - length, 0.0)
+                # Room for every branch point this step can pass, before any draw for this tip.
+                reach = length + ds * (1 + 1e-9) + 1e-9
+                if branch_class[cls, 0] >= 0 and tipf[j, T_NEXT] <= reach and pendf.shape[0] < pending_limit:
+                    bound = int((reach - tipf[j, T_NEXT]) / min_interbranch[cls]) + 1
+                    if bound > pendf.shape[0] - n_pend:
+                        need_pending = bound
+                        break
+                tipf[j, T_CARRY] = 0.0
+                # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
+                # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
+                # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
+                arc = tipf[j, T_HALF] + 0.5 * ds
+                strength, cos_phi, sin_phi = tipf[j, T_TROP], tipf[j, T_COSPHI], tipf[j, T_SINPHI]
+                exotropism, h0x, h0y, h0z = tipf[j, T_EXO], tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z]
+                hx, hy, hz = _tropic_half_turn(tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc, strength,
+                                               cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
+                sigma = tipf[j, T_SIGMA]
+                drawn = False
+                if sigma > 0:
+                    fallback[0] = rng.standard_normal()
+                    fallback[1] = rng.standard_normal()
+                    fallback[2] = rng.standard_normal()
+                    drawn = True
+                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
+                                               log_x_table, ratio_table)
+                hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
+                                               h0y, h0z)
+                hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+                if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
+                    ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
+                else:
+                    if not drawn:
+                        fallback[0] = rng.standard_normal()
+                        fallback[1] = rng.standard_normal()
+                        fallback[2] = rng.standard_normal()
+                    ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
+                seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
+                seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
+                new_length = length
+                root = tipi[j, T_ROOT]
+                stepped[j] = root
+                if ds > _MIN_STEP_CM and seg_len > 0:
+                    if n_seg >= segment_limit:
+                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                        rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0)
+                    c = chunk_used
+                    c_x0[c] = sx
+                    c_y0[c] = sy
+                    c_z0[c] = sz
+                    c_x1[c] = ex
+                    c_y1[c] = ey
+                    c_z1[c] = ez
+                    c_len[c] = seg_len
+                    c_birth[c] = t1 - 0.5 * dt
+                    c_parent[c] = tipi[j, T_LAST]
+                    c_root[c] = root
+                    seg_id = n_seg
+                    chunk_used += 1
+                    n_seg += 1
+                    new_length = length + seg_len
+                    # Branch points passed by the new segment (one round per branch point).
+                    apical = tipf[j, T_APICAL]
+                    nxt = tipf[j, T_NEXT]
+                    while nxt <= new_length and nxt + apical <= max_len:
+                        u_pick = rng.random()
+                        pick = 0
+                        while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
+                            pick += 1
+                        child = branch_class[cls, pick] if pick < n_branch_options else -1
+                        if child >= 0:
+                            if n_pend >= pending_limit:
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
+                            if free_row >= 0:
+                                q = free_row
+                                free_row = pendi[q, Q_NEXT]
+                            elif n_pend_rows < pendf.shape[0]:
+                                q = n_pend_rows
+                                n_pend_rows += 1
+                            else:  # not reached: room was made above
+                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
+                            frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
+                            pendf[q, Q_X] = sx + frac * seg_x
+                            pendf[q, Q_Y] = sy + frac * seg_y
+                            pendf[q, Q_Z] = sz + frac * seg_z
+                            pendf[q, Q_DX] = seg_x / seg_len
+                            pendf[q, Q_DY] = seg_y / seg_len
+                            pendf[q, Q_DZ] = seg_z / seg_len
+                            pendf[q, Q_THRESHOLD] = nxt + apical
+                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
+                            pendi[q, Q_SEGMENT] = seg_id
+                            pendi[q, Q_CLASS] = child
+                            pendi[q, Q_COUNT] = tipi[j, T_COUNT]
+                            pendi[q, Q_NEXT] = -1
+                            if rooti[root, R_QUEUE_TAIL] >= 0:
+                                pendi[rooti[root, R_QUEUE_TAIL], Q_NEXT] = q
+                            else:
+                                rooti[root, R_QUEUE_HEAD] = q
+                            rooti[root, R_QUEUE_TAIL] = q
+                            n_pend += 1
+                        tipi[j, T_COUNT] += 1
+                        if kind[cls, P_INTERBRANCH] == FIXED:
+                            nxt += values[cls, P_INTERBRANCH, 0]
+                        else:
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random())
+                    tipf[j, T_NEXT] = nxt
+                    # Commit the tip.
+                    tipi[j, T_LAST] = seg_id
+                    tipf[j, T_X] = ex
+                    tipf[j, T_Y] = ey
+                    tipf[j, T_Z] = ez
+                    tipf[j, T_HX] = hx
+                    tipf[j, T_HY] = hy
+                    tipf[j, T_HZ] = hz
+                    tipf[j, T_HALF] = 0.5 * seg_len
+                    tipf[j, T_LEN] = new_length
+                rootf[root, R_PREV] = rootf[root, R_LEN]
+                rootf[root, R_LEN] = new_length
+                rootf[root, R_DT] = dt
+                rootf[root, R_RATE] = rate
+                finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) or tipf[j, T_RATE] <= 0
+                if has_lifespan and rooti[root, R_DEAD] != 0:
+                    finished = True
+                if finished:
+                    rooti[root, R_GROWING] = 0
+                    tipi[j, T_DONE] = 1
+                    n_done += 1
+                j += 1
+
+        # -- branch points whose parent's apical zone has passed become laterals ------------------------
+        # Each root's branch points wait in a queue with increasing thresholds: the ready ones are at its front.
+        # Room for every pending branch point to become a root is made first (outside the loop).
+        if n_roots + n_pend > rootf.shape[0] and rootf.shape[0] < root_limit:
+            capacity = min(root_limit, max(2 * rootf.shape[0], n_roots + n_pend))
+            rootf = _resized(rootf, n_roots, capacity)
+            rooti = _resized(rooti, n_roots, capacity)
+        if n_tips + n_pend > tipf.shape[0] and tipf.shape[0] < root_limit:
+            capacity = min(root_limit, max(2 * tipf.shape[0], n_tips + n_pend))
+            tipf = _resized(tipf, n_tips, capacity)
+            tipi = _resized(tipi, n_tips, capacity)
+        for s_idx in range(n_stepped):
+            pr = stepped[s_idx]
+            if pr < 0:
+                continue
+            q = rooti[pr, R_QUEUE_HEAD]
+            alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
+            while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
+                if n_roots >= root_limit:
+                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
+                parent_cls = rooti[pr, R_CLASS]
+                carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
+                cls = pendi[q, Q_CLASS]
+                _draw_root_parameters(rng, kind, values, cls, params)
+                if spiral[parent_cls]:
+                    azimuth = pendi[q, Q_COUNT] * spiral_divergence_rad[parent_cls]
+                else:
+                    azimuth = 2 * math.pi * pendf[q, Q_AZIMUTH_U]
+                hx, hy, hz = lateral_heading_scalar(pendf[q, Q_DX], pendf[q, Q_DY], pendf[q, Q_DZ],
+                                                    math.radians(params[P_INSERTION]), azimuth)
+                _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, rooti[pr, R_ORDER] + 1, pr,
+                          pendi[q, Q_SEGMENT], pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params,
+                          t1 - carry, carry)
+                n_roots += 1
+                n_tips += 1
+                following = pendi[q, Q_NEXT]
+                pendi[q, Q_NEXT] = free_row
+                free_row = q
+                n_pend -= 1
+                q = following
+            if rooti[pr, R_GROWING] == 0:
+                # The parent stopped short of the remaining thresholds: they never carry a lateral.
+                while q >= 0:
+                    following = pendi[q, Q_NEXT]
+                    pendi[q, Q_NEXT] = free_row
+                    free_row = q
+                    n_pend -= 1
+                    q = following
+            rooti[pr, R_QUEUE_HEAD] = q
+            if q < 0:
+                rooti[pr, R_QUEUE_TAIL] = -1
+
+    dead_at_end = np.zeros(n_roots, dtype=np.bool_)
+    if has_lifespan:
+        for r in range(n_roots):
+            parent = rooti[r, R_PARENT]
+            dead_at_end[r] = rootf[r, R_DEATH] <= duration + 1e-12 or (parent >= 0 and dead_at_end[parent])
+    chunk_counts.append(chunk_used)
+    counts = np.empty(len(chunk_counts), dtype=np.int64)
+    for c in range(counts.size):
+        counts[c] = chunk_counts[c]
+    return (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
+                            rooti[:n_roots].copy(),
+            dead_at_end, STATUS_OK, 0, duration)
+
+
+@njit(**JIT)
+def copy_root_columns(local_root, count, offset, root_offset, plant, root_order, root_class, root_radius,
+                      root, plant_id, order, class_code, radius):
+    """Columns that come from a segment's root, for ``count`` segments of a chunk from row ``offset`` on.
+
+    ``local_root`` holds root numbers within the plant; ``root_offset`` is the plant's first root id.
+    """
+    for c in range(count):
+        i = offset + c
+        r = local_root[c]
+        root[i] = r + root_offset
+        plant_id[i] = plant
+        order[i] = root_order[r]
+        class_code[i] = root_class[r]
+        radius[i] = root_radius[r]
+
+
+@njit(**JIT)
+def copy_parent_column(local_parent, count, offset, segment_offset, parent):
+    """Parent ids within the plant (-1: none) as table ids (``segment_offset``: the plant's first segment)."""
+    for c in range(count):
+        p = local_parent[c]
+        parent[offset + c] = p + segment_offset if p >= 0 else -1
