@@ -1,0 +1,1 @@
+"""Water and nutrient capture over a season: soil water (Richards), uptake, nitrate, phosphorus exploration."""
