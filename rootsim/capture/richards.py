@@ -34,7 +34,7 @@ __all__ = ["BOTTOM_CONDITIONS", "WaterStep", "water_step", "advance_water", "Int
 
 BOTTOM_CONDITIONS = ("free_drainage", "water_table")
 _MIN_HEAD_CM = -1e7
-_CAPACITY_FLOOR_PER_CM = 1e-4
+_CAPACITY_FLOOR_PER_CM = 1e-8
 
 
 @dataclass
@@ -97,7 +97,7 @@ def _solve(head, theta_old, dt, soil, dz, supply, sink, bottom, surface_fixed, *
         if it > 12:  # under-relax a slowly oscillating iteration (steep K near saturation for n < 2)
             new = h + 0.5 * (new - h)
         np.maximum(new, _MIN_HEAD_CM, out=new)
-        change = float(np.abs(new - h).max())
+        change = float((np.abs(new - h) / (1.0 + 1e-2 * np.abs(new))).max())  # relative where dry
         h = new
         theta_new = soil.water_content(h)
         faces = _face_flux(h, k_face, dz, supply, surface_fixed, k_top, bottom, k_bottom)
@@ -201,14 +201,16 @@ class IntervalTotals:
 def advance_water(head_cm: np.ndarray, duration_days: float, *, soil, cell_cm: float, supply_cm_per_day: float,
                   sink: Callable[[np.ndarray], np.ndarray], bottom: str = "free_drainage", dt_days: float = 0.05,
                   min_dt_days: float = 1e-7, max_dt_days: float = 0.25, max_water_content_change: float = 0.02,
-                  on_step: Callable[[float, np.ndarray, WaterStep], None] | None = None
-                  ) -> tuple[np.ndarray, IntervalTotals, float, np.ndarray]:
+                  on_step: Callable[[float, np.ndarray, WaterStep], None] | None = None,
+                  sink_floor_head_cm: float | None = None) -> tuple[np.ndarray, IntervalTotals, float, np.ndarray]:
     """Advance the column over ``duration_days`` with constant supply, in adaptive implicit steps.
 
     Parameters
     ----------
     sink : callable
         ``sink(head_cm) -> ndarray (n,)`` uptake in 1/day, evaluated with the head at the start of each step.
+    sink_floor_head_cm : float, optional
+        Uptake in a step never takes a cell below the water content at this head (e.g. the wilting head).
     on_step : callable, optional
         ``on_step(dt_days, water_content_before, step)`` after each accepted step (used by solute transport).
 
@@ -229,10 +231,13 @@ def advance_water(head_cm: np.ndarray, duration_days: float, *, soil, cell_cm: f
     dt = min(max(dt_days, min_dt_days), max_dt_days)
     h = np.asarray(head_cm, dtype=np.float64).copy()
     theta = soil.water_content(h)
+    floor = None if sink_floor_head_cm is None else soil.water_content(np.full(h.size, float(sink_floor_head_cm)))
     ponded = False
     while elapsed < duration_days * (1.0 - 1e-12):
         step_dt = min(dt, duration_days - elapsed)
         s = np.asarray(sink(h), dtype=np.float64)
+        if floor is not None:
+            s = np.minimum(s, np.maximum(theta - floor, 0.0) * (0.5 / step_dt))
         step = water_step(h, step_dt, soil=soil, cell_cm=cell_cm, supply_cm_per_day=supply_cm_per_day,
                           sink_per_day=s, bottom=bottom, ponded_first=ponded)
         if not step.converged or np.abs(step.water_content - theta).max() > max_water_content_change:
