@@ -12,7 +12,7 @@ import pytest
 from rootsim.cli import main
 from rootsim.sampling.synthetic import lines_system
 
-PARAMS = Path(__file__).resolve().parents[1] / "params"
+PARAMS = Path(__file__).resolve().parents[1] / "params" / "capture"
 
 
 def _roots(tmp_path):

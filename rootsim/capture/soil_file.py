@@ -1,6 +1,6 @@
 """The soil-water file (TOML): a layered column, its van Genuchten-Mualem horizons and the uptake parameters.
 
-Example (``params/soil_water_loam.toml``)::
+Example (``params/capture/soil_water_loam.toml``)::
 
     name = "invented_loam_field"
     [column]

@@ -24,7 +24,7 @@ CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotransp
 Simulated capture is a research aid, not agronomic advice; the shipped soil and weather are invented.
 
 Examples:
-  rootsim capture results/demo --soil-water params/soil_water_loam.toml --weather params/weather_drying_season.csv
+  rootsim capture results/demo --soil-water params/capture/soil_water_loam.toml --weather params/capture/weather_drying_season.csv
 """
 
 
