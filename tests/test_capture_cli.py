@@ -27,7 +27,8 @@ def _roots(tmp_path):
 def test_capture_command_writes_daily_table_layers_traits_and_figures(tmp_path, capsys):
     run = _roots(tmp_path)
     code = main(["capture", str(run), "--soil-water", str(PARAMS / "soil_water_loam.toml"),
-                 "--weather", str(PARAMS / "weather_drying_season.csv"), "--out", str(tmp_path / "out")])
+                 "--weather", str(PARAMS / "weather_drying_season.csv"), "--out", str(tmp_path / "out"),
+                 "--phosphorus-radius-cm", "0.4", "--phosphorus-voxel-cm", "0.1"])
     assert code == 0
     daily = pd.read_csv(tmp_path / "out" / "capture_daily.csv")
     traits = json.loads((tmp_path / "out" / "capture_traits.json").read_text())
@@ -36,6 +37,11 @@ def test_capture_command_writes_daily_table_layers_traits_and_figures(tmp_path, 
     assert daily["water_balance_error_mm"].abs().max() < 1e-5
     assert traits["seasonal_transpiration_mm"] == pytest.approx(daily["actual_transpiration_mm"].sum(), rel=1e-9)
     assert traits["water_uptake_below_depth_mm"] == 0.0        # roots end at 40 cm, the trait depth is 60 cm
+    # one straight 40 cm root: pi r^2 L + 4/3 pi r^3 (capsule, analytic), counted on 0.1 cm voxels
+    capsule = np.pi * 0.4 ** 2 * 40.0 + 4.0 / 3.0 * np.pi * 0.4 ** 3
+    assert traits["phosphorus_explored_cm3"] == pytest.approx(capsule, rel=0.05)
+    assert pd.read_csv(tmp_path / "out" / "phosphorus_profile.csv")["explored_cm3"].sum() == pytest.approx(
+        traits["phosphorus_explored_cm3"], rel=1e-9)
 
 
 def test_weather_without_needed_columns_exits_2_with_one_line(tmp_path, capsys):

@@ -33,6 +33,11 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--soil-water", metavar="SOIL.toml", required=True, help="soil-water file (TOML)")
     parser.add_argument("--weather", metavar="WEATHER.csv", required=True, help="daily weather table (CSV)")
     parser.add_argument("--out", metavar="DIR", default=None, help="output directory (default: RESULT_DIR)")
+    parser.add_argument("--phosphorus-radius-cm", metavar="R", type=float, default=None,
+                        help="also measure the soil within R cm of any root (phosphorus depletion zones) and the "
+                             "overlap between roots and plants -> phosphorus_profile.csv, traits")
+    parser.add_argument("--phosphorus-voxel-cm", metavar="V", type=float, default=None,
+                        help="voxel edge for the depletion volume, cm (default R / 4)")
     parser.add_argument("--no-figures", action="store_true", help="skip the PNG figures")
 
 
@@ -48,10 +53,22 @@ def run(args: argparse.Namespace) -> int:
     weather = read_weather_table(args.weather)
     system = RootSystem.read(args.dir)
     result = run_water_season(system, setup, weather)
+    phosphorus = None
+    if args.phosphorus_radius_cm is not None:
+        from ..capture.phosphorus import explored_volume
+
+        radius = args.phosphorus_radius_cm
+        voxel = args.phosphorus_voxel_cm if args.phosphorus_voxel_cm is not None else (radius or 1.0) / 4.0
+        phosphorus = explored_volume(system, radius_cm=radius, voxel_cm=voxel)
+        result["traits"].update({f"phosphorus_{k}": phosphorus[k] for k in
+                                 ("radius_cm", "voxel_cm", "explored_cm3", "overlap_same_plant_cm3",
+                                  "overlap_between_plants_cm3")})
     traits = dict(result["traits"], soil_water_file=str(args.soil_water), weather_file=str(args.weather),
                   source=str(args.dir))
     out = ensure_output_dir(args.out if args.out is not None else args.dir)
     names = ["capture_daily.csv", "capture_layers.csv", "capture_traits.json"]
+    if phosphorus is not None:
+        names.append("phosphorus_profile.csv")
     if not args.no_figures:
         names += ["water_content.png", "cumulative_uptake.png"]
     with contextlib.ExitStack() as stack:
@@ -59,6 +76,8 @@ def run(args: argparse.Namespace) -> int:
         result["daily"].to_csv(tmp["capture_daily.csv"], index=False, float_format="%.10g")
         result["layers"].to_csv(tmp["capture_layers.csv"], index=False, float_format="%.10g")
         tmp["capture_traits.json"].write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+        if phosphorus is not None:
+            phosphorus["profile"].to_csv(tmp["phosphorus_profile.csv"], index=False, float_format="%.10g")
         if not args.no_figures:
             plot_water_content(result["layers"], title=setup.name).savefig(tmp["water_content.png"], format="png",
                                                                            dpi=120)
