@@ -14,6 +14,7 @@ import pandas as pd
 
 from ..analysis.profile import profile_area
 from .errors import CaptureError
+from .nitrate import KG_PER_HA_TO_MG_PER_CM2, nitrate_step
 from .richards import advance_water
 from .soil_file import SoilWaterSetup
 from .uptake import root_length_by_day, uptake_sink
@@ -67,6 +68,11 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
     head = setup.initial_head_cm.astype(np.float64).copy()
     soil = setup.soil
     dt = 0.05
+    fertilizer = weather.column("nitrate_fertilizer_kg_n_per_ha", default=0.0)[:n_days]
+    nitrate = setup.nitrate
+    mass = nitrate.initial_nitrate_n_mg_per_l * 1e-3 * soil.water_content(head) * cell   # mg N / cm²
+    initial_nitrate = float(mass.sum())
+    nitrate_rows = []
     rows, theta_rows, head_rows, uptake_rows = [], [], [], []
     for j in range(n_days):
         before = float(soil.water_content(head).sum()) * cell
@@ -77,7 +83,20 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
             return uptake_sink(h, root_length, parameters=setup.feddes, potential_cm_per_day=tp_cm, cell_cm=cell,
                                ground_area_cm2=area)
 
-        head, totals, dt, uptake = advance_water(head, 1.0, soil=soil, cell_cm=cell,
+        mass[0] += fertilizer[j] * KG_PER_HA_TO_MG_PER_CM2
+        nitrate_before = float(mass.sum())
+        day_n = {"uptake": np.zeros(n_cells), "leached": 0.0}
+
+        def on_step(step_dt, theta_before, step, root_length=root_length, day_n=day_n):
+            nonlocal mass
+            mass, taken, leached = nitrate_step(mass, step_dt, theta_old=theta_before, theta_new=step.water_content,
+                                                face_flux_cm_per_day=step.face_flux_cm_per_day,
+                                                saturated=soil.saturated, cell_cm=cell, root_length_cm=root_length,
+                                                ground_area_cm2=area, parameters=nitrate)
+            day_n["uptake"] += taken
+            day_n["leached"] += leached
+
+        head, totals, dt, uptake = advance_water(head, 1.0, soil=soil, cell_cm=cell, on_step=on_step,
                                                  supply_cm_per_day=(rain[j] + irrigation[j]) / 10.0, sink=sink,
                                                  bottom=setup.bottom, dt_days=dt, max_dt_days=0.25,
                                                  sink_floor_head_cm=setup.feddes.wilting_head_cm)
@@ -86,6 +105,10 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
         rows.append((int(days[j]), rain[j], irrigation[j], potential[j], 10 * totals.uptake_cm,
                      10 * totals.infiltration_cm, 10 * totals.runoff_cm, 10 * totals.drainage_cm, 10 * after,
                      10 * error, float(root_length.sum()), totals.steps))
+        n_error = (float(mass.sum()) - nitrate_before) + float(day_n["uptake"].sum()) + day_n["leached"]
+        to_kg = 1.0 / KG_PER_HA_TO_MG_PER_CM2
+        nitrate_rows.append((fertilizer[j], to_kg * float(day_n["uptake"].sum()), to_kg * day_n["leached"],
+                             to_kg * float(mass.sum()), to_kg * n_error))
         theta_rows.append(soil.water_content(head))
         head_rows.append(head.copy())
         uptake_rows.append(10.0 * uptake)
@@ -93,6 +116,11 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
                                         "actual_transpiration_mm", "infiltration_mm", "runoff_mm", "drainage_mm",
                                         "soil_water_storage_mm", "water_balance_error_mm", "root_length_cm",
                                         "solver_steps"])
+    nitrate_frame = pd.DataFrame(nitrate_rows, columns=["nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha",
+                                                        "nitrate_leached_kg_n_per_ha", "nitrate_storage_kg_n_per_ha",
+                                                        "nitrate_balance_error_kg_n_per_ha"])
+    daily = pd.concat([daily, nitrate_frame], axis=1)
+    daily.attrs["initial_nitrate_kg_n_per_ha"] = initial_nitrate / KG_PER_HA_TO_MG_PER_CM2
     top = np.arange(n_cells) * cell
     layers = pd.DataFrame({
         "day": np.repeat(days, n_cells),
@@ -115,7 +143,7 @@ def capture_traits(daily: pd.DataFrame, layers: pd.DataFrame, *, setup: SoilWate
     with np.errstate(invalid="ignore", divide="ignore"):
         ratio = np.where(potential > 0, actual / np.where(potential > 0, potential, 1.0), 1.0)
     deep = layers["depth_top_cm"].to_numpy() >= setup.deep_water_below_cm - 1e-9
-    return {
+    traits = {
         "days": int(len(daily)),
         "ground_area_cm2": float(ground_area_cm2),
         "seasonal_potential_transpiration_mm": float(potential.sum()),
@@ -129,3 +157,17 @@ def capture_traits(daily: pd.DataFrame, layers: pd.DataFrame, *, setup: SoilWate
         "drainage_mm": float(daily["drainage_mm"].sum()),
         "largest_daily_water_balance_error_mm": float(np.abs(daily["water_balance_error_mm"]).max()),
     }
+    if "nitrate_uptake_kg_n_per_ha" in daily:
+        applied = float(daily["nitrate_fertilizer_kg_n_per_ha"].sum())
+        taken = float(daily["nitrate_uptake_kg_n_per_ha"].sum())
+        available = applied + float(daily.attrs.get("initial_nitrate_kg_n_per_ha", 0.0))
+        traits.update({
+            "nitrate_applied_kg_n_per_ha": applied,
+            "nitrate_uptake_kg_n_per_ha": taken,
+            "nitrate_leached_kg_n_per_ha": float(daily["nitrate_leached_kg_n_per_ha"].sum()),
+            "nitrate_uptake_fraction_of_applied": taken / applied if applied > 0 else None,
+            "nitrate_uptake_fraction_of_available": taken / available if available > 0 else None,
+            "largest_daily_nitrate_balance_error_kg_n_per_ha": float(
+                np.abs(daily["nitrate_balance_error_kg_n_per_ha"]).max()),
+        })
+    return traits

@@ -17,6 +17,9 @@ Example (``params/capture/soil_water_loam.toml``)::
     [transpiration]
     crop_coefficient = 1.0           # potential = coefficient x reference ET (FAO-56) when the weather table
                                      # has no potential_transpiration_mm
+    [nitrate]                        # see rootsim.capture.nitrate (initial_nitrate_n_mg_per_l, dispersivity_cm,
+                                     # diffusion_in_water_cm2_per_day, max_uptake_mg_n_per_cm_root_per_day,
+                                     # half_saturation_mg_n_per_l)
     [traits]
     deep_water_below_cm = 60.0       # "water taken from below" this depth
     stress_ratio_below = 0.9         # a stress day: actual / potential transpiration below this
@@ -37,6 +40,7 @@ import numpy as np
 from .errors import CaptureError
 from .hydraulics import TEXTURE_CLASSES, VanGenuchtenMualem, check_van_genuchten
 from .richards import BOTTOM_CONDITIONS
+from .nitrate import NitrateParameters
 from .uptake import FeddesParameters
 
 __all__ = ["SoilWaterSetup", "read_soil_water_file", "soil_water_from_mapping"]
@@ -63,6 +67,7 @@ class SoilWaterSetup:
     crop_coefficient: float
     deep_water_below_cm: float
     stress_ratio_below: float
+    nitrate: NitrateParameters = NitrateParameters()
 
     @property
     def n_cells(self) -> int:
@@ -90,7 +95,7 @@ def _unknown(table: dict, allowed: set, where: str) -> None:
 
 def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterSetup:
     """Validate a parsed soil-water file (see the module docstring); one-line errors naming file and key."""
-    _unknown(data, {"name", "column", "horizons", "uptake", "transpiration", "traits"}, source)
+    _unknown(data, {"name", "column", "horizons", "uptake", "transpiration", "traits", "nitrate"}, source)
     column = data.get("column", {})
     if not isinstance(column, dict):
         raise CaptureError(f"{source}: column: must be a table (allowed: [column] with depth_cm, cell_cm, ...)")
@@ -159,8 +164,14 @@ def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterS
     _unknown(traits, {"deep_water_below_cm", "stress_ratio_below"}, f"{source}: traits")
     deep = _number(traits, "deep_water_below_cm", f"{source}: traits", low=0.0, high=depth, default=min(60.0, depth))
     stress = _number(traits, "stress_ratio_below", f"{source}: traits", low=0.0, high=1.0, default=0.9)
+    nitrate_table = data.get("nitrate", {})
+    nitrate_keys = {f.name for f in fields(NitrateParameters)}
+    _unknown(nitrate_table, nitrate_keys, f"{source}: nitrate")
+    nitrate = NitrateParameters(**{k: _number(nitrate_table, k, f"{source}: nitrate", low=0.0, high=1e6)
+                                   for k in nitrate_table})
     name = str(data.get("name", Path(source).stem))
-    return SoilWaterSetup(source, name, depth, cell, bottom, soil, arrays["h0"], feddes, coefficient, deep, stress)
+    return SoilWaterSetup(source, name, depth, cell, bottom, soil, arrays["h0"], feddes, coefficient, deep, stress,
+                          nitrate)
 
 
 def read_soil_water_file(path: str | os.PathLike) -> SoilWaterSetup:
