@@ -32,7 +32,9 @@ def test_capture_command_writes_daily_table_layers_traits_and_figures(tmp_path, 
     assert code == 0
     daily = pd.read_csv(tmp_path / "out" / "capture_daily.csv")
     traits = json.loads((tmp_path / "out" / "capture_traits.json").read_text())
-    assert len(daily) == 61 and (tmp_path / "out" / "water_content.png").stat().st_size > 1000
+    assert len(daily) == 61
+    for figure in ("water_content.png", "cumulative_uptake.png", "season_summary.png"):
+        assert (tmp_path / "out" / figure).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     # water balance (in - out - change in storage) closes every day
     assert daily["water_balance_error_mm"].abs().max() < 1e-5
     assert traits["seasonal_transpiration_mm"] == pytest.approx(daily["actual_transpiration_mm"].sum(), rel=1e-9)

@@ -46,3 +46,26 @@ def plot_cumulative_uptake(dailies: dict, *, title: str = ""):
     ax.legend(frameon=False)
     ax.set_title(title or "cumulative root water uptake")
     return fig
+
+
+def plot_season_summary(traits: dict, *, title: str = ""):
+    """Bar chart of the season's water (mm) and nitrate (kg N/ha) terms from the capture traits."""
+    fig = _figure((8.0, 3.8))
+    water, nitrogen = fig.subplots(1, 2, gridspec_kw={"width_ratios": [3, 2]})
+    names = ["potential\ntranspiration", "transpiration", f"uptake below\n{traits['deep_water_below_cm']:g} cm",
+             "drainage", "runoff"]
+    values = [traits["seasonal_potential_transpiration_mm"], traits["seasonal_transpiration_mm"],
+              traits["water_uptake_below_depth_mm"], traits["drainage_mm"], traits["runoff_mm"]]
+    water.bar(names, values, color=["#9ecae1", "#3182bd", "#08519c", "#bdbdbd", "#969696"])
+    water.set_ylabel("mm")
+    water.set_title(f"water ({traits['days_of_water_stress']} stress days)")
+    water.tick_params(axis="x", labelsize=8)
+    n_names = ["applied", "uptake", "leached"]
+    n_values = [traits.get("nitrate_applied_kg_n_per_ha", 0.0), traits.get("nitrate_uptake_kg_n_per_ha", 0.0),
+                traits.get("nitrate_leached_kg_n_per_ha", 0.0)]
+    nitrogen.bar(n_names, n_values, color=["#fdae6b", "#31a354", "#de2d26"])
+    nitrogen.set_ylabel("kg N/ha")
+    nitrogen.set_title("nitrate")
+    if title:
+        fig.suptitle(title)
+    return fig

@@ -165,17 +165,16 @@ def water_step(head_cm: np.ndarray, dt_days: float, *, soil, cell_cm: float, sup
         return result[4] and result[2][0] <= supply
 
     order = (True, False) if (ponded_first and supply > 0.0) else (False, True)
-    result, surface_fixed, iterations = None, False, 0
+    result, surface_fixed, iterations, fallback = None, False, 0, None
     for fixed in order if supply > 0.0 else (False,):
         trial = attempt(fixed)
         iterations = trial[3]
         if (ponded_ok if fixed else flux_ok)(trial):
             result, surface_fixed = trial, fixed
             break
-        if not fixed and trial[4] and result is None:
+        if not fixed and trial[4]:
             fallback = trial
     if result is None:
-        fallback = locals().get("fallback")
         if fallback is None:
             n = head_cm.size
             return WaterStep(head_cm, theta_old, np.zeros(n + 1), sink_per_day, 0.0, iterations, False)

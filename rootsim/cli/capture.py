@@ -19,7 +19,7 @@ CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotransp
                        drainage, storage and the daily water-balance error, mm
   capture_layers.csv   one row per day and soil cell: water content, pressure head, uptake, root length
   capture_traits.json  seasonal transpiration, water taken up below a stated depth, stress days, ...
-  water_content.png, cumulative_uptake.png
+  water_content.png, cumulative_uptake.png, season_summary.png
 
 Simulated capture is a research aid, not agronomic advice; the shipped soil and weather are invented.
 
@@ -43,7 +43,7 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..atomic import atomic_path, ensure_output_dir
-    from ..capture.figures import plot_cumulative_uptake, plot_water_content
+    from ..capture.figures import plot_cumulative_uptake, plot_season_summary, plot_water_content
     from ..capture.season import run_water_season
     from ..capture.soil_file import read_soil_water_file
     from ..rootsystem import RootSystem
@@ -70,7 +70,7 @@ def run(args: argparse.Namespace) -> int:
     if phosphorus is not None:
         names.append("phosphorus_profile.csv")
     if not args.no_figures:
-        names += ["water_content.png", "cumulative_uptake.png"]
+        names += ["water_content.png", "cumulative_uptake.png", "season_summary.png"]
     with contextlib.ExitStack() as stack:
         tmp = {name: stack.enter_context(atomic_path(out / name)) for name in names}
         result["daily"].to_csv(tmp["capture_daily.csv"], index=False, float_format="%.10g")
@@ -83,6 +83,8 @@ def run(args: argparse.Namespace) -> int:
                                                                            dpi=120)
             plot_cumulative_uptake({setup.name: result["daily"]}).savefig(tmp["cumulative_uptake.png"], format="png",
                                                                           dpi=120)
+            plot_season_summary(result["traits"], title=setup.name).savefig(tmp["season_summary.png"], format="png",
+                                                                            dpi=120)
     t = result["traits"]
     print(f"{args.dir}: {t['days']} days, transpiration {t['seasonal_transpiration_mm']:.1f} of "
           f"{t['seasonal_potential_transpiration_mm']:.1f} mm potential, {t['water_uptake_below_depth_mm']:.1f} mm "
