@@ -126,6 +126,13 @@ class Soil(_Model):
     elongation_halving_resistance_mpa: float = Field(1.0, gt=0)
     deflection_threshold_mpa: float = Field(2.5, gt=0)
     deflection_max_incidence_deg: float = Field(45.0, ge=0, le=90)
+    # Response of elongation to resistance (rootsim.soil.strength): "exponential" (the halving law above) or
+    # "linear_to_limit" (stops at limiting_resistance_mpa); per-class sensitivity: a root of radius r feels
+    # R * (resistance_reference_radius_cm / r) ** resistance_radius_exponent.
+    elongation_response: Literal["exponential", "linear_to_limit"] = "exponential"
+    limiting_resistance_mpa: float = Field(2.5, gt=0, le=100)
+    resistance_reference_radius_cm: float = Field(0.05, gt=0, le=10)
+    resistance_radius_exponent: float = Field(0.0, ge=0, le=4)
     layers: list[SoilLayer] = Field(default_factory=list)
     # 3D soil fields and biopores (rootsim/soil/; compiled by rootsim.soil.build)
     fields: dict[str, SoilFieldSpec] = Field(default_factory=dict)

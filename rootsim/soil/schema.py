@@ -173,6 +173,8 @@ class BioporeSpec(_Model):
     depth_top_cm: float = Field(0.0, ge=0)
     depth_bottom_cm: float = Field(100.0, gt=0)
     resistance_mpa: float = Field(0.0, ge=0, le=50)
+    # probability that a growing tip meeting a pore enters it (drawn once per tip and pore)
+    entry_probability: float = Field(1.0, ge=0, le=1)
     channels: list[BioporeChannel] = Field(default_factory=list)
 
     @model_validator(mode="after")
