@@ -128,3 +128,128 @@ def test_a_tip_entering_a_biopore_follows_its_axis_to_its_bottom_without_impedan
     df = grow_frame(make_spec({"axis": root_class(elongation_rate_cm_per_day=4.0)}, days=20.0, soil=soil))
     assert not df["in_biopore"].any()
     np.testing.assert_allclose(df["length_cm"].sum(), 20.0, rtol=1e-12)
+
+
+def _x_gradient_water(tmp_path, *, wet_side: float):
+    """Water content linear in x across a 20 cm pot (0.1 at the dry wall, 0.4 at the wet wall, two grid nodes)."""
+    low, high = (0.1, 0.4) if wet_side > 0 else (0.4, 0.1)
+    values = np.empty((2, 2, 2))
+    values[0], values[1] = low, high
+    path = tmp_path / f"water_{'plus' if wet_side > 0 else 'minus'}.npy"
+    np.save(path, values)
+    return {"grid": {"file": str(path), "origin_cm": [-10.0, -10.0, 0.0], "spacing_cm": [20.0, 20.0, 40.0]}}
+
+
+def test_field_tropism_is_the_exact_sine_law_toward_the_gradient(tmp_path):
+    # A straight root heading down in water content rising along +x turns toward +x by the sine law:
+    # tan(beta/2) = tan(beta0/2) exp(-k s), beta from +x, beta0 = 90 deg (analytic; Bastien et al. 2013 for the
+    # sine law). Headings live at segment midpoints, so segment i (equal steps ds) points at s = (i + 1/2) ds;
+    # the same angles come out at two step sizes.
+    soil = {"fields": {"volumetric_water_content": _x_gradient_water(tmp_path, wet_side=1.0)}}
+    strength = 0.05
+    for step_days in (0.5, 0.25):
+        axis = root_class(elongation_rate_cm_per_day=1.0,
+                          field_tropism={"field": "volumetric_water_content", "strength_per_cm": strength})
+        spec = make_spec({"axis": axis}, days=8.0, step_days=step_days, soil=soil, sowing_depth_cm=10.0,
+                         container={"kind": "pot", "diameter_cm": 200.0, "depth_cm": 40.0})
+        df = grow_frame(spec).sort_values("segment_id")
+        chords = df[["x1", "y1", "z1"]].to_numpy() - df[["x0", "y0", "z0"]].to_numpy()
+        beta = np.arccos(np.clip(chords[:, 0] / np.linalg.norm(chords, axis=1), -1, 1))
+        ds = 1.0 * step_days
+        s = (np.arange(len(df)) + 0.5) * ds
+        expected = 2 * np.arctan(np.tan(np.pi / 4) * np.exp(-strength * s))
+        np.testing.assert_allclose(beta, expected, atol=1e-12)
+
+
+_POT_CLASSES = {
+    "axis": root_class(initial_angle_from_vertical_deg={"low": 20.0, "high": 60.0}, elongation_rate_cm_per_day=1.5,
+                       max_length_cm=40.0, random_turning_deg_per_sqrt_cm=10.0, gravitropism_per_cm=0.03,
+                       basal_zone_cm=1.0, apical_zone_cm=2.0, interbranch_distance_cm=1.0,
+                       branches=[{"root_class": "lateral", "probability": 1.0}]),
+    "lateral": root_class(insertion_angle_deg=70.0, elongation_rate_cm_per_day=0.8, max_length_cm=8.0,
+                          elongation_law="negative_exponential", random_turning_deg_per_sqrt_cm=15.0),
+}
+_POT = {"kind": "pot", "diameter_cm": 20.0, "depth_cm": 30.0}
+
+
+def test_hydrotropism_shifts_the_centre_of_root_length_toward_the_wet_side(tmp_path):
+    # Roots turn toward wetter soil (hydrotropism; Eapen et al. 2005, Trends Plant Sci. 10: 44-50, from memory):
+    # with water rising toward +x the length-weighted mean x moves to +x, toward -x when the gradient is mirrored;
+    # without the tropism the pot is symmetric about x = 0.
+    def centre(wet_side, strength):
+        classes = {name: dict(c) for name, c in _POT_CLASSES.items()}
+        for c in classes.values():
+            c["field_tropism"] = {"field": "volumetric_water_content", "strength_per_cm": strength}
+        soil = {"fields": {"volumetric_water_content": _x_gradient_water(tmp_path, wet_side=wet_side)}}
+        df = grow_frame(make_spec(classes, emergence=[{"root_class": "axis", "roots_per_event": 6}], days=20.0,
+                                  soil=soil, container=_POT, seed=5))
+        mid_x = 0.5 * (df["x0"] + df["x1"])
+        return float((mid_x * df["length_cm"]).sum() / df["length_cm"].sum())
+
+    neutral, toward_plus, toward_minus = centre(1.0, 0.0), centre(1.0, 0.1), centre(-1.0, 0.1)
+    assert toward_plus > neutral + 2.0 and toward_minus < neutral - 2.0, (neutral, toward_plus, toward_minus)
+
+
+def _patch_fraction(with_patch: bool) -> tuple:
+    nitrate = {"value": 4.0}
+    if with_patch:
+        nitrate["patches"] = [{"shape": "sphere", "center_cm": [5.0, 0.0, 12.0], "radius_cm": 4.0, "value": 60.0,
+                               "edge_width_cm": 1.0}]
+    classes = {name: dict(c) for name, c in _POT_CLASSES.items()}
+    for c in classes.values():
+        c["proliferation"] = {"field": "nitrate_mg_per_kg", "half_saturation_value": 20.0, "maximum_factor": 3.0}
+    df = grow_frame(make_spec(classes, emergence=[{"root_class": "axis", "roots_per_event": 6}], days=20.0,
+                              soil={"fields": {"nitrate_mg_per_kg": nitrate}}, container=_POT, seed=9))
+    mid = 0.5 * (df[["x0", "y0", "z0"]].to_numpy() + df[["x1", "y1", "z1"]].to_numpy())
+    inside = np.linalg.norm(mid - np.array([5.0, 0.0, -12.0]), axis=1) <= 5.0
+    return float(df["length_cm"][inside].sum()), float(df["length_cm"].sum())
+
+
+def test_roots_put_more_length_into_a_nutrient_patch():
+    # Local proliferation: laterals branch more densely and grow faster inside a nutrient-rich patch (Drew 1975,
+    # New Phytol. 75: 479-490, from memory), so the pot with the patch holds more root length in it.
+    in_patch, total = _patch_fraction(True)
+    in_plain, total_plain = _patch_fraction(False)
+    assert in_patch > 1.5 * in_plain and in_patch / total > in_plain / total_plain, (in_patch, in_plain)
+
+
+def test_proliferation_multiplies_elongation_and_branch_density_by_the_saturating_curve():
+    # Uniform nitrate v = 20 with half saturation 20 and maximum factor 3: factor 1 + 2 * 20 / 40 = 2 (hand
+    # computation of the Michaelis-Menten form). A straight root at 1 cm/day grows 2 cm/day; branch points
+    # every 1 cm / 2 = 0.5 cm from its 1 cm basal zone on.
+    parent = root_class(basal_zone_cm=1.0, apical_zone_cm=2.0, interbranch_distance_cm=1.0,
+                        branches=[{"root_class": "lateral", "probability": 1.0}],
+                        proliferation={"field": "nitrate_mg_per_kg", "half_saturation_value": 20.0,
+                                       "maximum_factor": 3.0})
+    spec = make_spec({"axis": parent, "lateral": root_class(max_length_cm=0.5)}, days=10.0,
+                     soil={"fields": {"nitrate_mg_per_kg": {"value": 20.0}}})
+    df = grow_frame(spec)
+    np.testing.assert_allclose(df.loc[df["root_class"] == "axis", "length_cm"].sum(), 20.0, rtol=1e-12)
+    laterals = df[df["root_class"] == "lateral"]
+    origins = np.sort(-laterals.groupby("root_id")["z0"].max().to_numpy()) - 3.0  # distance from the seed
+    np.testing.assert_allclose(origins, 1.0 + 0.5 * np.arange(len(origins)), atol=1e-9)
+    # branch points at 1.0 .. 18.0 cm have been passed by the 2 cm apical zone at 20 cm; the one at 18 cm becomes
+    # a lateral at the very end of the run, with no time left to grow a segment
+    assert len(origins) == 34
+
+
+def test_unknown_field_in_a_response_is_a_one_line_error_naming_file_and_key(tmp_path, capsys):
+    from rootsim.cli import main
+
+    spec = tmp_path / "bad_field.toml"
+    spec.write_text(
+        '[run]\nduration_days = 5.0\n[[emergence]]\nroot_class = "axis"\n'
+        '[soil.fields.volumetric_water_content]\nvalue = 0.3\n'
+        '[root_classes.axis]\nfield_tropism = { field = "nitrate_mg_per_kg", strength_per_cm = 0.1 }\n')
+    out = tmp_path / "run"
+    assert main(["grow", str(spec), "--out", str(out), "--quiet"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("error: ") and str(spec) in err[0], err
+    assert "root_classes.axis.field_tropism.field" in err[0] and "volumetric_water_content" in err[0], err
+    assert not out.exists()
+    spec.write_text(spec.read_text().replace('field_tropism = { field = "nitrate_mg_per_kg", strength_per_cm = 0.1 }',
+                                             'proliferation = { field = "phosphorus_mg_per_kg", '
+                                             'half_saturation_value = 5.0, maximum_factor = 2.0 }'))
+    assert main(["check", str(spec)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "root_classes.axis.proliferation.field" in err[0] and str(spec) in err[0], err

@@ -84,7 +84,7 @@ def _emergence_events(spec: Spec, classes: ClassTable):
             np.asarray(columns[6], dtype=np.float64))
 
 
-def _soil_inputs(spec: Spec):
+def _soil_inputs(spec: Spec, classes: ClassTable):
     """Arguments of the compiled step for 3D soil fields and biopores, and whether the spec has biopores.
 
     The layer arrays (:func:`~rootsim.growth.soil.soil_arrays`) serve specs that only have ``[[soil.layers]]``
@@ -92,7 +92,9 @@ def _soil_inputs(spec: Spec):
     ``penetration_resistance_mpa`` (``[soil.fields]``, or ``[[soil.layers]]`` compiled to a field with the same
     layer rule), read through :func:`rootsim.soil.fields.value_at` at each tip, with the response and per-class
     sensitivity of ``[soil]`` (:mod:`rootsim.soil.strength`); biopores come from
-    :func:`rootsim.soil.build.biopores_from_spec` (seeded by ``run.seed``).
+    :func:`rootsim.soil.build.biopores_from_spec` (seeded by ``run.seed``). Per class: the field index and
+    strength of ``field_tropism`` and the field index, half-saturation value and maximum factor of
+    ``proliferation`` (-1: none).
     """
     from ..soil.biopores import biopores_from_list
     from ..soil.build import biopores_from_spec, soil_fields_from_spec
@@ -100,8 +102,9 @@ def _soil_inputs(spec: Spec):
     from ..soil.strength import EXPONENTIAL, LINEAR_TO_LIMIT
 
     soil = spec.soil
+    responds = any(c.field_tropism is not None or c.proliferation is not None for c in classes.classes)
     use = bool(soil.fields) or soil.biopores is not None or soil.elongation_response != "exponential" \
-        or soil.resistance_radius_exponent != 0
+        or soil.resistance_radius_exponent != 0 or responds
     fields = soil_fields_from_spec(spec) if use else compile_fields({})
     pores = biopores_from_spec(spec) if soil.biopores is not None else None
     empty = np.zeros((0, 3))
@@ -116,6 +119,18 @@ def _soil_inputs(spec: Spec):
                  float(soil.resistance_reference_radius_cm), float(soil.resistance_radius_exponent), compiled_pores,
                  float(pores.resistance_mpa if pores is not None else 0.0),
                  float(soil.biopores.entry_probability if soil.biopores is not None else 1.0))
+    n = len(classes.classes)
+    tropism_field, tropism_strength = np.full(n, -1, np.int64), np.zeros(n)
+    proliferation_field, proliferation_half, proliferation_max = np.full(n, -1, np.int64), np.ones(n), np.ones(n)
+    for c, root_class in enumerate(classes.classes):
+        if root_class.field_tropism is not None:
+            tropism_field[c] = fields.index(root_class.field_tropism.field)
+            tropism_strength[c] = root_class.field_tropism.strength_per_cm
+        if root_class.proliferation is not None:
+            proliferation_field[c] = fields.index(root_class.proliferation.field)
+            proliferation_half[c] = root_class.proliferation.half_saturation_value
+            proliferation_max[c] = root_class.proliferation.maximum_factor
+    arguments += (tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max)
     return arguments, pores is not None
 
 
@@ -275,7 +290,7 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
     bottoms, factor, tops, sin_max = soil_arrays(spec.soil)
     soil = (bottoms, factor, tops, float(sin_max))
     box = container_box(spec.container)
-    soil_3d, has_pores = _soil_inputs(spec)
+    soil_3d, has_pores = _soil_inputs(spec, classes)
     log_x, ratio = tangent_variance_table()
     duration = spec.run.duration_days
     dt = spec.run.time_step_days

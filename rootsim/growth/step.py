@@ -29,7 +29,7 @@ from numba.typed import List
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
 from ..soil.biopores import biopore_at
-from ..soil.fields import value_at
+from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
 from .soil import clamp, constrain, contains, deflect, elongation_factor
 from .tropisms import (
@@ -245,7 +245,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                soil_bottoms, soil_factor, soil_tops, soil_sin_max, box, log_x_table, ratio_table,
                duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
-               felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability):
+               felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
+               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max):
     """Grow one plant over the whole run.
 
     Parameters
@@ -283,6 +284,12 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     pores : rootsim.soil.biopores.CompiledBiopores
     pore_resistance_mpa, pore_entry_probability : float
         Resistance inside a biopore; probability that a tip meeting a pore enters it (once per tip and pore).
+    tropism_field, tropism_strength : ndarray, shape (n_classes,)
+        Per class: the field whose gradient the heading turns toward (-1: none) and the sine law's strength per
+        cm (exact for the gradient's direction at the step's start, like exotropism).
+    proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
+        Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
+        density by ``1 + (max - 1) * v / (v + half)``.
 
     Returns
     -------
@@ -345,7 +352,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     min_interbranch = np.empty(kind.shape[0])  # shortest interbranch distance of each class (bounds the
     for c in range(kind.shape[0]):  # branch points one step can pass)
         row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
-        min_interbranch[c] = values[c, P_INTERBRANCH, row]
+        min_interbranch[c] = values[c, P_INTERBRANCH, row] / proliferation_max[c]
     ev = 0
     status = STATUS_OK
     status_count = 0
@@ -456,6 +463,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 length = tipf[j, T_LEN]
                 max_len = tipf[j, T_MAXLEN]
                 pore = -1
+                proliferation = 1.0
                 if use_fields:
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
@@ -475,6 +483,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         resistance = 0.0
                     rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
                                                                       response_parameter_mpa, tipf[j, T_FELT])
+                    if proliferation_field[cls] >= 0:
+                        level = max(value_at(fields, proliferation_field[cls], sx, sy, sz), 0.0)
+                        proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level \
+                            / (level + proliferation_half[cls])
+                        rate *= proliferation
                 else:
                     rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
                 if law_negexp[cls]:
@@ -498,6 +511,17 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 exotropism, h0x, h0y, h0z = tipf[j, T_EXO], tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z]
                 hx, hy, hz = _tropic_half_turn(tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc, strength,
                                                cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
+                # tropism toward the gradient of a field: the sine law toward its direction at the step's start
+                field_pull = 0.0
+                gx, gy, gz = 0.0, 0.0, 0.0
+                if use_fields and tropism_field[cls] >= 0 and pore < 0:
+                    gx, gy, gz = gradient_at(fields, tropism_field[cls], sx, sy, sz)
+                    gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
+                    if gnorm > 0 and math.isfinite(gnorm):
+                        gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
+                        field_pull = tropism_strength[cls]
+                if field_pull > 0:
+                    hx, hy, hz = toward_direction_turn(hx, hy, hz, gx, gy, gz, 0.5 * arc, field_pull)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -507,6 +531,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     drawn = True
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
                                                log_x_table, ratio_table)
+                if field_pull > 0:
+                    hx, hy, hz = toward_direction_turn(hx, hy, hz, gx, gy, gz, 0.5 * arc, field_pull)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
                                                h0y, h0z)
                 if pore >= 0:  # a tip in a biopore follows its axis (no tropism, no deflection by layers)
@@ -589,9 +615,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             n_pend += 1
                         tipi[j, T_COUNT] += 1
                         if kind[cls, P_INTERBRANCH] == FIXED:
-                            nxt += values[cls, P_INTERBRANCH, 0]
+                            nxt += values[cls, P_INTERBRANCH, 0] / proliferation
                         else:
-                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random())
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random()) / proliferation
                     tipf[j, T_NEXT] = nxt
                     # Commit the tip.
                     tipi[j, T_LAST] = seg_id
