@@ -3,8 +3,8 @@ in a layered soil of the same stand.
 
 The stand is the growth stage's bench stand (:data:`rootsim.bench.growth.BENCH_SPEC`, two rows of four
 plants, 40 days). The 3D soil holds the same two resistance layers as a ``.npy`` grid of 5 cm nodes with a
-gentle variation across the rows, a water-content grid rising toward +x that every class turns toward
-(``field_tropism``), and biopores at 200 per m² through 20-100 cm. Floor: the layered stand's time scaled to
+gentle variation across the rows, a water-content grid (a drier topsoil, wetter down to 60 cm, varying across
+the rows) that every class turns toward (``field_tropism``), and biopores at 200 per m² through 20-100 cm. Floor: the layered stand's time scaled to
 the 3D run's segment count (the two soils grow slightly different systems), so the ratio is the cost per
 segment of the 3D look-ups; the aim is at most 1.5.
 """
@@ -33,7 +33,7 @@ def soil_specs(workdir) -> tuple:
     depth = np.arange(0.0, 220.01, 5.0)
     gx, _, gd = np.meshgrid(x, y, depth, indexing="ij")
     resistance = np.where(gd < 30, 0.4, 0.7) * (1.0 + 0.1 * np.cos(2 * np.pi * gx / 75.0))
-    water = 0.2 + 0.1 * (gx - x[0]) / (x[-1] - x[0])
+    water = 0.15 + 0.15 * np.minimum(gd / 60.0, 1.0) + 0.02 * np.cos(2 * np.pi * gx / 75.0)
     np.save(workdir / "bench_resistance.npy", resistance)
     np.save(workdir / "bench_water.npy", water)
     grid = {"origin_cm": [float(x[0]), float(y[0]), 0.0], "spacing_cm": [5.0, 5.0, 5.0]}

@@ -41,6 +41,7 @@ from .tropisms import (
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
+    tan_half_angle,
     toward_direction_turn,
 )
 
@@ -217,6 +218,24 @@ def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropi
     return hx, hy, hz
 
 
+@njit(**JIT_INLINE)
+def _toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
+    """:func:`~rootsim.growth.tropisms.toward_direction_turn` with ``shrink = exp(-k s)`` given (one ``exp``
+    serves both halves of a step's turn): tan(beta/2) -> tan(beta/2) * shrink."""
+    cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
+    px = hx - cos_b * tx
+    py = hy - cos_b * ty
+    pz = hz - cos_b * tz
+    sin_b = math.sqrt(px * px + py * py + pz * pz)
+    if not sin_b > 1e-12:
+        return hx, hy, hz
+    half = tan_half_angle(sin_b, cos_b) * shrink
+    h2 = half * half
+    cos_n = (1.0 - h2) / (1.0 + h2)
+    sin_n = 2.0 * half / (1.0 + h2)
+    return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
+
+
 @njit(**JIT_BORROW)
 def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
     """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
@@ -331,6 +350,12 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     chunk_used = 0
     n_seg = 0
     n_pores = pores.radius_cm.size
+    pores_z_top = -math.inf  # the depth range holding every pore: tips outside it skip the look-up
+    pores_z_bottom = math.inf
+    for p in range(n_pores):
+        pores_z_top = max(pores_z_top, pores.top[p, 2] + pores.radius_cm[p])
+        pores_z_bottom = min(pores_z_bottom, pores.top[p, 2] + pores.axis[p, 2] * pores.length_cm[p]
+                             - pores.radius_cm[p])
 
     tipf = np.empty((16, TIP_NF))
     tipi = np.empty((16, TIP_NI), dtype=np.int64)
@@ -467,7 +492,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if use_fields:
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
-                        if pore < 0:
+                        if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
                             met = biopore_at(pores, sx, sy, sz)
                             if met >= 0 and met != tipi[j, T_DECLINED]:
                                 if pore_entry_probability >= 1.0 or rng.random() < pore_entry_probability:
@@ -513,6 +538,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                                cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
                 # tropism toward the gradient of a field: the sine law toward its direction at the step's start
                 field_pull = 0.0
+                field_shrink = 1.0
                 gx, gy, gz = 0.0, 0.0, 0.0
                 if use_fields and tropism_field[cls] >= 0 and pore < 0:
                     gx, gy, gz = gradient_at(fields, tropism_field[cls], sx, sy, sz)
@@ -520,8 +546,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     if gnorm > 0 and math.isfinite(gnorm):
                         gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
                         field_pull = tropism_strength[cls]
+                        field_shrink = math.exp(-field_pull * (0.5 * arc))
                 if field_pull > 0:
-                    hx, hy, hz = toward_direction_turn(hx, hy, hz, gx, gy, gz, 0.5 * arc, field_pull)
+                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -532,7 +559,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
                                                log_x_table, ratio_table)
                 if field_pull > 0:
-                    hx, hy, hz = toward_direction_turn(hx, hy, hz, gx, gy, gz, 0.5 * arc, field_pull)
+                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
                                                h0y, h0z)
                 if pore >= 0:  # a tip in a biopore follows its axis (no tropism, no deflection by layers)
