@@ -658,7 +658,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     tipf[j, T_LEN] = new_length
                     if pore >= 0:  # past the pore's bottom (or pushed out of it by a wall): back in the soil
                         rx, ry, rz = ex - pores.top[pore, 0], ey - pores.top[pore, 1], ez - pores.top[pore, 2]
-                        along = rx * hx + ry * hy + rz * hz
+                        along = rx * pores.axis[pore, 0] + ry * pores.axis[pore, 1] + rz * pores.axis[pore, 2]
                         off2 = rx * rx + ry * ry + rz * rz - along * along
                         if along >= pores.length_cm[pore] or off2 > pores.radius_cm[pore] ** 2:
                             tipi[j, T_PORE] = -1
