@@ -40,8 +40,8 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, PlainSeriali
 
 from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distribution
 from .errors import SpecError
-from .soil.schema import (BioporeChannel, BioporeSpec, Development, SoilFieldGrid, SoilFieldLayer, SoilFieldPatch,
-                          SoilFieldSpec, SoilPedotransfer, Weather)
+from .soil.schema import (BioporeChannel, BioporeSpec, Development, FieldTropism, Proliferation, SoilFieldGrid,
+                          SoilFieldLayer, SoilFieldPatch, SoilFieldSpec, SoilPedotransfer, Weather)
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
            "load_spec", "load_spec_layers", "merge_layers", "parse_spec", "PARAMETER_RANGES",
@@ -126,6 +126,13 @@ class Soil(_Model):
     elongation_halving_resistance_mpa: float = Field(1.0, gt=0)
     deflection_threshold_mpa: float = Field(2.5, gt=0)
     deflection_max_incidence_deg: float = Field(45.0, ge=0, le=90)
+    # Response of elongation to resistance (rootsim.soil.strength): "exponential" (the halving law above) or
+    # "linear_to_limit" (stops at limiting_resistance_mpa); per-class sensitivity: a root of radius r feels
+    # R * (resistance_reference_radius_cm / r) ** resistance_radius_exponent.
+    elongation_response: Literal["exponential", "linear_to_limit"] = "exponential"
+    limiting_resistance_mpa: float = Field(2.5, gt=0, le=100)
+    resistance_reference_radius_cm: float = Field(0.05, gt=0, le=10)
+    resistance_radius_exponent: float = Field(0.0, ge=0, le=4)
     layers: list[SoilLayer] = Field(default_factory=list)
     # 3D soil fields and biopores (rootsim/soil/; compiled by rootsim.soil.build)
     fields: dict[str, SoilFieldSpec] = Field(default_factory=dict)
@@ -240,6 +247,9 @@ class RootClass(_Model):
     radial_placement: Literal["random", "spiral"] = "random"
     spiral_divergence_deg: float = Field(137.5, ge=0, le=360)
     branches: list[Branch] = Field(default_factory=list)
+    # responses to named soil fields (rootsim.soil.schema; wired in rootsim.growth.step)
+    field_tropism: FieldTropism | None = None
+    proliferation: Proliferation | None = None
 
     @model_validator(mode="after")
     def _ranges(self):
@@ -274,7 +284,10 @@ class Spec(_Model):
     @model_validator(mode="after")
     def _soil_inputs(self):
         """Read and check the files the soil and development sections name (rootsim.soil.build)."""
-        if not (self.soil.fields or self.soil.biopores or self.weather or self.development.clock != "calendar"):
+        responds = any(c.field_tropism is not None or c.proliferation is not None
+                       for c in self.root_classes.values())
+        if not (self.soil.fields or self.soil.biopores or self.weather or self.development.clock != "calendar"
+                or responds):
             return self
         from .soil.build import check_spec_inputs
 

@@ -84,6 +84,56 @@ def _emergence_events(spec: Spec, classes: ClassTable):
             np.asarray(columns[6], dtype=np.float64))
 
 
+def _soil_inputs(spec: Spec, classes: ClassTable):
+    """Arguments of the compiled step for 3D soil fields and biopores, and whether the spec has biopores.
+
+    The layer arrays (:func:`~rootsim.growth.soil.soil_arrays`) serve specs that only have ``[[soil.layers]]``
+    and the default response, so their growth is unchanged. Otherwise resistance comes from the field
+    ``penetration_resistance_mpa`` (``[soil.fields]``, or ``[[soil.layers]]`` compiled to a field with the same
+    layer rule), read through :func:`rootsim.soil.fields.value_at` at each tip, with the response and per-class
+    sensitivity of ``[soil]`` (:mod:`rootsim.soil.strength`); biopores come from
+    :func:`rootsim.soil.build.biopores_from_spec` (seeded by ``run.seed``). Per class: the field index and
+    strength of ``field_tropism`` and the field index, half-saturation value and maximum factor of
+    ``proliferation`` (-1: none).
+    """
+    from ..soil.biopores import biopores_from_list
+    from ..soil.build import biopores_from_spec, soil_fields_from_spec
+    from ..soil.fields import compile_fields
+    from ..soil.strength import EXPONENTIAL, LINEAR_TO_LIMIT
+
+    soil = spec.soil
+    responds = any(c.field_tropism is not None or c.proliferation is not None for c in classes.classes)
+    use = bool(soil.fields) or soil.biopores is not None or soil.elongation_response != "exponential" \
+        or soil.resistance_radius_exponent != 0 or responds
+    fields = soil_fields_from_spec(spec) if use else compile_fields({})
+    pores = biopores_from_spec(spec) if soil.biopores is not None else None
+    empty = np.zeros((0, 3))
+    compiled_pores = (pores if pores is not None else biopores_from_list(empty, empty, np.zeros(0))).compiled
+    resistance_field = fields.names.index("penetration_resistance_mpa") \
+        if "penetration_resistance_mpa" in fields.names else -1
+    if soil.elongation_response == "linear_to_limit":
+        code, parameter = LINEAR_TO_LIMIT, soil.limiting_resistance_mpa
+    else:
+        code, parameter = EXPONENTIAL, soil.elongation_halving_resistance_mpa
+    arguments = (bool(use), fields.compiled, int(resistance_field), int(code), float(parameter),
+                 float(soil.resistance_reference_radius_cm), float(soil.resistance_radius_exponent), compiled_pores,
+                 float(pores.resistance_mpa if pores is not None else 0.0),
+                 float(soil.biopores.entry_probability if soil.biopores is not None else 1.0))
+    n = len(classes.classes)
+    tropism_field, tropism_strength = np.full(n, -1, np.int64), np.zeros(n)
+    proliferation_field, proliferation_half, proliferation_max = np.full(n, -1, np.int64), np.ones(n), np.ones(n)
+    for c, root_class in enumerate(classes.classes):
+        if root_class.field_tropism is not None:
+            tropism_field[c] = fields.index(root_class.field_tropism.field)
+            tropism_strength[c] = root_class.field_tropism.strength_per_cm
+        if root_class.proliferation is not None:
+            proliferation_field[c] = fields.index(root_class.proliferation.field)
+            proliferation_half[c] = root_class.proliferation.half_saturation_value
+            proliferation_max[c] = root_class.proliferation.maximum_factor
+    arguments += (tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max)
+    return arguments, pores is not None
+
+
 def _metadata(spec: Spec, positions: np.ndarray, class_names: list[str]) -> dict:
     st = spec.stand
     c = spec.container
@@ -114,6 +164,7 @@ class _PlantResult:
     def __init__(self, out):
         float_chunks, parent_chunks, root_chunks, chunk_counts, self.n_segments, root_float, root_int = out[:7]
         self.dead_at_end = out[7]
+        pore_chunks = out[11]
         n_fields = len(SEGMENT_FLOAT_FIELDS)
         self.chunk_counts = [int(m) for m in chunk_counts]
         n_chunks = len(self.chunk_counts)
@@ -121,14 +172,16 @@ class _PlantResult:
         self.float_chunks = {name: floats[f::n_fields] for f, name in enumerate(SEGMENT_FLOAT_FIELDS)}
         self.parent_chunks = [chunk_item(parent_chunks, i) for i in range(n_chunks)]
         self.root_chunks = [chunk_item(root_chunks, i) for i in range(n_chunks)]
-        del floats, float_chunks, parent_chunks, root_chunks
+        self.pore_chunks = [chunk_item(pore_chunks, i) for i in range(n_chunks)]
+        del floats, float_chunks, parent_chunks, root_chunks, pore_chunks
         self.radius = np.ascontiguousarray(root_float[:, R_RADIUS])
         self.order = np.ascontiguousarray(root_int[:, R_ORDER])
         self.class_code = np.ascontiguousarray(root_int[:, R_CLASS], dtype=np.int16)
         self.n_roots = len(self.radius)
 
 
-def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, np.ndarray]:
+def _assemble(plants: list[_PlantResult], class_names: list[str], *, in_biopore: bool = False
+              ) -> dict[str, np.ndarray]:
     """The segment table's columns from the plants' chunks.
 
     One column (or the columns derived from one chunk column) at a time, releasing each chunk array once
@@ -179,6 +232,12 @@ def _assemble(plants: list[_PlantResult], class_names: list[str]) -> dict[str, n
     columns["radius_cm"] = radius
     columns["length_cm"] = floats["length_cm"]
     columns["birth_day"] = floats["birth_day"]
+    if in_biopore:  # extra column: the segment grew while its tip followed a biopore
+        column = np.empty(n, dtype=bool)
+        for _, _, chunk, m, offset in each_chunk(lambda p: p.pore_chunks):
+            column[offset: offset + m] = chunk[:m] != 0
+            del chunk
+        columns["in_biopore"] = column
     return columns
 
 
@@ -231,6 +290,7 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
     bottoms, factor, tops, sin_max = soil_arrays(spec.soil)
     soil = (bottoms, factor, tops, float(sin_max))
     box = container_box(spec.container)
+    soil_3d, has_pores = _soil_inputs(spec, classes)
     log_x, ratio = tangent_variance_table()
     duration = spec.run.duration_days
     dt = spec.run.time_step_days
@@ -250,8 +310,8 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             # Plain Python scalars of fixed types: one compiled (and cached) version serves every spec.
             out = grow_plant(rng, float(x), float(y), float(z), *events, *tables, *soil, box, log_x, ratio,
                              float(duration), float(dt), int(n_steps), bool(classes.has_lifespan),
-                             int(budget - n_segments), int(budget - n_roots), int(budget))
-            status, count, day = out[8:]
+                             int(budget - n_segments), int(budget - n_roots), int(budget), *soil_3d)
+            status, count, day = out[8:11]
             if status != STATUS_OK:
                 before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants
                 reached = count + before
@@ -262,7 +322,7 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             n_roots += plant.n_roots
             plants.append(plant)
             bar.update(duration)
-    columns = _assemble(plants, classes.names)
+    columns = _assemble(plants, classes.names, in_biopore=has_pores)
     if classes.has_lifespan:
         columns = _drop_dead(columns, plants)
     return RootSystem(columns, _metadata(spec, positions, classes.names), validate=False)

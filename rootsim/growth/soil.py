@@ -8,9 +8,9 @@ arrays built once per run by :func:`soil_arrays` and :func:`container_box`:
 * :func:`constrain` – keep a step inside the soil and the container (slide along the boundary),
 * :func:`clamp` – move a point into the soil volume.
 
-Today the soil is a stack of depth layers; a 3D field (or biopores, or gradient tropisms) replaces
-the bodies of these functions and the arrays they take, not the step. Positions are (x, y, z) in cm,
-z up, soil surface at z = 0; depth is -z.
+These serve soils given as depth layers alone; 3D fields, biopores and field responses are read by the
+step through the kernels of :mod:`rootsim.soil` (see :func:`rootsim.growth.step.grow_plant`). Positions
+are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
 """
 
 from __future__ import annotations

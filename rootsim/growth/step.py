@@ -28,6 +28,9 @@ from numba.typed import List
 
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
+from ..soil.biopores import biopore_at
+from ..soil.fields import gradient_at, value_at
+from ..soil.strength import elongation_factor_kernel
 from .soil import clamp, constrain, contains, deflect, elongation_factor
 from .tropisms import (
     JIT,
@@ -38,6 +41,7 @@ from .tropisms import (
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
+    tan_half_angle,
     toward_direction_turn,
 )
 
@@ -68,11 +72,12 @@ N_PARAMS = len(PARAM_NAMES)
 
 # Growing tips: float fields.
 (T_X, T_Y, T_Z, T_HX, T_HY, T_HZ, T_H0X, T_H0Y, T_H0Z, T_LEN, T_MAXLEN, T_RATE, T_TROP, T_COSPHI, T_SINPHI,
- T_EXO, T_SIGMA, T_APICAL, T_NEXT, T_CARRY, T_HALF) = range(21)
-TIP_NF = 21
-# Growing tips: int fields.
-T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE = range(6)
-TIP_NI = 6
+ T_EXO, T_SIGMA, T_APICAL, T_NEXT, T_CARRY, T_HALF, T_FELT) = range(22)
+TIP_NF = 22
+# Growing tips: int fields (T_PORE: the biopore the tip follows, -1 none; T_DECLINED: the last pore it met and
+# did not enter, or was born in).
+T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE, T_PORE, T_DECLINED = range(8)
+TIP_NI = 8
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
 R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
 ROOT_NF = 7
@@ -91,7 +96,7 @@ PEND_NI = 4
 
 #: Bytes each store uses per item at full capacity (8-byte fields), for the memory bound.
 BYTES_PER_ITEM = {
-    "segments": 8 * len(SEGMENT_FLOAT_FIELDS) + 8 + 4,
+    "segments": 8 * len(SEGMENT_FLOAT_FIELDS) + 8 + 4 + 1,
     "roots": 8 * (ROOT_NF + ROOT_NI + TIP_NF + TIP_NI),
     "pending branch points": 8 * (PEND_NF + PEND_NI),
 }
@@ -103,10 +108,10 @@ _FIRST_CHUNK = 4096
 
 @njit(**JIT)
 def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
-             day):
+             day, pore_chunks):
     """The return value of a plant whose growth stopped at a store's limit."""
     return (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:n_roots].copy(),
-            rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day)
+            rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day, pore_chunks)
 
 
 @njit(**JIT)
@@ -146,7 +151,7 @@ def _draw_root_parameters(rng, kind, values, cls, out):
 
 @njit(**JIT)
 def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
-              params, birth, carry):
+              params, birth, carry, felt_reference_radius_cm, felt_radius_exponent):
     """Write root ``r`` and its growing tip (row ``j`` of the tip store)."""
     rootf[r, R_LEN] = 0.0
     rootf[r, R_PREV] = 0.0
@@ -188,12 +193,19 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipf[j, T_NEXT] = params[P_BASAL]
     tipf[j, T_CARRY] = carry
     tipf[j, T_HALF] = 0.0
+    # resistance felt by this root per unit of soil resistance (thicker roots feel less; rootsim.soil.strength)
+    if felt_radius_exponent == 0:
+        tipf[j, T_FELT] = 1.0
+    else:
+        tipf[j, T_FELT] = (felt_reference_radius_cm / params[P_RADIUS]) ** felt_radius_exponent
     tipi[j, T_ROOT] = r
     tipi[j, T_CLASS] = cls
     tipi[j, T_LAST] = parent_segment
     tipi[j, T_COUNT] = 0
     tipi[j, T_ORDER] = order
     tipi[j, T_DONE] = 0
+    tipi[j, T_PORE] = -1
+    tipi[j, T_DECLINED] = -1
 
 
 @njit(**JIT_INLINE)
@@ -204,6 +216,24 @@ def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropi
     if exotropism > 0:
         hx, hy, hz = toward_direction_turn(hx, hy, hz, h0x, h0y, h0z, half_arc, exotropism)
     return hx, hy, hz
+
+
+@njit(**JIT_INLINE)
+def _toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
+    """:func:`~rootsim.growth.tropisms.toward_direction_turn` with ``shrink = exp(-k s)`` given (one ``exp``
+    serves both halves of a step's turn): tan(beta/2) -> tan(beta/2) * shrink."""
+    cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
+    px = hx - cos_b * tx
+    py = hy - cos_b * ty
+    pz = hz - cos_b * tz
+    sin_b = math.sqrt(px * px + py * py + pz * pz)
+    if not sin_b > 1e-12:
+        return hx, hy, hz
+    half = tan_half_angle(sin_b, cos_b) * shrink
+    h2 = half * half
+    cos_n = (1.0 - h2) / (1.0 + h2)
+    sin_n = 2.0 * half / (1.0 + h2)
+    return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
 
 @njit(**JIT_BORROW)
@@ -232,7 +262,10 @@ def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
 def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
                kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
                soil_bottoms, soil_factor, soil_tops, soil_sin_max, box, log_x_table, ratio_table,
-               duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit):
+               duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
+               use_fields, fields, resistance_field, response_code, response_parameter_mpa,
+               felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
+               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max):
     """Grow one plant over the whole run.
 
     Parameters
@@ -257,6 +290,25 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     has_lifespan : bool
     segment_limit, root_limit, pending_limit : int
         Most segments, roots and pending branch points this plant may hold.
+    use_fields : bool
+        Impedance from the 3D field ``resistance_field`` of ``fields`` (and biopores) instead of the layer
+        arrays ``soil_bottoms``/``soil_factor``.
+    fields : rootsim.soil.fields.CompiledFields
+    resistance_field : int
+        Index of ``penetration_resistance_mpa`` in ``fields`` (-1: no resistance).
+    response_code, response_parameter_mpa : int, float
+        Elongation response (:func:`rootsim.soil.strength.elongation_factor_kernel`).
+    felt_reference_radius_cm, felt_radius_exponent : float
+        Per-root sensitivity ``(reference / radius) ** exponent`` (exponent 0: none).
+    pores : rootsim.soil.biopores.CompiledBiopores
+    pore_resistance_mpa, pore_entry_probability : float
+        Resistance inside a biopore; probability that a tip meeting a pore enters it (once per tip and pore).
+    tropism_field, tropism_strength : ndarray, shape (n_classes,)
+        Per class: the field whose gradient the heading turns toward (-1: none) and the sine law's strength per
+        cm (exact for the gradient's direction at the step's start, like exotropism).
+    proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
+        Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
+        density by ``1 + (max - 1) * v / (v + half)``.
 
     Returns
     -------
@@ -273,11 +325,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         STATUS_OK, or the store that would pass its limit and the count it had reached.
     status_day : float
         Day the growth stopped at.
+    pore_chunks : list of ndarray of uint8
+        Per chunk: 1 where the segment grew while its tip followed a biopore.
     """
     # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
     float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
     parent_chunks = List()
     root_chunks = List()
+    pore_chunks = List()
     chunk_counts = List()  # rows used in each chunk but the current one
     chunk_counts.append(0)
     chunk_counts.pop()
@@ -286,12 +341,21 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     c_len, c_birth = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
     c_parent = np.empty(_FIRST_CHUNK, dtype=np.int64)
     c_root = np.empty(_FIRST_CHUNK, dtype=np.int32)
+    c_pore = np.zeros(_FIRST_CHUNK, dtype=np.uint8)
     for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
         float_chunks.append(column)
     parent_chunks.append(c_parent)
     root_chunks.append(c_root)
+    pore_chunks.append(c_pore)
     chunk_used = 0
     n_seg = 0
+    n_pores = pores.radius_cm.size
+    pores_z_top = -math.inf  # the depth range holding every pore: tips outside it skip the look-up
+    pores_z_bottom = math.inf
+    for p in range(n_pores):
+        pores_z_top = max(pores_z_top, pores.top[p, 2] + pores.radius_cm[p])
+        pores_z_bottom = min(pores_z_bottom, pores.top[p, 2] + pores.axis[p, 2] * pores.length_cm[p]
+                             - pores.radius_cm[p])
 
     tipf = np.empty((16, TIP_NF))
     tipi = np.empty((16, TIP_NI), dtype=np.int64)
@@ -313,7 +377,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     min_interbranch = np.empty(kind.shape[0])  # shortest interbranch distance of each class (bounds the
     for c in range(kind.shape[0]):  # branch points one step can pass)
         row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
-        min_interbranch[c] = values[c, P_INTERBRANCH, row]
+        min_interbranch[c] = values[c, P_INTERBRANCH, row] / proliferation_max[c]
     ev = 0
     status = STATUS_OK
     status_count = 0
@@ -358,7 +422,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             for slot in range(count):
                 if n_roots >= root_limit:
                     return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
-                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
                 _draw_root_parameters(rng, kind, values, cls, params)
@@ -369,7 +433,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 tipf = _room(tipf, n_tips, root_limit)
                 tipi = _room(tipi, n_tips, root_limit)
                 _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, 0, -1, -1, x, y, z, hx, hy, hz, params,
-                          event_day[ev], -(event_day[ev] - t0))
+                          event_day[ev], -(event_day[ev] - t0), felt_reference_radius_cm, felt_radius_exponent)
                 n_roots += 1
                 n_tips += 1
             ev += 1
@@ -397,10 +461,12 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             c_len, c_birth = np.empty(size), np.empty(size)
             c_parent = np.empty(size, dtype=np.int64)
             c_root = np.empty(size, dtype=np.int32)
+            c_pore = np.zeros(size, dtype=np.uint8)
             for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
                 float_chunks.append(column)
             parent_chunks.append(c_parent)
             root_chunks.append(c_root)
+            pore_chunks.append(c_pore)
             chunk_used = 0
         n_stepped = n_tips
         j = 0
@@ -421,7 +487,34 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 dt = (t1 - t0) + tipf[j, T_CARRY]
                 length = tipf[j, T_LEN]
                 max_len = tipf[j, T_MAXLEN]
-                rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
+                pore = -1
+                proliferation = 1.0
+                if use_fields:
+                    if n_pores > 0:
+                        pore = tipi[j, T_PORE]
+                        if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
+                            met = biopore_at(pores, sx, sy, sz)
+                            if met >= 0 and met != tipi[j, T_DECLINED]:
+                                if pore_entry_probability >= 1.0 or rng.random() < pore_entry_probability:
+                                    pore = met
+                                    tipi[j, T_PORE] = met
+                                else:
+                                    tipi[j, T_DECLINED] = met
+                    if pore >= 0:
+                        resistance = pore_resistance_mpa
+                    elif resistance_field >= 0:
+                        resistance = value_at(fields, resistance_field, sx, sy, sz)
+                    else:
+                        resistance = 0.0
+                    rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
+                                                                      response_parameter_mpa, tipf[j, T_FELT])
+                    if proliferation_field[cls] >= 0:
+                        level = max(value_at(fields, proliferation_field[cls], sx, sy, sz), 0.0)
+                        proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level \
+                            / (level + proliferation_half[cls])
+                        rate *= proliferation
+                else:
+                    rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
                 if law_negexp[cls]:
                     grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
                 else:
@@ -443,6 +536,19 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 exotropism, h0x, h0y, h0z = tipf[j, T_EXO], tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z]
                 hx, hy, hz = _tropic_half_turn(tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc, strength,
                                                cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
+                # tropism toward the gradient of a field: the sine law toward its direction at the step's start
+                field_pull = 0.0
+                field_shrink = 1.0
+                gx, gy, gz = 0.0, 0.0, 0.0
+                if use_fields and tropism_field[cls] >= 0 and pore < 0:
+                    gx, gy, gz = gradient_at(fields, tropism_field[cls], sx, sy, sz)
+                    gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
+                    if gnorm > 0 and math.isfinite(gnorm):
+                        gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
+                        field_pull = tropism_strength[cls]
+                        field_shrink = math.exp(-field_pull * (0.5 * arc))
+                if field_pull > 0:
+                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -452,9 +558,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     drawn = True
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
                                                log_x_table, ratio_table)
+                if field_pull > 0:
+                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
                                                h0y, h0z)
-                hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+                if pore >= 0:  # a tip in a biopore follows its axis (no tropism, no deflection by layers)
+                    hx, hy, hz = pores.axis[pore, 0], pores.axis[pore, 1], pores.axis[pore, 2]
+                else:
+                    hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:
@@ -471,7 +582,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
                         return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
-                                        rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0)
+                                        rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0, pore_chunks)
                     c = chunk_used
                     c_x0[c] = sx
                     c_y0[c] = sy
@@ -483,6 +594,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     c_birth[c] = t1 - 0.5 * dt
                     c_parent[c] = tipi[j, T_LAST]
                     c_root[c] = root
+                    c_pore[c] = 1 if pore >= 0 else 0
                     seg_id = n_seg
                     chunk_used += 1
                     n_seg += 1
@@ -499,7 +611,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         if child >= 0:
                             if n_pend >= pending_limit:
                                 return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
-                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
                             if free_row >= 0:
                                 q = free_row
                                 free_row = pendi[q, Q_NEXT]
@@ -508,7 +620,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
                                 return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
-                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0)
+                                                rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
                             pendf[q, Q_Y] = sy + frac * seg_y
@@ -530,9 +642,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             n_pend += 1
                         tipi[j, T_COUNT] += 1
                         if kind[cls, P_INTERBRANCH] == FIXED:
-                            nxt += values[cls, P_INTERBRANCH, 0]
+                            nxt += values[cls, P_INTERBRANCH, 0] / proliferation
                         else:
-                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random())
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random()) / proliferation
                     tipf[j, T_NEXT] = nxt
                     # Commit the tip.
                     tipi[j, T_LAST] = seg_id
@@ -544,6 +656,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     tipf[j, T_HZ] = hz
                     tipf[j, T_HALF] = 0.5 * seg_len
                     tipf[j, T_LEN] = new_length
+                    if pore >= 0:  # past the pore's bottom (or pushed out of it by a wall): back in the soil
+                        rx, ry, rz = ex - pores.top[pore, 0], ey - pores.top[pore, 1], ez - pores.top[pore, 2]
+                        along = rx * pores.axis[pore, 0] + ry * pores.axis[pore, 1] + rz * pores.axis[pore, 2]
+                        off2 = rx * rx + ry * ry + rz * rz - along * along
+                        if along >= pores.length_cm[pore] or off2 > pores.radius_cm[pore] ** 2:
+                            tipi[j, T_PORE] = -1
+                            tipi[j, T_DECLINED] = pore
                 rootf[root, R_PREV] = rootf[root, R_LEN]
                 rootf[root, R_LEN] = new_length
                 rootf[root, R_DT] = dt
@@ -577,7 +696,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
                     return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
-                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0)
+                                    rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
@@ -590,7 +709,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                                     math.radians(params[P_INSERTION]), azimuth)
                 _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, rooti[pr, R_ORDER] + 1, pr,
                           pendi[q, Q_SEGMENT], pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params,
-                          t1 - carry, carry)
+                          t1 - carry, carry, felt_reference_radius_cm, felt_radius_exponent)
+                if n_pores > 0:  # a lateral born in a biopore grows out of it into the soil
+                    tipi[n_tips, T_DECLINED] = biopore_at(pores, pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z])
                 n_roots += 1
                 n_tips += 1
                 following = pendi[q, Q_NEXT]
@@ -621,7 +742,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         counts[c] = chunk_counts[c]
     return (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
-            dead_at_end, STATUS_OK, 0, duration)
+            dead_at_end, STATUS_OK, 0, duration, pore_chunks)
 
 
 @njit(**JIT)

@@ -325,12 +325,24 @@ def biopores_from_spec(spec, *, seed: int | None = None) -> Biopores | None:
         raise SpecError(spec.source, exc.key, exc.problem, exc.allowed) from None
 
 
+def _check_field_references(spec) -> None:
+    """Fields named by root classes (``field_tropism``, ``proliferation``) must be defined."""
+    defined = set(spec.soil.fields) | ({"penetration_resistance_mpa"} if spec.soil.layers else set())
+    for class_name, root_class in spec.root_classes.items():
+        for key in ("field_tropism", "proliferation"):
+            response = getattr(root_class, key)
+            if response is not None and response.field not in defined:
+                raise _Problem(f"root_classes.{class_name}.{key}.field", f"soil field {response.field!r} is not "
+                               "defined", f"a field of [soil.fields] ({', '.join(sorted(defined)) or 'none defined'})")
+
+
 def check_spec_inputs(spec):
     """``None`` when the soil, weather and development sections are usable, else ``(key, problem, allowed)``.
 
     Reads every file the sections name (grids, depth tables, the weather table) and checks field references.
     """
     try:
+        _check_field_references(spec)
         if spec.soil.fields:
             _fields(spec)
         if spec.soil.biopores is not None:

@@ -12,7 +12,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 __all__ = ["SoilFieldLayer", "SoilFieldGrid", "SoilFieldPatch", "SoilPedotransfer", "SoilFieldSpec",
-           "BioporeChannel", "BioporeSpec", "Weather", "Development"]
+           "BioporeChannel", "BioporeSpec", "Weather", "Development", "FieldTropism", "Proliferation"]
 
 
 class _Model(BaseModel):
@@ -173,6 +173,8 @@ class BioporeSpec(_Model):
     depth_top_cm: float = Field(0.0, ge=0)
     depth_bottom_cm: float = Field(100.0, gt=0)
     resistance_mpa: float = Field(0.0, ge=0, le=50)
+    # probability that a growing tip meeting a pore enters it (drawn once per tip and pore)
+    entry_probability: float = Field(1.0, ge=0, le=1)
     channels: list[BioporeChannel] = Field(default_factory=list)
 
     @model_validator(mode="after")
@@ -219,3 +221,23 @@ class Development(_Model):
                              "< maximum_temperature_c")
         return self
 
+
+
+class FieldTropism(_Model):
+    """A root class's turn toward the gradient of a named soil field (``[root_classes.NAME] field_tropism``):
+    per cm of growth the heading turns toward the gradient's direction by the sine law at ``strength_per_cm``
+    (toward wetter soil with ``volumetric_water_content``, toward a nutrient with ``nitrate_mg_per_kg``, ...)."""
+
+    field: str
+    strength_per_cm: float = Field(ge=0, le=10)
+
+
+class Proliferation(_Model):
+    """A root class's response to a named soil field (``[root_classes.NAME] proliferation``): its elongation
+    and the density of branch points along its roots are multiplied by the saturating (Michaelis-Menten form)
+    curve ``1 + (maximum_factor - 1) * v / (v + half_saturation_value)`` of the field's value ``v`` (negative
+    values count as 0) at the tip."""
+
+    field: str
+    half_saturation_value: float = Field(gt=0)
+    maximum_factor: float = Field(ge=1, le=20)
