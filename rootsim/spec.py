@@ -40,8 +40,8 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, PlainSeriali
 
 from .distributions import Distribution, Fixed, Normal, ValueRange, parse_distribution
 from .errors import SpecError
-from .soil.schema import (BioporeChannel, BioporeSpec, Development, FieldTropism, Proliferation, SoilFieldGrid,
-                          SoilFieldLayer, SoilFieldPatch, SoilFieldSpec, SoilPedotransfer, Weather)
+from .soil.schema import (BioporeChannel, BioporeSpec, DepthInterval, Development, FieldTropism, Proliferation,
+                          SoilFieldGrid, SoilFieldLayer, SoilFieldPatch, SoilFieldSpec, SoilPedotransfer, Weather)
 
 __all__ = ["Spec", "RootClass", "Branch", "Emergence", "Stand", "Soil", "SoilLayer", "Container", "Run",
            "load_spec", "load_spec_layers", "merge_layers", "parse_spec", "PARAMETER_RANGES",
@@ -98,18 +98,8 @@ class Stand(_Model):
         return self.row_spacing_cm * self.plant_spacing_cm * self.n_plants
 
 
-class SoilLayer(_Model):
-    depth_top_cm: float = Field(ge=0)
-    depth_bottom_cm: float = Field(gt=0)
+class SoilLayer(DepthInterval):
     penetration_resistance_mpa: float = Field(ge=0, le=50)
-
-    @model_validator(mode="after")
-    def _ordered(self):
-        if self.depth_bottom_cm <= self.depth_top_cm:
-            raise ValueError(
-                f"depth_bottom_cm ({self.depth_bottom_cm:g}) must be greater than depth_top_cm ({self.depth_top_cm:g})"
-            )
-        return self
 
 
 class Soil(_Model):

@@ -127,6 +127,27 @@ def test_interleaved_plants_give_the_traits_of_each_plant_alone():
             mine = traits["plants"][k]
             assert mine.keys() == alone.keys()
             assert list(mine.values()) == pytest.approx(list(alone.values()), rel=1e-12)
+    # Independent references for both paths, per plant: length summed from the coordinates; the hull of all
+    # segment ends (laterals start on their parents' segments, inside it) by trimesh; the width as the largest
+    # horizontal distance between two of those points by brute force (scipy pdist). Counted by hand: 4 axes
+    # with 2 laterals each are 12 roots, one tip each; Fitter's links (Fitter 1987, New Phytol. 106 (Suppl.):61-77;
+    # from memory): magnitude = 12 tips, altitude = 3 links (base to first branch, to the second, to the axis
+    # tip), external path length = 4 x (3 + 2 + 3) = 32, topological index = log(altitude) / log(magnitude).
+    import trimesh
+    from scipy.spatial.distance import pdist
+
+    plant = np.asarray(system["plant_id"])
+    p0 = np.column_stack([np.asarray(system[f"{a}0"]) for a in "xyz"])
+    p1 = np.column_stack([np.asarray(system[f"{a}1"]) for a in "xyz"])
+    for k in range(3):
+        points = np.concatenate([p0[plant == k], p1[plant == k]])
+        expected = {"plant_id": k, "total_length_cm": np.linalg.norm(p1 - p0, axis=1)[plant == k].sum(), "n_tips": 12,
+                    "width_cm": pdist(points[:, :2]).max(),
+                    "convex_hull_volume_cm3": trimesh.convex.convex_hull(points).volume,
+                    "magnitude": 12, "altitude": 3, "external_path_length": 32,
+                    "topological_index": np.log(3) / np.log(12)}
+        for traits in (whole, chunked):
+            assert traits["plants"][k] == pytest.approx(expected, rel=1e-9)
 
 
 def test_plant_rows_of_a_grouped_table_are_slices():

@@ -23,12 +23,19 @@ class _Terminal(io.StringIO):
         return True
 
 
-def test_stage_writes_one_line_with_seconds_in_logs():
+def test_stage_writes_one_line_with_seconds_in_logs(monkeypatch):
+    # The stage's seconds are the clock's difference between entering and leaving: a stand-in clock that reads
+    # 100.0 s and then 102.5 s gives 2.5 s, written with two decimals below 10 s.
+    import time
+
     log = io.StringIO()
+    readings = iter([100.0, 102.5])
+    monkeypatch.setattr(time, "perf_counter", lambda: next(readings))
     with stage("writing x.parquet", stream=log, min_seconds=0.0) as s:
         pass
-    assert re.fullmatch(r"writing x\.parquet: \d+\.\d\d s\n", log.getvalue())
-    assert s.seconds >= 0.0
+    monkeypatch.undo()
+    assert s.seconds == 2.5
+    assert log.getvalue() == "writing x.parquet: 2.50 s\n"
 
 
 def test_stage_on_a_terminal_shows_the_label_while_running_then_the_time():
@@ -85,6 +92,69 @@ def many_plant_system(n_plants: int, segments_per_plant: int, *, seed: int = 5):
     return RootSystem(cols, meta)
 
 
+def _length_above(depth_cm, top, base, length):
+    """Root length above ``depth_cm`` with each segment's length spread evenly over its depth range and a
+    horizontal segment counted below its own depth (half-open layers), by direct summation, cm."""
+    steep = base > top
+    span = np.where(steep, base - top, 1.0)
+    share = np.where(steep, np.clip((depth_cm - top) / span, 0.0, 1.0), top < depth_cm)
+    return float(np.sum(length * share))
+
+
+def test_chunked_and_whole_table_analysis_against_direct_sums():
+    # Independent references for both paths: layer lengths as differences of the root length above each depth,
+    # summed directly; D50/D95 as the roots of that cumulative length (scipy brentq); the Gale & Grigal beta
+    # (Gale & Grigal 1987, Can. J. For. Res. 17:829-834, doi:10.1139/x87-131) by scipy curve_fit of
+    # Y = 1 - beta**d at the layer bottoms; totals, orders, roots and tips counted by hand (8 random-walk roots
+    # per plant, each root one tip; every 7th root, from the 6th on, a lateral of order 1).
+    from scipy.optimize import brentq, curve_fit
+
+    from rootsim.analysis import layer_profile, root_traits
+    from rootsim.analysis.chunked import chunked_layer_profile, chunked_root_traits
+
+    n_plants, per_plant = 5, 3000
+    system = many_plant_system(n_plants, per_plant)
+    p0 = np.column_stack([np.asarray(system[f"{a}0"]) for a in "xyz"])
+    p1 = np.column_stack([np.asarray(system[f"{a}1"]) for a in "xyz"])
+    length = np.linalg.norm(p1 - p0, axis=1)
+    top, base = np.minimum(-p0[:, 2], -p1[:, 2]), np.maximum(-p0[:, 2], -p1[:, 2])
+    total = length.sum()
+    area = 3600.0 * n_plants
+    n_roots = 8 * n_plants
+    lateral_roots = np.arange(n_plants, n_roots, 7)
+    order = np.isin(np.asarray(system["root_id"]), lateral_roots).astype(int)
+
+    for options, bottom in (({}, float(np.ceil(base.max() / 5.0)) * 5.0), ({"max_depth_cm": 40.0}, 40.0)):
+        edges = np.arange(0.0, bottom + 1e-9, 5.0)
+        above = np.array([_length_above(e, top, base, length) for e in edges])
+        for profile in (layer_profile(system, layer_cm=5.0, **options),
+                        chunked_layer_profile(system, layer_cm=5.0, chunk_segments=997, **options)):
+            np.testing.assert_allclose(profile["depth_top_cm"], edges[:-1])
+            np.testing.assert_allclose(profile["root_length_cm"], np.diff(above), rtol=1e-9, atol=1e-9)
+            np.testing.assert_allclose(profile["rld_cm_per_cm3"], np.diff(above) / (area * 5.0), rtol=1e-9)
+
+    quantiles = [brentq(lambda d: _length_above(d, top, base, length) - f * total, 0.0, base.max(), xtol=1e-12)
+                 for f in (0.5, 0.95)]
+    n_layers = int(np.ceil(base.max() / 5.0))
+    bottoms = 5.0 * np.arange(1, n_layers + 1)
+    fractions = np.array([_length_above(d, top, base, length) for d in bottoms]) / total
+    (beta,), _ = curve_fit(lambda d, b: 1.0 - b ** d, bottoms, fractions, p0=[0.9], bounds=(0.0, 1.0))
+    whole = root_traits(system, layer_cm=5.0)
+    chunked = chunked_root_traits(system, layer_cm=5.0, chunk_segments=997)
+    for traits in (whole, chunked):
+        assert traits["n_segments"] == n_plants * per_plant
+        assert traits["n_roots"] == n_roots and traits["n_tips"] == n_roots
+        assert traits["total_length_cm"] == pytest.approx(total, rel=1e-12)
+        assert traits["root_length_per_ground_area_cm_per_cm2"] == pytest.approx(total / area, rel=1e-12)
+        assert traits["length_by_order_cm"] == pytest.approx(
+            {str(k): v for k, v in enumerate(np.bincount(order, weights=length))}, rel=1e-12)
+        assert traits["max_depth_cm"] == pytest.approx(base.max(), rel=1e-15)
+        assert [traits["d50_depth_cm"], traits["d95_depth_cm"]] == pytest.approx(quantiles, abs=1e-9)
+        assert traits["gale_grigal_beta"] == pytest.approx(beta, rel=1e-6)
+        assert [q["total_length_cm"] for q in traits["plants"]] == pytest.approx(
+            np.bincount(np.asarray(system["plant_id"]), weights=length), rel=1e-12)
+
+
 def test_chunked_analysis_equals_whole_table_analysis():
     from rootsim.analysis import layer_profile, root_traits
     from rootsim.analysis.chunked import chunked_layer_profile, chunked_root_traits
@@ -114,10 +184,12 @@ def test_chunked_analysis_equals_whole_table_analysis():
 def test_chunked_d50_of_a_vertical_root_is_half_its_depth():
     # a straight vertical root of uniform density from the surface to 40 cm: D50 = 20 cm, D95 = 38 cm (analytic)
     from rootsim.analysis.chunked import chunked_quantile_depths
+    from rootsim.analysis.depth_distribution import quantile_depths
 
     z = np.linspace(0.0, -40.0, 401)
     table = {"z0": z[:-1], "z1": z[1:], "length_cm": np.full(400, 0.1)}
     assert chunked_quantile_depths(table, (0.5, 0.95), chunk_segments=37) == pytest.approx([20.0, 38.0], abs=1e-9)
+    assert quantile_depths(-z[:-1], -z[1:], table["length_cm"], (0.5, 0.95)) == pytest.approx([20.0, 38.0], abs=1e-9)
 
 
 def test_analyze_stays_within_the_memory_budget_stated_in_the_readme(tmp_path, capsys, monkeypatch):

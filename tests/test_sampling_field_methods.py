@@ -204,3 +204,61 @@ def test_tennant_error_for_oriented_roots(angle_deg, expected):
     df = sample_projection(lines_system(mid - half, mid + half), grid_cm=1.0, frame=(-20, 20, 0, 40))
     ratio = df["length_tennant_cm"].sum() / df["projected_length_true_cm"].sum()
     assert ratio == pytest.approx(expected, rel=0.015)
+
+
+# ---- gap and wall growth on isotropic roots of known length density ------------------------------------
+
+def _isotropic_tube_field(gap_cm, wall_growth_fraction):
+    """Isotropic segments (length density L_V) around a vertical tube: 6 windows of 5 cm, a gap above 15 cm."""
+    segment_cm, n = 0.2, 400_000
+    box_lo, box_hi = np.array([-3.5, -3.5, -31.0]), np.array([3.5, 3.5, 1.0])
+    p0, p1 = isotropic_lines(n, box_lo=box_lo, box_hi=box_hi, length_cm=segment_cm, rng=np.random.default_rng(47))
+    density = n * segment_cm / np.prod(box_hi - box_lo)  # cm of root per cm3 of soil
+    t = Tube(x_cm=0, y_cm=0, angle_from_vertical_deg=0, length_cm=30, outer_diameter_cm=2 * R, depth_of_field_cm=F,
+             window_cm=5, gap_cm=gap_cm, gap_depth_cm=15, wall_growth_fraction=wall_growth_fraction)
+    return lines_system(p0, p1), t, density, segment_cm
+
+
+def _four_standard_errors(expected_cm, segment_cm):
+    # The length inside a region is a sum of independent per-segment pieces X_i with 0 <= X_i <= segment length
+    # l, so its variance is at most sum E[X_i^2] <= l x expected length.
+    return 4.0 * math.sqrt(segment_cm * expected_cm)
+
+
+def test_gap_wider_than_the_depth_of_field_leaves_an_empty_image():
+    # Analytic: with a gap of 0.3 cm > F = 0.2 cm the soil starts beyond the seen shell, so the windows above the
+    # gap depth see no root at all (and roots cannot grow along a wall they do not touch); below it the shell
+    # R..R + F holds L_V x pi ((R + F)^2 - R^2) x window length of isotropic roots in expectation (uniform
+    # length density, common practice in stereology).
+    from dataclasses import replace
+
+    system, t, density, segment_cm = _isotropic_tube_field(0.3, 0.1)
+    df = sample_tube(system, tubes=[t])
+    in_gap = df["gap_cm"].to_numpy() > 0
+    assert in_gap.tolist() == [True, True, True, False, False, False]
+    assert np.all(df.loc[in_gap, "image_length_cm"].to_numpy() == 0.0)
+    assert np.all(df.loc[in_gap, "visible_length_cm"].to_numpy() == 0.0)
+    expected = density * math.pi * ((R + F) ** 2 - R ** 2) * 15.0
+    seen = df.loc[~in_gap, "visible_length_cm"].sum()
+    assert abs(seen - expected) < _four_standard_errors(expected, segment_cm)
+    # a gap narrower than F leaves the shell R + gap .. R + F in view
+    narrow = sample_tube(system, tubes=[replace(t, gap_cm=0.1)])
+    expected = density * math.pi * ((R + F) ** 2 - (R + 0.1) ** 2) * 15.0
+    seen = narrow.loc[in_gap, "visible_length_cm"].sum()
+    assert abs(seen - expected) < _four_standard_errors(expected, segment_cm)
+
+
+def test_wall_growth_adds_the_stated_fraction_of_the_length_where_the_tube_is():
+    # Analytic: where tube and soil touch, wall growth adds wall_growth_fraction x the root length inside radius
+    # R, which for roots of length density L_V is L_V x pi R^2 x window length in expectation; in the gap windows
+    # it adds nothing.
+    from dataclasses import replace
+
+    fraction = 0.1
+    system, t, density, segment_cm = _isotropic_tube_field(0.1, fraction)
+    with_growth, without = (sample_tube(system, tubes=[tube])["image_length_cm"].to_numpy()
+                            for tube in (t, replace(t, wall_growth_fraction=0.0)))
+    gain = with_growth - without
+    assert np.all(gain[:3] == 0.0)
+    inside_tube = density * math.pi * R ** 2 * 15.0
+    assert abs(gain[3:].sum() / fraction - inside_tube) < _four_standard_errors(inside_tube, segment_cm)

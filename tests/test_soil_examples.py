@@ -21,12 +21,19 @@ def test_check_accepts_the_shipped_soil_examples(name, capsys):
 def test_plough_pan_fields_and_biopores_through_the_pan():
     spec = load_spec(PARAMS / "field_plough_pan.toml")
     fields = soil_fields_from_spec(spec)
-    depth = np.array([10.0, 30.0, 50.0])
-    # the pan (25-35 cm) is densest and strongest, as written in the file
-    np.testing.assert_allclose(fields.values("bulk_density_g_per_cm3", 0, 0, -depth), [1.35, 1.68, 1.48])
-    np.testing.assert_allclose(fields.values("penetration_resistance_mpa", 0, 0, -depth), [0.6, 2.8, 1.1])
-    # water content from the depth table: linear between 35 cm (0.27) and 80 cm (0.30) -> 0.28 at 50 cm
+    # the layer rule (DEVELOPERS.md): a depth on a boundary (25 and 35 cm) belongs to the layer above, a depth
+    # just below it to the layer below; within a layer the value does not change with depth
+    for name in ("bulk_density_g_per_cm3", "penetration_resistance_mpa"):
+        above_pan = fields.values(name, 0, 0, -np.array([5.0, 24.0, 25.0]))
+        pan = fields.values(name, 0, 0, -np.array([25.0001, 30.0, 35.0]))
+        below_pan = fields.values(name, 0, 0, -np.array([35.0001, 60.0, 199.0]))
+        for block in (above_pan, pan, below_pan):
+            assert np.ptp(block) == 0.0, name
+        assert above_pan[0] != pan[0] != below_pan[0], name
+    # water content from the depth table, linear between rows: 35 cm (0.27) to 80 cm (0.30) -> 0.28 at 50 cm;
+    # 0 cm (0.18) to 20 cm (0.24) -> 0.21 at 10 cm
     assert fields.values("volumetric_water_content", 0, 0, -50.0) == pytest.approx(0.28)
+    assert fields.values("volumetric_water_content", 0, 0, -10.0) == pytest.approx(0.21)
     pores = biopores_from_spec(spec)
     assert pores.count > 1
     assert np.all(pores.top_cm[:, 2] >= -25.0) and np.all(pores.bottom_cm[:, 2] <= -35.0)  # they cross the pan

@@ -15,11 +15,24 @@ def _write(tmp_path, text):
 
 
 def test_reads_days_and_columns(tmp_path):
+    # A table starting on day 1 covers a run over days 1..3 and no run that needs day 0; an absent optional
+    # column reads as its default on every day of the table.
     path = _write(tmp_path, "day,mean_air_temperature_c,rain_mm\n1,12.5,0\n2,14.0,3.2\n3,15.5,0\n")
     table = read_weather_table(path)
-    assert table.day.tolist() == [1, 2, 3]
-    assert table.column("rain_mm").tolist() == [0.0, 3.2, 0.0]
+    assert table.covering(1, 4) is table
+    with pytest.raises(RootsimError, match="needs days 0..3"):
+        table.covering(0, 4)
     assert table.column("irrigation_mm", default=0.0).tolist() == [0.0, 0.0, 0.0]
+
+
+def test_dates_become_days_since_the_first_across_a_leap_day(tmp_path):
+    # Gregorian calendar (common practice): 2032 is a leap year, so 2032-02-28, 02-29 and 03-01 are consecutive
+    # days 0, 1, 2; a table jumping from 02-28 to 03-01 misses day 1 (02-29).
+    path = _write(tmp_path, "date,mean_air_temperature_c\n2032-02-28,5\n2032-02-29,6\n2032-03-01,7\n")
+    assert read_weather_table(path).day.tolist() == [0, 1, 2]
+    path = _write(tmp_path, "date,mean_air_temperature_c\n2032-02-28,5\n2032-03-01,7\n")
+    with pytest.raises(RootsimError, match="days 1..1 are missing"):
+        read_weather_table(path)
 
 
 def test_mean_from_min_and_max_is_their_average(tmp_path):

@@ -117,7 +117,7 @@ def chunked_quantile_depths(system: Any, fractions, *, n_bins: int = 128,
     """Exact D50/D95-style depths (cm) as :func:`rootsim.analysis.depth_distribution.quantile_depths`,
     with both of its passes done chunk by chunk (the segments reaching into the layer holding a
     quantile are few, and only they are gathered)."""
-    from .depth_distribution import cumulative_depth
+    from .depth_distribution import depth_in_quantile_layer, quantile_layer
 
     n = len(np.asarray(system["z0"]))
     total, shallowest, deepest = 0.0, np.inf, -np.inf
@@ -140,34 +140,16 @@ def chunked_quantile_depths(system: Any, fractions, *, n_bins: int = 128,
     cum = np.cumsum(layers)
     out = []
     for fraction in fractions:
-        target = float(fraction) * cum[-1]
-        k = min(int(np.searchsorted(cum, target, side="left")), n_bins - 1)
-        above = float(cum[k - 1]) if k > 0 else 0.0
-        a, b = k * h, (span if k == n_bins - 1 else (k + 1) * h)
+        layer = quantile_layer(cum, fraction, layer_cm=h, span_cm=span)
         pieces = []
         for start, stop in _chunks(n, chunk_segments):
             d0, d1, w = _depths(system, start, stop)
             s0, s1 = d0 - shallowest, d1 - shallowest
             top, base = np.minimum(s0, s1), np.maximum(s0, s1)
-            near = np.flatnonzero((top <= b) & (base >= a))
+            near = np.flatnonzero((top <= layer.bottom_cm) & (base >= layer.top_cm))
             pieces.append((top[near], base[near], w[near]))
-        t = np.concatenate([p[0] for p in pieces])
-        u = np.concatenate([p[1] for p in pieces])
-        w = np.concatenate([p[2] for p in pieces])
-        steep = u > t
-        with np.errstate(divide="ignore", invalid="ignore"):
-            density = np.where(steep, w / np.where(steep, u - t, 1.0), 0.0)
-        lo, hi = np.maximum(t, a), np.minimum(u, b)
-        # horizontal segments belong to the layer their depth falls in (as in depth_layer_lengths)
-        flat_here = ~steep & (np.minimum(np.floor(t / h), n_bins - 1) == k)
-        piece = np.where(steep, np.clip(hi - lo, 0.0, None) * density, np.where(flat_here, w, 0.0))
-        keep = piece > 0
-        sub = cumulative_depth(lo[keep], np.where(steep, hi, lo)[keep], piece[keep])
-        if sub.total_cm <= 0:
-            out.append(shallowest + a)
-            continue
-        remaining = min(max((target - above) / sub.total_cm, 0.0), 1.0)
-        out.append(shallowest + sub.quantile_depth(remaining))
+        t, u, w = (np.concatenate([p[c] for p in pieces]) for c in range(3))
+        out.append(shallowest + depth_in_quantile_layer(t, u, w, layer))
     return out
 
 
@@ -235,7 +217,7 @@ def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float |
     from ..rootsystem import tip_mask
     from .profile_model import fit_gale_grigal
     from .topology import branch_points, fitter_indices, insertion_angles_deg, interbranch_distances, root_chains
-    from .traits import _json_ready, plant_hull_measures
+    from .traits import plant_hull_measures, plant_trait_record, stand_trait_record
 
     if area_cm2 is not None or box is not None:
         area = profile_area(system, area_cm2=area_cm2, box=box)
@@ -290,39 +272,18 @@ def chunked_root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float |
         width, volume = plant_hull_measures(table, slice(None))
         n_roots += int(chains.n_roots)
         n_tips += int(tips.sum())
-        plants.append({
-            "plant_id": pid,
-            "total_length_cm": float(table["length_cm"].sum()),
-            "n_tips": int(tips.sum()),
-            "width_cm": width,
-            "convex_hull_volume_cm3": volume,
-            **fitter.get(pid, {}),
-        })
+        plants.append(plant_trait_record(pid, total_length_cm=float(table["length_cm"].sum()), n_tips=int(tips.sum()),
+                                         width_cm=width, convex_hull_volume_cm3=volume, fitter=fitter))
         if on_plant is not None:
             on_plant(len(order))
 
     def means(sums, counts):
         return {str(k): float(sums[k] / counts[k]) for k in np.flatnonzero(counts)}
 
-    indices = [q["topological_index"] for q in plants if q.get("topological_index") is not None]
-    return _json_ready({
-        "n_plants": int(system.n_plants) if hasattr(system, "n_plants") else len(plants),
-        "n_segments": int(n),
-        "n_roots": n_roots,
-        "ground_area_cm2": area,
-        "total_length_cm": total,
-        "root_length_per_ground_area_cm_per_cm2": total / area if area else None,
-        "length_by_order_cm": {str(k): float(v) for k, v in enumerate(by_order)},
-        "n_tips": n_tips,
-        "max_depth_cm": max_depth,
-        "d50_depth_cm": d50,
-        "d95_depth_cm": d95,
-        "width_cm": float(np.mean([q["width_cm"] for q in plants])) if plants else 0.0,
-        "convex_hull_volume_cm3": float(np.mean([q["convex_hull_volume_cm3"] for q in plants])) if plants else 0.0,
-        "mean_interbranch_distance_cm": means(gap_sums, gap_counts),
-        "mean_insertion_angle_deg": means(angle_sums, angle_counts),
-        "gale_grigal_beta": beta,
-        "gale_grigal_rms": rms,
-        "mean_topological_index": float(np.mean(indices)) if indices else None,
-        "plants": plants,
-    })
+    return stand_trait_record(
+        n_plants=int(system.n_plants) if hasattr(system, "n_plants") else len(plants), n_segments=int(n),
+        n_roots=n_roots, ground_area_cm2=area, total_length_cm=total, length_by_order_cm=by_order, n_tips=n_tips,
+        max_depth_cm=max_depth, d50_depth_cm=d50, d95_depth_cm=d95,
+        mean_interbranch_distance_cm=means(gap_sums, gap_counts),
+        mean_insertion_angle_deg=means(angle_sums, angle_counts), gale_grigal_beta=beta, gale_grigal_rms=rms,
+        plants=plants)

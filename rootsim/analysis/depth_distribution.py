@@ -131,24 +131,67 @@ def quantile_depths(depth0: np.ndarray, depth1: np.ndarray, length: np.ndarray, 
     base = np.maximum(s0, s1)
     out = []
     for fraction in fractions:
-        target = float(fraction) * cum[-1]
-        k = min(int(np.searchsorted(cum, target, side="left")), n_bins - 1)
-        above = float(cum[k - 1]) if k > 0 else 0.0
-        a, b = k * h, (span if k == n_bins - 1 else (k + 1) * h)
-        near = np.flatnonzero((top <= b) & (base >= a))
-        t, u, w = top[near], base[near], length[near]
-        steep = u > t
-        with np.errstate(divide="ignore", invalid="ignore"):
-            density = np.where(steep, w / np.where(steep, u - t, 1.0), 0.0)
-        lo, hi = np.maximum(t, a), np.minimum(u, b)
-        # Horizontal segments belong to the layer their depth falls in (as in depth_layer_lengths).
-        flat_here = ~steep & (np.minimum(np.floor(t / h), n_bins - 1) == k)
-        piece = np.where(steep, np.clip(hi - lo, 0.0, None) * density, np.where(flat_here, w, 0.0))
-        keep = piece > 0
-        sub = cumulative_depth(lo[keep], np.where(steep, hi, lo)[keep], piece[keep])
-        if sub.total_cm <= 0:
-            out.append(shallowest + a)
-            continue
-        remaining = min(max((target - above) / sub.total_cm, 0.0), 1.0)
-        out.append(shallowest + sub.quantile_depth(remaining))
+        layer = quantile_layer(cum, fraction, layer_cm=h, span_cm=span)
+        near = np.flatnonzero((top <= layer.bottom_cm) & (base >= layer.top_cm))
+        out.append(shallowest + depth_in_quantile_layer(top[near], base[near], length[near], layer))
     return out
+
+
+@dataclass(frozen=True)
+class QuantileLayer:
+    """The thin layer holding a quantile of the root length (depths from the shallowest point, cm)."""
+
+    index: int
+    top_cm: float
+    bottom_cm: float
+    layer_cm: float
+    n_layers: int
+    length_needed_cm: float  # root length of the quantile that lies inside this layer
+
+
+def quantile_layer(cumulative_cm: np.ndarray, fraction: float, *, layer_cm: float, span_cm: float) -> QuantileLayer:
+    """The thin layer where the cumulative root length reaches ``fraction`` of the total.
+
+    Parameters
+    ----------
+    cumulative_cm : ndarray, shape (n_layers,)
+        Cumulative root length at the bottom of each thin layer, cm.
+    fraction : float
+        Fraction of the root length, 0-1.
+    layer_cm, span_cm : float
+        Thickness of the thin layers and depth span they cover (the last layer ends at ``span_cm``), cm.
+    """
+    n_layers = len(cumulative_cm)
+    target = float(fraction) * float(cumulative_cm[-1])
+    k = min(int(np.searchsorted(cumulative_cm, target, side="left")), n_layers - 1)
+    above = float(cumulative_cm[k - 1]) if k > 0 else 0.0
+    bottom = span_cm if k == n_layers - 1 else (k + 1) * layer_cm
+    return QuantileLayer(index=k, top_cm=k * layer_cm, bottom_cm=bottom, layer_cm=layer_cm, n_layers=n_layers,
+                         length_needed_cm=target - above)
+
+
+def depth_in_quantile_layer(top: np.ndarray, base: np.ndarray, length: np.ndarray, layer: QuantileLayer) -> float:
+    """Exact depth inside ``layer`` where the quantile's root length is reached, cm from the shallowest point.
+
+    Parameters
+    ----------
+    top, base : ndarray, shape (m,)
+        Upper and lower end depths of the segments reaching into the layer (from the shallowest point), cm.
+    length : ndarray, shape (m,)
+        Their lengths, cm (spread evenly over depth; a horizontal segment lies at its depth).
+    layer : QuantileLayer
+    """
+    a, b = layer.top_cm, layer.bottom_cm
+    steep = base > top
+    with np.errstate(divide="ignore", invalid="ignore"):
+        density = np.where(steep, length / np.where(steep, base - top, 1.0), 0.0)
+    lo, hi = np.maximum(top, a), np.minimum(base, b)
+    # Horizontal segments belong to the layer their depth falls in (as in depth_layer_lengths).
+    flat_here = ~steep & (np.minimum(np.floor(top / layer.layer_cm), layer.n_layers - 1) == layer.index)
+    piece = np.where(steep, np.clip(hi - lo, 0.0, None) * density, np.where(flat_here, length, 0.0))
+    keep = piece > 0
+    sub = cumulative_depth(lo[keep], np.where(steep, hi, lo)[keep], piece[keep])
+    if sub.total_cm <= 0:
+        return a
+    remaining = min(max(layer.length_needed_cm / sub.total_cm, 0.0), 1.0)
+    return sub.quantile_depth(remaining)

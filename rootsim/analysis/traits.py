@@ -164,34 +164,61 @@ def root_traits(system: Any, *, layer_cm: float = 5.0, area_cm2: float | None = 
     plant_ids = np.array([p for p, _ in groups], dtype=np.int64)
     for p, rows in groups:
         width, volume = plant_hull_measures(system, rows)
-        plants.append({
-            "plant_id": p,
-            "total_length_cm": float(length[rows].sum()),
-            "n_tips": int(np.count_nonzero(tips[rows])),
-            "width_cm": width,
-            "convex_hull_volume_cm3": volume,
-            **fitter.get(p, {}),
-        })
-    indices = [q["topological_index"] for q in plants if q.get("topological_index") is not None]
+        plants.append(plant_trait_record(p, total_length_cm=float(length[rows].sum()),
+                                         n_tips=int(np.count_nonzero(tips[rows])), width_cm=width,
+                                         convex_hull_volume_cm3=volume, fitter=fitter))
     by_order = np.bincount(order, weights=length) if n else np.zeros(0)
+    return stand_trait_record(
+        n_plants=int(system.n_plants) if hasattr(system, "n_plants") else int(plant_ids.size), n_segments=int(n),
+        n_roots=int(chains.n_roots), ground_area_cm2=area, total_length_cm=total, length_by_order_cm=by_order,
+        n_tips=int(tips.sum()), max_depth_cm=max_depth, d50_depth_cm=d50, d95_depth_cm=d95,
+        mean_interbranch_distance_cm=mean_by_key(gaps, gap_order),
+        mean_insertion_angle_deg=mean_by_key(angles, lateral_order), gale_grigal_beta=beta, gale_grigal_rms=rms,
+        plants=plants)
+
+
+def plant_trait_record(plant_id: int, *, total_length_cm: float, n_tips: int, width_cm: float,
+                       convex_hull_volume_cm3: float, fitter: dict) -> dict:
+    """One plant's entry of ``root_traits()["plants"]`` (``fitter``: Fitter's indices by plant id)."""
+    return {
+        "plant_id": plant_id,
+        "total_length_cm": total_length_cm,
+        "n_tips": n_tips,
+        "width_cm": width_cm,
+        "convex_hull_volume_cm3": convex_hull_volume_cm3,
+        **fitter.get(plant_id, {}),
+    }
+
+
+def stand_trait_record(*, n_plants: int, n_segments: int, n_roots: int, ground_area_cm2, total_length_cm: float,
+                       length_by_order_cm: np.ndarray, n_tips: int, max_depth_cm: float, d50_depth_cm: float,
+                       d95_depth_cm: float, mean_interbranch_distance_cm: dict, mean_insertion_angle_deg: dict,
+                       gale_grigal_beta: float, gale_grigal_rms: float, plants: list) -> dict:
+    """The dict returned by :func:`root_traits` (and the chunked form), JSON-ready (NaN and inf as None).
+
+    Stand means of width and hull volume, root length per ground area and the mean topological index are
+    derived here from the plants' entries (:func:`plant_trait_record`).
+    """
+    area = ground_area_cm2
+    indices = [q["topological_index"] for q in plants if q.get("topological_index") is not None]
     return _json_ready({
-        "n_plants": int(system.n_plants) if hasattr(system, "n_plants") else int(plant_ids.size),
-        "n_segments": int(n),
-        "n_roots": int(chains.n_roots),
+        "n_plants": n_plants,
+        "n_segments": n_segments,
+        "n_roots": n_roots,
         "ground_area_cm2": area,
-        "total_length_cm": total,
-        "root_length_per_ground_area_cm_per_cm2": total / area if area else None,
-        "length_by_order_cm": {str(k): float(v) for k, v in enumerate(by_order)},
-        "n_tips": int(tips.sum()),
-        "max_depth_cm": max_depth,
-        "d50_depth_cm": d50,
-        "d95_depth_cm": d95,
+        "total_length_cm": total_length_cm,
+        "root_length_per_ground_area_cm_per_cm2": total_length_cm / area if area else None,
+        "length_by_order_cm": {str(k): float(v) for k, v in enumerate(length_by_order_cm)},
+        "n_tips": n_tips,
+        "max_depth_cm": max_depth_cm,
+        "d50_depth_cm": d50_depth_cm,
+        "d95_depth_cm": d95_depth_cm,
         "width_cm": float(np.mean([q["width_cm"] for q in plants])) if plants else 0.0,
         "convex_hull_volume_cm3": float(np.mean([q["convex_hull_volume_cm3"] for q in plants])) if plants else 0.0,
-        "mean_interbranch_distance_cm": mean_by_key(gaps, gap_order),
-        "mean_insertion_angle_deg": mean_by_key(angles, lateral_order),
-        "gale_grigal_beta": beta,
-        "gale_grigal_rms": rms,
+        "mean_interbranch_distance_cm": mean_interbranch_distance_cm,
+        "mean_insertion_angle_deg": mean_insertion_angle_deg,
+        "gale_grigal_beta": gale_grigal_beta,
+        "gale_grigal_rms": gale_grigal_rms,
         "mean_topological_index": float(np.mean(indices)) if indices else None,
         "plants": plants,
     })

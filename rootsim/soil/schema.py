@@ -11,7 +11,7 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
-__all__ = ["SoilFieldLayer", "SoilFieldGrid", "SoilFieldPatch", "SoilPedotransfer", "SoilFieldSpec",
+__all__ = ["DepthInterval", "SoilFieldLayer", "SoilFieldGrid", "SoilFieldPatch", "SoilPedotransfer", "SoilFieldSpec",
            "BioporeChannel", "BioporeSpec", "Weather", "Development", "FieldTropism", "Proliferation"]
 
 
@@ -27,12 +27,12 @@ def _point3(value, key: str):
     return value
 
 
-class SoilFieldLayer(_Model):
-    """One depth layer of a soil field."""
+class DepthInterval(_Model):
+    """A depth range ``depth_top_cm`` .. ``depth_bottom_cm`` (cm, positive downward, bottom below top): the base of
+    every layer table in a parameter file (``[[soil.layers]]`` in :mod:`rootsim.spec`, soil-field layers here)."""
 
     depth_top_cm: float = Field(ge=0)
     depth_bottom_cm: float = Field(gt=0)
-    value: float
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -41,6 +41,12 @@ class SoilFieldLayer(_Model):
                 f"depth_bottom_cm ({self.depth_bottom_cm:g}) must be greater than depth_top_cm ({self.depth_top_cm:g})"
             )
         return self
+
+
+class SoilFieldLayer(DepthInterval):
+    """One depth layer of a soil field."""
+
+    value: float
 
 
 class SoilFieldGrid(_Model):
