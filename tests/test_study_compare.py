@@ -218,3 +218,39 @@ def test_compare_bad_input_is_one_line_and_writes_nothing(tiny_study, tmp_path, 
     assert "not a study folder" in capsys.readouterr().err
     assert main(["study", "compare", str(tiny_study), "--difference", "0", "--out", str(tmp_path / "c")]) == 2
     assert not (tmp_path / "c").exists()
+
+
+def _tree(folder: Path) -> dict:
+    """Every file under ``folder`` with its bytes (to show a refused command changed nothing)."""
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def test_compare_never_replaces_what_is_not_an_earlier_comparison(tiny_study, tmp_path, capsys):
+    study_files = _tree(tiny_study)
+    precious = tmp_path / "precious.txt"
+    precious.write_text("field notes\n")
+    notes = tmp_path / "notes"
+    notes.mkdir()
+    (notes / "plot_plan.txt").write_text("block layout\n")
+    refused = {str(tiny_study): "is or holds the study folder",  # the study folder itself
+               str(tiny_study.parent): "is or holds the study folder",  # a folder holding it
+               str(tiny_study / "runs"): "lies inside the study folder",
+               str(precious): "exists and is not a folder",
+               str(notes): "is not an earlier comparison"}
+    for out, words in refused.items():
+        assert main(["study", "compare", str(tiny_study), "--out", out]) == 2
+        err = capsys.readouterr().err
+        assert err.startswith("error: --out ") and words in err and err.count("\n") == 1, err
+    assert _tree(tiny_study) == study_files  # runs/, runs.parquet and the rest untouched
+    assert precious.read_text() == "field notes\n"
+    assert (notes / "plot_plan.txt").read_text() == "block layout\n" and len(list(notes.iterdir())) == 1
+    # an earlier comparison (its manifest says so) is replaced as a whole, twice over
+    out = tmp_path / "cmp"
+    for _ in range(2):
+        assert main(["study", "compare", str(tiny_study), "--out", str(out)]) == 0
+        capsys.readouterr()
+    from rootsim.result_folder import verify_result_folder
+
+    manifest = verify_result_folder(out)
+    assert manifest.command == "study compare" and "report.html" in manifest.files
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no staging or .old folder left

@@ -1,7 +1,10 @@
 """``rootsim study compare``: tables, figures and one self-contained HTML report of a finished study.
 
-Everything is computed and drawn in memory first, then written into a fresh folder that replaces the old
-report in one rename, so a failed comparison never leaves a half-written report.
+Everything is computed and drawn in memory first, then written as a result folder
+(:func:`rootsim.result_folder.write_result_folder`: a staged sibling swapped in, ``manifest.json`` with
+``command = "study compare"``), so a failed comparison never leaves a half-written report. ``out`` may be new,
+empty, or an earlier comparison (its manifest says so); anything else, and a folder equal to or holding the
+study folder, or inside it other than the default ``STUDY/compare``, is refused before any work.
 """
 
 from __future__ import annotations
@@ -10,8 +13,6 @@ import base64
 import html
 import io
 import os
-import shutil
-import uuid
 from pathlib import Path
 
 import numpy as np
@@ -21,7 +22,12 @@ from ..errors import RootsimError
 from .runner import read_results
 from .statistics import differences, power_table, summarize
 
-__all__ = ["compare_study", "comparison_tables", "report_html"]
+__all__ = ["compare_study", "comparison_tables", "report_html", "check_compare_folder"]
+
+#: ``command`` recorded in the manifest of a comparison folder; only such a folder is ever replaced.
+COMPARE_COMMAND = "study compare"
+#: Default comparison folder inside a study folder.
+DEFAULT_COMPARE_NAME = "compare"
 
 #: Trait columns compared when present (in this order); other numeric trait columns follow.
 _ID_COLUMNS = {"run_id", "variant", "replicate", "seed", "folder", "status", "error", "n_segments", "n_plants",
@@ -175,6 +181,7 @@ def compare_study(folder, out, *, reference=None, difference: float = 0.2, power
     bad option; nothing is written then.
     """
     results = read_results(folder)
+    out = check_compare_folder(folder, out)
     tables = comparison_tables(results, reference=reference, difference=difference, power=power, alpha=alpha)
     variants = list(dict.fromkeys(results.runs["variant"]))
     reference = reference or variants[0]
@@ -201,28 +208,60 @@ def compare_study(folder, out, *, reference=None, difference: float = 0.2, power
          f"variant's spread.", figures["power.png"]),
         ("Sampling power table", "", tables["power"]),
     ])
-    out = Path(out)
-    tmp = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.part"
-    try:
-        tmp.mkdir(parents=True)
+    from ..result_folder import write_result_folder
+
+    def write_files(staging: Path) -> dict:
         for key, table in tables.items():
-            table.to_csv(tmp / f"{key}.csv", index=False)
+            table.to_csv(staging / f"{key}.csv", index=False)
         for key, data in figures.items():
-            (tmp / key).write_bytes(data)
-        (tmp / "report.html").write_text(html_text, encoding="utf-8")
-        old = None
-        if out.exists():
-            old = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.old"
-            os.rename(out, old)
-        os.rename(tmp, out)
-        if old is not None:
-            shutil.rmtree(old, ignore_errors=True)
-    except OSError as exc:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise RootsimError(f"{out}: cannot write the report ({exc.strerror or exc})") from None
+            (staging / key).write_bytes(data)
+        (staging / "report.html").write_text(html_text, encoding="utf-8")
+        return {"study_folder": str(Path(folder).resolve()), "reference": reference}
+
+    write_result_folder(out, write_files, overwrite=True, command=COMPARE_COMMAND, run_file="report.html")
     diff = tables["trait_differences"]
     lines = [f"compared {len(variants)} variants against {reference}; wrote {out}/report.html and CSV tables"]
     for _, r in diff[diff["significant_holm"]].head(8).iterrows():
         lines.append(f"  {r['variant']}: {r['measure']} {r['difference']:+.4g} "
                      f"(95% CI {r['ci_low']:.4g} to {r['ci_high']:.4g}, Holm p = {r['p_holm']:.3g})")
     return "\n".join(lines)
+
+
+def check_compare_folder(study_folder, out) -> Path:
+    """Check, before any work, that the comparison of ``study_folder`` may be written to ``out``.
+
+    Allowed: a missing or empty folder, or an earlier comparison (its ``manifest.json`` records
+    ``command = "study compare"``), which is then replaced as a whole. Refused: an existing file, any other
+    folder with content, the study folder itself, a folder that holds it, and a folder inside it other than
+    ``STUDY/compare``.
+
+    Raises
+    ------
+    RootsimError
+        One line naming ``--out`` and what is allowed; nothing was written.
+    """
+    from ..errors import SegmentTableError
+    from ..result_folder import read_manifest
+
+    out = Path(out)
+    study = Path(study_folder).resolve()
+    target = out.resolve()
+    allowed = "a new or empty folder, or an earlier 'rootsim study compare' folder"
+    if target == study or target in study.parents:
+        raise RootsimError(f"--out {out}: is or holds the study folder {study_folder} (allowed: {allowed} "
+                           "outside it, or the default STUDY/compare)")
+    if study in target.parents and target != study / DEFAULT_COMPARE_NAME:
+        raise RootsimError(f"--out {out}: lies inside the study folder {study_folder} (allowed: {allowed} "
+                           f"outside it, or the default {Path(study_folder) / DEFAULT_COMPARE_NAME})")
+    if out.exists() or out.is_symlink():
+        if not out.is_dir():
+            raise RootsimError(f"--out {out}: exists and is not a folder (allowed: {allowed})")
+        if any(os.scandir(out)):
+            try:
+                manifest = read_manifest(out)
+            except SegmentTableError:
+                manifest = None
+            if manifest is None or manifest.command != COMPARE_COMMAND:
+                raise RootsimError(f"--out {out}: is not empty and is not an earlier comparison (no manifest.json "
+                                   f"of '{COMPARE_COMMAND}'); allowed: {allowed}")
+    return out
