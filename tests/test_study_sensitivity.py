@@ -97,3 +97,26 @@ range = [0.01, 0.05]
     assert len(pd.read_parquet(out / "runs.parquet")) == 4 * (2 + 2)  # Saltelli: N (d + 2) points
     radius = table.set_index("factor").loc["lateral_radius"]
     assert radius.total == pytest.approx(0.0, abs=1e-12)  # radius cannot change total length
+
+
+@pytest.mark.parametrize("method", ["morris", "sobol"])
+@pytest.mark.parametrize("samples", ["0", "-2"])
+def test_samples_below_one_is_an_error_naming_the_option(tmp_path, capsys, method, samples):
+    study = write_study(tmp_path, f'''
+name = "samples_check"
+base = "{PARAMS / 'taproot_laterals.toml'}"
+master_seed = 7
+[design]
+kind = "latin_hypercube"
+samples = 2
+[[factors]]
+name = "taproot_rate"
+key = "root_classes.taproot.elongation_rate_cm_per_day"
+range = [1.0, 3.0]
+''')
+    out = tmp_path / "sens"
+    assert main(["study", "sensitivity", str(study), "--method", method, "--trait", "total_length_cm",
+                 "--samples", samples, "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"error: --samples {samples}: ") and ">= 1" in err and err.count("\n") == 1, err
+    assert "study.toml" not in err and not out.exists()

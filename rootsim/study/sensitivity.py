@@ -31,6 +31,9 @@ def _problem(names, bounds) -> dict:
 def sensitivity_design(names: list[str], bounds: list, *, method: str, samples: int, seed: int) -> np.ndarray:
     """Sample points, shape (n, d), for ``method`` ``"morris"`` (``samples`` trajectories, 4 levels) or
     ``"sobol"`` (``samples`` base points, a power of 2; n = samples x (d + 2), no second-order terms)."""
+    if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) or samples < 1:
+        raise RootsimError(f"--samples {samples}: must be a whole number >= 1 (Morris trajectories, or Sobol' "
+                           "base samples: a power of 2)")
     problem = _problem(names, bounds)
     if method == "morris":
         from SALib.sample import morris
