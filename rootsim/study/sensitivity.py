@@ -130,8 +130,14 @@ def run_sensitivity(study_path, out_dir, *, method: str, traits: list[str], samp
     data = study.model_dump(exclude_none=True)
     data.update(factors=[], variants=variants,
                 design={"kind": "variants", "common_random_numbers": True})
-    plan = _plan(parse_study_file(data, source=str(study_path)), study_path.parent, str(study_path),
-                 kind="sensitivity")
+    try:
+        plan = _plan(parse_study_file(data, source=str(study_path)), study_path.parent, str(study_path),
+                     kind="sensitivity")
+    except SpecError as exc:  # a sample point outside what a key allows: point at the factor's range
+        i = next((i for i, f in enumerate(study.factors) if exc.key_path.endswith(f".set.{f.key}")), None)
+        if i is None:
+            raise
+        raise SpecError(exc.file, f"factors[{i}].range", exc.problem, exc.allowed) from None
     plan.factor_names = []
     results = run_plan(plan, out_dir, workers=workers, scheduler=scheduler, resume=resume, progress=progress)
     runs = results.runs
