@@ -54,7 +54,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
     """Read observed RLD (CSV): ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, and optionally
 
     * ``day`` – days after sowing of the sampling date (several dates may be given; default: the run's end);
-    * ``rld_sd_cm_per_cm3`` – standard deviation of each observation (> 0), used as a weight 1 / SD²;
+    * ``rld_standard_deviation_cm_per_cm3`` – standard deviation of each observation (> 0), used as a weight 1 / SD²;
     * ``x_cm``, ``y_cm``, ``diameter_cm`` – the core each row was measured in (as in ``rootsim sample``'s
       cores.csv); needed with ``as_cores=True``, when the simulated observation is taken with the same cores.
 
@@ -65,7 +65,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
     -------
     pandas.DataFrame
         Columns ``day`` (NaN where not given), ``x_cm``, ``y_cm``, ``diameter_cm`` (NaN for a whole-stand
-        profile), ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, ``rld_sd_cm_per_cm3`` (NaN where not
+        profile), ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, ``rld_standard_deviation_cm_per_cm3`` (NaN where not
         given), sorted by day, core and depth.
 
     Raises
@@ -91,12 +91,15 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
     core_cols = ["x_cm", "y_cm", "diameter_cm"]
     if as_cores:
         need = need + core_cols
+    if "rld_sd_cm_per_cm3" in table:  # the name of earlier versions
+        raise RootsimError(f"{path}: column rld_sd_cm_per_cm3 is now called rld_standard_deviation_cm_per_cm3 "
+                           "(rename it in the header)")
     missing = [c for c in need if c not in table]
     if missing:
         raise RootsimError(f"{path}: missing column(s) {', '.join(missing)} (required: {', '.join(need)})")
     if table.empty:
         raise RootsimError(f"{path}: header but no rows (need at least one observation)")
-    optional = [c for c in ("day", "rld_sd_cm_per_cm3") if c in table]
+    optional = [c for c in ("day", "rld_standard_deviation_cm_per_cm3") if c in table]
     table = table[need + optional].apply(pd.to_numeric, errors="coerce").astype(float)
     if table.isna().any().any() or not np.isfinite(table.to_numpy()).all():
         bad = int(np.flatnonzero(~np.isfinite(table.to_numpy()).all(axis=1))[0])
@@ -107,18 +110,18 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
         raise RootsimError(f"{path}: rld_cm_per_cm3 must be >= 0")
     if "day" in table and not (table["day"] > 0).all():
         raise RootsimError(f"{path}: day must be > 0 (days after sowing)")
-    if "rld_sd_cm_per_cm3" in table and not (table["rld_sd_cm_per_cm3"] > 0).all():
-        raise RootsimError(f"{path}: rld_sd_cm_per_cm3 must be > 0")
+    if "rld_standard_deviation_cm_per_cm3" in table and not (table["rld_standard_deviation_cm_per_cm3"] > 0).all():
+        raise RootsimError(f"{path}: rld_standard_deviation_cm_per_cm3 must be > 0")
     if as_cores and not (table["diameter_cm"] > 0).all():
         raise RootsimError(f"{path}: diameter_cm must be > 0")
-    for col in ["day", "rld_sd_cm_per_cm3"] + core_cols:
+    for col in ["day", "rld_standard_deviation_cm_per_cm3"] + core_cols:
         if col not in table:
             table[col] = np.nan
     keys = ["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]
-    table["_sd2"] = table["rld_sd_cm_per_cm3"] ** 2
+    table["_sd2"] = table["rld_standard_deviation_cm_per_cm3"] ** 2
     grouped = table.groupby(keys, as_index=False, dropna=False).agg(
         rld_cm_per_cm3=("rld_cm_per_cm3", "mean"), _sd2=("_sd2", "mean"), _n=("rld_cm_per_cm3", "size"))
-    grouped["rld_sd_cm_per_cm3"] = np.sqrt(grouped["_sd2"] / grouped["_n"])
+    grouped["rld_standard_deviation_cm_per_cm3"] = np.sqrt(grouped["_sd2"] / grouped["_n"])
     grouped = grouped.drop(columns=["_sd2", "_n"]).sort_values(keys, kind="stable").reset_index(drop=True)
     for _, block in grouped.groupby(["day", "x_cm", "y_cm", "diameter_cm"], dropna=False, sort=False):
         top, bottom = block["depth_top_cm"].to_numpy(), block["depth_bottom_cm"].to_numpy()
@@ -129,7 +132,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
                                f"{top[i + 1]:g}-{bottom[i + 1]:g} cm (allowed: identical intervals, averaged as "
                                "replicates, or intervals that do not overlap)")
     return grouped[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm", "rld_cm_per_cm3",
-                    "rld_sd_cm_per_cm3"]]
+                    "rld_standard_deviation_cm_per_cm3"]]
 
 
 def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821

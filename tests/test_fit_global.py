@@ -54,7 +54,7 @@ def _stand_observations(truth, days, seeds, rng, relative_sd=0.1):
         sd = 0.05 * rld.max() + relative_sd * rld
         rows.append(pd.DataFrame({"day": day, "x_cm": np.nan, "y_cm": np.nan, "diameter_cm": np.nan,
                                   "depth_top_cm": top, "depth_bottom_cm": top + 3.0,
-                                  "rld_cm_per_cm3": rld + rng.normal(0, sd), "rld_sd_cm_per_cm3": sd}))
+                                  "rld_cm_per_cm3": rld + rng.normal(0, sd), "rld_standard_deviation_cm_per_cm3": sd}))
     return pd.concat(rows, ignore_index=True)
 
 
@@ -90,7 +90,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
         depths.append(root_traits(system)["max_depth_cm"])
     cores = pd.concat(frames, ignore_index=True)
     spread = cores.groupby(["core_id", "depth_top_cm"])["rld_cm_per_cm3"].transform("std")
-    cores["rld_sd_cm_per_cm3"] = spread.clip(lower=0.002)
+    cores["rld_standard_deviation_cm_per_cm3"] = spread.clip(lower=0.002)
     cores.to_csv(tmp_path / "cores.csv", index=False)
     spec_file = tmp_path / "trial.toml"
     import tomlkit
@@ -116,7 +116,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     ("", ["empty"]),
     ("depth_top_cm,rld_cm_per_cm3\n0,1\n", ["missing column", "depth_bottom_cm"]),
     ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3\n0,10,1\n5,15,1\n", ["overlapping", "0-10", "5-15"]),
-    ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_sd_cm_per_cm3\n0,10,1,0\n", ["rld_sd_cm_per_cm3"]),
+    ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_standard_deviation_cm_per_cm3\n0,10,1,0\n", ["rld_standard_deviation_cm_per_cm3"]),
 ])
 def test_bad_observation_files_are_one_line_errors(tmp_path, capsys, text, words):
     path = tmp_path / "obs.csv"
@@ -141,11 +141,11 @@ def test_bad_observation_files_are_one_line_errors(tmp_path, capsys, text, words
 
 def test_observations_average_replicates_and_parse_targets(tmp_path):
     path = tmp_path / "o.csv"
-    path.write_text("day,depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_sd_cm_per_cm3\n"
+    path.write_text("day,depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_standard_deviation_cm_per_cm3\n"
                     "10,0,10,1.0,0.2\n10,0,10,3.0,0.2\n20,0,10,0.5,0.1\n")
     table = read_observations(path)
     assert table["rld_cm_per_cm3"].tolist() == [2.0, 0.5]
-    assert table["rld_sd_cm_per_cm3"].tolist() == pytest.approx([0.2 / np.sqrt(2), 0.1])  # SD of a mean of two
-    assert parse_trait_target("d50_depth_cm=22:2").sd == 2.0
+    assert table["rld_standard_deviation_cm_per_cm3"].tolist() == pytest.approx([0.2 / np.sqrt(2), 0.1])  # SD of a mean of two
+    assert parse_trait_target("d50_depth_cm=22:2").standard_deviation == 2.0
     with pytest.raises(Exception):
         parse_trait_target("d50_depth_cm=22")

@@ -26,7 +26,7 @@ def test_sobol_indices_of_the_ishigami_function():
     table = sensitivity_indices(names, bounds, points, y, method="sobol", seed=1)
     assert table.first_order.to_numpy() == pytest.approx([0.3139, 0.4424, 0.0], abs=0.03)
     assert table.total.to_numpy() == pytest.approx([0.5576, 0.4424, 0.2437], abs=0.03)
-    assert (table.first_order_conf > 0).all() and (table.first_order_conf < 0.1).all()
+    assert (table.first_order_ci95 > 0).all() and (table.first_order_ci95 < 0.1).all()
 
 
 def test_morris_screening_through_the_study_runner(tmp_path, capsys):
@@ -93,7 +93,7 @@ range = [0.01, 0.05]
     assert main(["study", "sensitivity", str(study), "--method", "sobol", "--trait", "total_length_cm",
                  "--samples", "4", "--out", str(out)]) == 0
     table = pd.read_csv(out / "sensitivity.csv")
-    assert list(table.columns) == ["trait", "factor", "first_order", "first_order_conf", "total", "total_conf"]
+    assert list(table.columns) == ["trait", "factor", "first_order", "first_order_ci95", "total", "total_ci95"]
     assert len(pd.read_parquet(out / "runs.parquet")) == 4 * (2 + 2)  # Saltelli: N (d + 2) points
     radius = table.set_index("factor").loc["lateral_radius"]
     assert radius.total == pytest.approx(0.0, abs=1e-12)  # radius cannot change total length

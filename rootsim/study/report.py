@@ -20,12 +20,14 @@ import pandas as pd
 
 from ..errors import RootsimError
 from .runner import read_results
-from .statistics import differences, power_table, summarize
+from .statistics import differences, measure_unit, power_table, summarize
 
 __all__ = ["compare_study", "comparison_tables", "report_html", "check_compare_folder"]
 
 #: ``command`` recorded in the manifest of a comparison folder; only such a folder is ever replaced.
 COMPARE_COMMAND = "study compare"
+#: Level of every confidence interval in the tables (the columns are named ``ci95_...``).
+_CONFIDENCE = 0.95
 #: Default comparison folder inside a study folder.
 DEFAULT_COMPARE_NAME = "compare"
 
@@ -44,10 +46,17 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
                       alpha: float = 0.05) -> dict[str, pd.DataFrame]:
     """The comparison tables of a study: trait and RLD-layer summaries, differences, power.
 
+    Intervals are 95 % t intervals (``ci95_low``, ``ci95_high``); ``alpha`` is the significance level of the
+    Holm-corrected tests and of the power table.
+
     Returns
     -------
     dict of DataFrame
-        ``trait_summary``, ``trait_differences``, ``rld_summary``, ``rld_differences``, ``power``.
+        ``trait_summary`` (``variant, measure, unit, replicates, mean, standard_deviation, ci95_low, ci95_high``),
+        ``trait_differences`` (``..., difference, ci95_low, ci95_high, unit, p_value, hedges_g, p_holm, ...``),
+        ``rld_summary`` (``variant, layer, replicates, mean_cm_per_cm3, standard_deviation_cm_per_cm3,
+        ci95_low_cm_per_cm3, ci95_high_cm_per_cm3``), ``rld_differences`` (``difference_cm_per_cm3``, ...) and
+        ``power``.
     """
     for name, value, low, high in (("--difference", difference, 0, 10), ("--power", power, 0, 1),
                                    ("--alpha", alpha, 0, 1)):
@@ -62,7 +71,6 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
         raise RootsimError(f"--reference {reference!r}: no such variant (allowed: {', '.join(variants)})")
     if ok.empty:
         raise RootsimError("no successful runs to compare (see the error column of runs.parquet)")
-    confidence = 1 - alpha
     traits = _trait_columns(ok, results.factor_names)
     prof = results.profiles
     prof = prof[(prof["order"] == -1) & (prof["day"] == prof["day"].max()) & prof["run_id"].isin(ok["run_id"])]
@@ -70,12 +78,20 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
     wide = prof.assign(layer=labels.to_numpy()).pivot_table(index=["run_id", "variant"], columns="layer",
                                                             values="rld_cm_per_cm3", sort=False).reset_index()
     layers = list(dict.fromkeys(labels))
+    trait_summary = summarize(ok, traits, order=variants, confidence=_CONFIDENCE)
+    trait_summary.insert(2, "unit", trait_summary["measure"].map(measure_unit))
+    trait_differences = differences(ok, traits, reference=reference, order=variants, confidence=_CONFIDENCE,
+                                    alpha=alpha)
+    trait_differences.insert(trait_differences.columns.get_loc("p_value"), "unit",
+                             trait_differences["measure"].map(measure_unit))
+    rld_units = {c: f"{c}_cm_per_cm3" for c in ("mean", "standard_deviation", "ci95_low", "ci95_high", "difference")}
     return {
-        "trait_summary": summarize(ok, traits, order=variants, confidence=confidence),
-        "trait_differences": differences(ok, traits, reference=reference, order=variants, confidence=confidence),
-        "rld_summary": summarize(wide, layers, order=variants, confidence=confidence).rename(columns={"measure": "layer"}),
-        "rld_differences": differences(wide, layers, reference=reference, order=variants,
-                                       confidence=confidence).rename(columns={"measure": "layer"}),
+        "trait_summary": trait_summary,
+        "trait_differences": trait_differences,
+        "rld_summary": summarize(wide, layers, order=variants, confidence=_CONFIDENCE).rename(
+            columns={"measure": "layer", **rld_units}),
+        "rld_differences": differences(wide, layers, reference=reference, order=variants, confidence=_CONFIDENCE,
+                                       alpha=alpha).rename(columns={"measure": "layer", **rld_units}),
         "power": power_table(results.samples, results.profiles[results.profiles["run_id"].isin(ok["run_id"])], ok,
                              reference=reference, relative_difference=difference, power=power, alpha=alpha),
     }
@@ -89,8 +105,9 @@ def _figure_profiles(results, summary: pd.DataFrame):
     for variant, block in summary.groupby("variant", sort=False):
         bounds = block["layer"].str.replace(" cm", "").str.split("-", expand=True).astype(float)
         mid = bounds.mean(axis=1).to_numpy()
-        line, = ax.plot(block["mean"], mid, marker="o", ms=3, label=str(variant))
-        ax.fill_betweenx(mid, block["ci_low"], block["ci_high"], color=line.get_color(), alpha=0.2, lw=0)
+        line, = ax.plot(block["mean_cm_per_cm3"], mid, marker="o", ms=3, label=str(variant))
+        ax.fill_betweenx(mid, block["ci95_low_cm_per_cm3"], block["ci95_high_cm_per_cm3"], color=line.get_color(),
+                         alpha=0.2, lw=0)
     ax.invert_yaxis()
     ax.set_xlabel("RLD, cm cm$^{-3}$ (mean, 95% CI band over replicates)")
     ax.set_ylabel("depth, cm")
@@ -223,7 +240,7 @@ def compare_study(folder, out, *, reference=None, difference: float = 0.2, power
     lines = [f"compared {len(variants)} variants against {reference}; wrote {out}/report.html and CSV tables"]
     for _, r in diff[diff["significant_holm"]].head(8).iterrows():
         lines.append(f"  {r['variant']}: {r['measure']} {r['difference']:+.4g} "
-                     f"(95% CI {r['ci_low']:.4g} to {r['ci_high']:.4g}, Holm p = {r['p_holm']:.3g})")
+                     f"(95% CI {r['ci95_low']:.4g} to {r['ci95_high']:.4g}, Holm p = {r['p_holm']:.3g})")
     return "\n".join(lines)
 
 

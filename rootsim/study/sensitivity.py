@@ -52,8 +52,8 @@ def sensitivity_indices(names: list[str], bounds: list, points: np.ndarray, valu
                         seed: int = 0) -> pd.DataFrame:
     """Sensitivity indices of ``values`` (shape (n,)) at ``points`` from :func:`sensitivity_design`.
 
-    Returns one row per factor: Morris ``mu_star``, ``mu_star_conf`` (95 % bootstrap half-width), ``sigma``;
-    Sobol' ``first_order``, ``first_order_conf``, ``total``, ``total_conf``.
+    Returns one row per factor: Morris ``mu_star``, ``mu_star_ci95`` (half-width of the 95 % bootstrap
+    interval), ``sigma``; Sobol' ``first_order``, ``first_order_ci95``, ``total``, ``total_ci95`` (half-widths).
     """
     import warnings
 
@@ -65,13 +65,13 @@ def sensitivity_indices(names: list[str], bounds: list, points: np.ndarray, valu
             from SALib.analyze import morris
 
             res = morris.analyze(problem, points, values, num_levels=4, seed=seed)
-            return pd.DataFrame({"factor": names, "mu_star": res["mu_star"], "mu_star_conf": res["mu_star_conf"],
+            return pd.DataFrame({"factor": names, "mu_star": res["mu_star"], "mu_star_ci95": res["mu_star_conf"],
                                  "sigma": res["sigma"]})
         from SALib.analyze import sobol
 
         res = sobol.analyze(problem, values, calc_second_order=False, seed=seed)
-    return pd.DataFrame({"factor": names, "first_order": res["S1"], "first_order_conf": res["S1_conf"],
-                         "total": res["ST"], "total_conf": res["ST_conf"]})
+    return pd.DataFrame({"factor": names, "first_order": res["S1"], "first_order_ci95": res["S1_conf"],
+                         "total": res["ST"], "total_ci95": res["ST_conf"]})
 
 
 def _bar_chart(table: pd.DataFrame, method: str):
@@ -84,11 +84,11 @@ def _bar_chart(table: pd.DataFrame, method: str):
         block = table[table["trait"] == trait]
         y = np.arange(len(block))
         if method == "morris":
-            ax.barh(y, block["mu_star"], xerr=block["mu_star_conf"], color="tab:blue")
+            ax.barh(y, block["mu_star"], xerr=block["mu_star_ci95"], color="tab:blue")
             ax.set_xlabel("Morris mu* (trait units)")
         else:
-            ax.barh(y - 0.2, block["first_order"], 0.4, xerr=block["first_order_conf"], label="first order")
-            ax.barh(y + 0.2, block["total"], 0.4, xerr=block["total_conf"], label="total")
+            ax.barh(y - 0.2, block["first_order"], 0.4, xerr=block["first_order_ci95"], label="first order")
+            ax.barh(y + 0.2, block["total"], 0.4, xerr=block["total_ci95"], label="total")
             ax.set_xlabel("Sobol' index")
             ax.legend(fontsize=7)
         ax.set_yticks(y)
