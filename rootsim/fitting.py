@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Callable
 from pathlib import Path
 
 import numpy as np
@@ -23,7 +24,7 @@ from .distributions import Fixed, Normal, Uniform
 from .errors import RootsimError, SpecError
 from .spec import Spec, parse_spec
 
-__all__ = ["FitParameter", "parse_fit_parameter", "read_observed_profile", "read_observations", "with_parameter", "interval_rld",
+__all__ = ["FitParameter", "parse_named_pair", "parse_fit_parameter", "read_observed_profile", "read_observations", "with_parameter", "interval_rld",
            "fit_profile", "FitResult", "fitted_toml"]
 
 
@@ -36,18 +37,46 @@ class FitParameter:
     high: float
 
 
+def parse_named_pair(text: str, *, option: str, form: str, example: str,
+                     valid: Callable[[float, float], bool]) -> tuple[str, float, float]:
+    """Parse ``NAME=FIRST:SECOND`` (two finite numbers) as given to ``--param`` and ``--target``.
+
+    Parameters
+    ----------
+    text : str
+        The option's value.
+    option, form, example : str, keyword-only
+        For the one-line error: the option (``--param``), the expected form and an example.
+    valid : callable, keyword-only
+        ``valid(first, second)`` is True for an allowed pair (e.g. ``low < high``).
+
+    Returns
+    -------
+    (str, float, float)
+        The name (stripped) and the two numbers.
+
+    Raises
+    ------
+    RootsimError
+        ``"{option} 'TEXT': expected {form}, e.g. {example}"``.
+    """
+    name, sep, pair = text.partition("=")
+    first, sep2, second = pair.partition(":")
+    try:
+        a, b = float(first), float(second)
+    except ValueError:
+        a = b = math.nan
+    if not sep or not sep2 or not name.strip() or not (math.isfinite(a) and math.isfinite(b)) or not valid(a, b):
+        raise RootsimError(f"{option} {text!r}: expected {form}, e.g. {example}")
+    return name.strip(), a, b
+
+
 def parse_fit_parameter(text: str) -> FitParameter:
     """Parse ``KEY.PATH=LOW:HIGH`` (e.g. ``root_classes.nodal.initial_angle_from_vertical_deg=40:80``)."""
-    key, sep, bounds = text.partition("=")
-    low, sep2, high = bounds.partition(":")
-    try:
-        lo, hi = float(low), float(high)
-    except ValueError:
-        lo = hi = math.nan
-    if not sep or not sep2 or not key.strip() or not (math.isfinite(lo) and math.isfinite(hi)) or lo >= hi:
-        raise RootsimError(f"--param {text!r}: expected KEY.PATH=LOW:HIGH with LOW < HIGH, e.g. "
-                           "root_classes.primary.elongation_rate_cm_per_day=1:4")
-    return FitParameter(key.strip(), lo, hi)
+    key, low, high = parse_named_pair(text, option="--param", form="KEY.PATH=LOW:HIGH with LOW < HIGH",
+                                      example="root_classes.primary.elongation_rate_cm_per_day=1:4",
+                                      valid=lambda low, high: low < high)
+    return FitParameter(key, low, high)
 
 
 def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  # noqa: F821

@@ -53,7 +53,7 @@ def register(parser) -> None:
                         help="local: Powell from the file's values (default); global: differential evolution")
     parser.add_argument("--observed-as", choices=("stand", "cores"), default="stand",
                         help="global: compare with the whole-stand profile or with cores at the observed positions")
-    parser.add_argument("--target", action="append", default=[], metavar="TRAIT=VALUE:SD",
+    parser.add_argument("--target", action="append", default=[], metavar="TRAIT=VALUE:STANDARD_DEVIATION",
                         help="global: a trait to reproduce, with its SD (repeatable)")
     parser.add_argument("--population", type=int, default=6, metavar="N",
                         help="global: population per parameter (default 6)")

@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import RootsimError
-from ..fitting import FitParameter, with_parameter
+from ..fitting import FitParameter, parse_named_pair, with_parameter
 
 __all__ = ["TraitTarget", "parse_trait_target", "fit_global", "GlobalFitResult"]
 
@@ -45,16 +45,12 @@ class TraitTarget:
 
 
 def parse_trait_target(text: str) -> TraitTarget:
-    """Parse ``NAME=VALUE:SD`` (e.g. ``d50_depth_cm=22:2``)."""
-    name, _, rest = text.partition("=")
-    value, _, sd = rest.partition(":")
-    try:
-        v, s = float(value), float(sd)
-    except ValueError:
-        v = s = math.nan
-    if not name.strip() or not (math.isfinite(v) and math.isfinite(s) and s > 0):
-        raise RootsimError(f"--target {text!r}: expected TRAIT=VALUE:SD with SD > 0, e.g. d50_depth_cm=22:2")
-    return TraitTarget(name.strip(), v, s)
+    """Parse ``NAME=VALUE:STANDARD_DEVIATION`` (e.g. ``d50_depth_cm=22:2``) with the shared
+    :func:`rootsim.fitting.parse_named_pair`."""
+    name, value, standard_deviation = parse_named_pair(
+        text, option="--target", form="TRAIT=VALUE:STANDARD_DEVIATION with STANDARD_DEVIATION > 0",
+        example="d50_depth_cm=22:2", valid=lambda value, standard_deviation: standard_deviation > 0)
+    return TraitTarget(name, value, standard_deviation)
 
 
 @dataclass
