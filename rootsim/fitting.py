@@ -107,7 +107,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
 
     path = Path(path)
     try:
-        table = pd.read_csv(path)
+        table = pd.read_csv(path, comment="#")  # '#' lines: notes such as where the data came from
     except FileNotFoundError:
         raise RootsimError(f"{path}: no such file (expected a CSV with depth_top_cm, depth_bottom_cm, "
                            "rld_cm_per_cm3)") from None
@@ -175,7 +175,7 @@ def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
 
     path = Path(path)
     try:
-        head = pd.read_csv(path, nrows=0)
+        head = pd.read_csv(path, nrows=0, comment="#")
     except (OSError, ValueError, pd.errors.ParserError):
         head = None
     table = read_observations(path)
