@@ -47,10 +47,10 @@ def main(argv=None) -> int:
     tables = comparison_tables(read_results(args.out), reference="shallow_dense", difference=0.2)
     below = tables["trait_summary"]
     below = below[below["measure"] == "root_length_below_35cm_cm"]
-    print(below[["variant", "n", "mean", "ci_low", "ci_high"]].to_string(index=False, float_format=lambda v: f"{v:.0f}"))
+    print(below[["variant", "replicates", "mean", "ci95_low", "ci95_high", "unit"]].to_string(index=False, float_format=lambda v: f"{v:.0f}"))
     diff = tables["trait_differences"]
     diff = diff[diff["measure"] == "root_length_below_35cm_cm"]
-    print(diff[["variant", "difference", "ci_low", "ci_high", "p_holm", "hedges_g"]].to_string(
+    print(diff[["variant", "difference", "ci95_low", "ci95_high", "unit", "p_holm", "hedges_g"]].to_string(
         index=False, float_format=lambda v: f"{v:.3g}"))
     print("cores per variant for a 20% RLD difference (80% power):")
     power = tables["power"]

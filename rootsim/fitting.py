@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Callable
 from pathlib import Path
 
 import numpy as np
@@ -23,7 +24,7 @@ from .distributions import Fixed, Normal, Uniform
 from .errors import RootsimError, SpecError
 from .spec import Spec, parse_spec
 
-__all__ = ["FitParameter", "parse_fit_parameter", "read_observed_profile", "read_observations", "with_parameter", "interval_rld",
+__all__ = ["FitParameter", "parse_named_pair", "parse_fit_parameter", "read_observed_profile", "read_observations", "with_parameter", "interval_rld",
            "fit_profile", "FitResult", "fitted_toml"]
 
 
@@ -36,25 +37,53 @@ class FitParameter:
     high: float
 
 
+def parse_named_pair(text: str, *, option: str, form: str, example: str,
+                     valid: Callable[[float, float], bool]) -> tuple[str, float, float]:
+    """Parse ``NAME=FIRST:SECOND`` (two finite numbers) as given to ``--param`` and ``--target``.
+
+    Parameters
+    ----------
+    text : str
+        The option's value.
+    option, form, example : str, keyword-only
+        For the one-line error: the option (``--param``), the expected form and an example.
+    valid : callable, keyword-only
+        ``valid(first, second)`` is True for an allowed pair (e.g. ``low < high``).
+
+    Returns
+    -------
+    (str, float, float)
+        The name (stripped) and the two numbers.
+
+    Raises
+    ------
+    RootsimError
+        ``"{option} 'TEXT': expected {form}, e.g. {example}"``.
+    """
+    name, sep, pair = text.partition("=")
+    first, sep2, second = pair.partition(":")
+    try:
+        a, b = float(first), float(second)
+    except ValueError:
+        a = b = math.nan
+    if not sep or not sep2 or not name.strip() or not (math.isfinite(a) and math.isfinite(b)) or not valid(a, b):
+        raise RootsimError(f"{option} {text!r}: expected {form}, e.g. {example}")
+    return name.strip(), a, b
+
+
 def parse_fit_parameter(text: str) -> FitParameter:
     """Parse ``KEY.PATH=LOW:HIGH`` (e.g. ``root_classes.nodal.initial_angle_from_vertical_deg=40:80``)."""
-    key, sep, bounds = text.partition("=")
-    low, sep2, high = bounds.partition(":")
-    try:
-        lo, hi = float(low), float(high)
-    except ValueError:
-        lo = hi = math.nan
-    if not sep or not sep2 or not key.strip() or not (math.isfinite(lo) and math.isfinite(hi)) or lo >= hi:
-        raise RootsimError(f"--param {text!r}: expected KEY.PATH=LOW:HIGH with LOW < HIGH, e.g. "
-                           "root_classes.primary.elongation_rate_cm_per_day=1:4")
-    return FitParameter(key.strip(), lo, hi)
+    key, low, high = parse_named_pair(text, option="--param", form="KEY.PATH=LOW:HIGH with LOW < HIGH",
+                                      example="root_classes.primary.elongation_rate_cm_per_day=1:4",
+                                      valid=lambda low, high: low < high)
+    return FitParameter(key, low, high)
 
 
 def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  # noqa: F821
     """Read observed RLD (CSV): ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, and optionally
 
     * ``day`` – days after sowing of the sampling date (several dates may be given; default: the run's end);
-    * ``rld_sd_cm_per_cm3`` – standard deviation of each observation (> 0), used as a weight 1 / SD²;
+    * ``rld_standard_deviation_cm_per_cm3`` – standard deviation of each observation (> 0), used as a weight 1 / SD²;
     * ``x_cm``, ``y_cm``, ``diameter_cm`` – the core each row was measured in (as in ``rootsim sample``'s
       cores.csv); needed with ``as_cores=True``, when the simulated observation is taken with the same cores.
 
@@ -65,7 +94,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
     -------
     pandas.DataFrame
         Columns ``day`` (NaN where not given), ``x_cm``, ``y_cm``, ``diameter_cm`` (NaN for a whole-stand
-        profile), ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, ``rld_sd_cm_per_cm3`` (NaN where not
+        profile), ``depth_top_cm``, ``depth_bottom_cm``, ``rld_cm_per_cm3``, ``rld_standard_deviation_cm_per_cm3`` (NaN where not
         given), sorted by day, core and depth.
 
     Raises
@@ -78,7 +107,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
 
     path = Path(path)
     try:
-        table = pd.read_csv(path)
+        table = pd.read_csv(path, comment="#")  # '#' lines: notes such as where the data came from
     except FileNotFoundError:
         raise RootsimError(f"{path}: no such file (expected a CSV with depth_top_cm, depth_bottom_cm, "
                            "rld_cm_per_cm3)") from None
@@ -91,12 +120,15 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
     core_cols = ["x_cm", "y_cm", "diameter_cm"]
     if as_cores:
         need = need + core_cols
+    if "rld_sd_cm_per_cm3" in table:  # the name of earlier versions
+        raise RootsimError(f"{path}: column rld_sd_cm_per_cm3 is now called rld_standard_deviation_cm_per_cm3 "
+                           "(rename it in the header)")
     missing = [c for c in need if c not in table]
     if missing:
         raise RootsimError(f"{path}: missing column(s) {', '.join(missing)} (required: {', '.join(need)})")
     if table.empty:
         raise RootsimError(f"{path}: header but no rows (need at least one observation)")
-    optional = [c for c in ("day", "rld_sd_cm_per_cm3") if c in table]
+    optional = [c for c in ("day", "rld_standard_deviation_cm_per_cm3") if c in table]
     table = table[need + optional].apply(pd.to_numeric, errors="coerce").astype(float)
     if table.isna().any().any() or not np.isfinite(table.to_numpy()).all():
         bad = int(np.flatnonzero(~np.isfinite(table.to_numpy()).all(axis=1))[0])
@@ -107,18 +139,18 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
         raise RootsimError(f"{path}: rld_cm_per_cm3 must be >= 0")
     if "day" in table and not (table["day"] > 0).all():
         raise RootsimError(f"{path}: day must be > 0 (days after sowing)")
-    if "rld_sd_cm_per_cm3" in table and not (table["rld_sd_cm_per_cm3"] > 0).all():
-        raise RootsimError(f"{path}: rld_sd_cm_per_cm3 must be > 0")
+    if "rld_standard_deviation_cm_per_cm3" in table and not (table["rld_standard_deviation_cm_per_cm3"] > 0).all():
+        raise RootsimError(f"{path}: rld_standard_deviation_cm_per_cm3 must be > 0")
     if as_cores and not (table["diameter_cm"] > 0).all():
         raise RootsimError(f"{path}: diameter_cm must be > 0")
-    for col in ["day", "rld_sd_cm_per_cm3"] + core_cols:
+    for col in ["day", "rld_standard_deviation_cm_per_cm3"] + core_cols:
         if col not in table:
             table[col] = np.nan
     keys = ["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]
-    table["_sd2"] = table["rld_sd_cm_per_cm3"] ** 2
+    table["_sd2"] = table["rld_standard_deviation_cm_per_cm3"] ** 2
     grouped = table.groupby(keys, as_index=False, dropna=False).agg(
         rld_cm_per_cm3=("rld_cm_per_cm3", "mean"), _sd2=("_sd2", "mean"), _n=("rld_cm_per_cm3", "size"))
-    grouped["rld_sd_cm_per_cm3"] = np.sqrt(grouped["_sd2"] / grouped["_n"])
+    grouped["rld_standard_deviation_cm_per_cm3"] = np.sqrt(grouped["_sd2"] / grouped["_n"])
     grouped = grouped.drop(columns=["_sd2", "_n"]).sort_values(keys, kind="stable").reset_index(drop=True)
     for _, block in grouped.groupby(["day", "x_cm", "y_cm", "diameter_cm"], dropna=False, sort=False):
         top, bottom = block["depth_top_cm"].to_numpy(), block["depth_bottom_cm"].to_numpy()
@@ -129,7 +161,7 @@ def read_observations(path, *, as_cores: bool = False) -> "pandas.DataFrame":  #
                                f"{top[i + 1]:g}-{bottom[i + 1]:g} cm (allowed: identical intervals, averaged as "
                                "replicates, or intervals that do not overlap)")
     return grouped[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm", "rld_cm_per_cm3",
-                    "rld_sd_cm_per_cm3"]]
+                    "rld_standard_deviation_cm_per_cm3"]]
 
 
 def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
@@ -143,7 +175,7 @@ def read_observed_profile(path) -> "pandas.DataFrame":  # noqa: F821
 
     path = Path(path)
     try:
-        head = pd.read_csv(path, nrows=0)
+        head = pd.read_csv(path, nrows=0, comment="#")
     except (OSError, ValueError, pd.errors.ParserError):
         head = None
     table = read_observations(path)

@@ -14,6 +14,7 @@ from rootsim.fitting import FitParameter, interval_rld, read_observations
 from rootsim.growth import grow
 from rootsim.sampling import sample_cores
 from rootsim.spec import parse_spec
+from rootsim.errors import RootsimError
 from rootsim.study.global_fit import fit_global, parse_trait_target
 from test_fitting import SPEC
 
@@ -54,7 +55,7 @@ def _stand_observations(truth, days, seeds, rng, relative_sd=0.1):
         sd = 0.05 * rld.max() + relative_sd * rld
         rows.append(pd.DataFrame({"day": day, "x_cm": np.nan, "y_cm": np.nan, "diameter_cm": np.nan,
                                   "depth_top_cm": top, "depth_bottom_cm": top + 3.0,
-                                  "rld_cm_per_cm3": rld + rng.normal(0, sd), "rld_sd_cm_per_cm3": sd}))
+                                  "rld_cm_per_cm3": rld + rng.normal(0, sd), "rld_standard_deviation_cm_per_cm3": sd}))
     return pd.concat(rows, ignore_index=True)
 
 
@@ -90,17 +91,18 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
         depths.append(root_traits(system)["max_depth_cm"])
     cores = pd.concat(frames, ignore_index=True)
     spread = cores.groupby(["core_id", "depth_top_cm"])["rld_cm_per_cm3"].transform("std")
-    cores["rld_sd_cm_per_cm3"] = spread.clip(lower=0.002)
+    cores["rld_standard_deviation_cm_per_cm3"] = spread.clip(lower=0.002)
     cores.to_csv(tmp_path / "cores.csv", index=False)
     spec_file = tmp_path / "trial.toml"
     import tomlkit
 
     spec_file.write_text("# comments survive\n" + tomlkit.dumps({**SPEC, "run": {**SPEC["run"], "time_step_days": 1.0}}))
     out = tmp_path / "fit"
-    target = f"max_depth_cm={np.mean(depths):.3f}:{max(np.std(depths, ddof=1), 0.5):.3f}"
+    target_depth_cm, target_standard_deviation_cm = np.mean(depths), max(np.std(depths, ddof=1), 0.5)
+    target = f"max_depth_cm={target_depth_cm:.3f}:{target_standard_deviation_cm:.3f}"
     assert main(["fit", str(spec_file), "--observed", str(tmp_path / "cores.csv"), "--observed-as", "cores",
                  "--method", "global", "--param", f"{RATE}=0.5:4", "--target", target,
-                 "--population", "4", "--generations", "3", "--replicates", "2", "--out", str(out)]) == 0
+                 "--population", "6", "--generations", "6", "--replicates", "2", "--out", str(out)]) == 0
     report = json.loads((out / "fit.json").read_text())
     low, high = report["interval_95"][RATE]
     assert low <= 2.0 <= high and high - low < 0.4 * 3.5
@@ -108,7 +110,10 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     profile = pd.read_csv(out / "fit_profile.csv")
     assert {"x_cm", "y_cm", "rld_fitted_cm_per_cm3"} <= set(profile.columns) and len(profile) == 12
     assert (out / "fit_observed_vs_fitted.png").stat().st_size > 1000
-    assert report["fitted_traits"]["max_depth_cm"] > 0
+    # the fitted stands reproduce the trait target: within its value +- 2 standard deviations (the target's SD
+    # is that of single stands; the fit reports the mean of its replicate stands, whose spread is smaller)
+    fitted_depth_cm = report["fitted_traits"]["max_depth_cm"]
+    assert abs(fitted_depth_cm - target_depth_cm) <= 2 * target_standard_deviation_cm, (fitted_depth_cm, target)
 
 
 @pytest.mark.parametrize("text, words", [
@@ -116,7 +121,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     ("", ["empty"]),
     ("depth_top_cm,rld_cm_per_cm3\n0,1\n", ["missing column", "depth_bottom_cm"]),
     ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3\n0,10,1\n5,15,1\n", ["overlapping", "0-10", "5-15"]),
-    ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_sd_cm_per_cm3\n0,10,1,0\n", ["rld_sd_cm_per_cm3"]),
+    ("depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_standard_deviation_cm_per_cm3\n0,10,1,0\n", ["rld_standard_deviation_cm_per_cm3"]),
 ])
 def test_bad_observation_files_are_one_line_errors(tmp_path, capsys, text, words):
     path = tmp_path / "obs.csv"
@@ -141,11 +146,27 @@ def test_bad_observation_files_are_one_line_errors(tmp_path, capsys, text, words
 
 def test_observations_average_replicates_and_parse_targets(tmp_path):
     path = tmp_path / "o.csv"
-    path.write_text("day,depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_sd_cm_per_cm3\n"
+    path.write_text("day,depth_top_cm,depth_bottom_cm,rld_cm_per_cm3,rld_standard_deviation_cm_per_cm3\n"
                     "10,0,10,1.0,0.2\n10,0,10,3.0,0.2\n20,0,10,0.5,0.1\n")
     table = read_observations(path)
     assert table["rld_cm_per_cm3"].tolist() == [2.0, 0.5]
-    assert table["rld_sd_cm_per_cm3"].tolist() == pytest.approx([0.2 / np.sqrt(2), 0.1])  # SD of a mean of two
-    assert parse_trait_target("d50_depth_cm=22:2").sd == 2.0
-    with pytest.raises(Exception):
-        parse_trait_target("d50_depth_cm=22")
+    assert table["rld_standard_deviation_cm_per_cm3"].tolist() == pytest.approx([0.2 / np.sqrt(2), 0.1])  # SD of a mean of two
+    assert parse_trait_target("d50_depth_cm=22:2").standard_deviation == 2.0
+    for bad in ("d50_depth_cm=22", "d50_depth_cm=22:0", "d50_depth_cm=22:-1", "=22:2", "d50_depth_cm=22:inf"):
+        with pytest.raises(RootsimError, match=r"^--target '.*': expected TRAIT=VALUE:STANDARD_DEVIATION with "
+                                               r"STANDARD_DEVIATION > 0, e\.g\. d50_depth_cm=22:2$"):
+            parse_trait_target(bad)
+
+
+def test_param_and_target_share_one_parser():
+    from rootsim.fitting import parse_fit_parameter, parse_named_pair
+
+    assert parse_named_pair(" a.b = 1:2 ", option="--x", form="F", example="E", valid=lambda a, b: True) \
+        == ("a.b", 1.0, 2.0)
+    for bad in ("a.b", "a.b=1", "=1:2", "a.b=1:x", "a.b=nan:2"):
+        with pytest.raises(RootsimError, match=r"^--x '.*': expected F, e\.g\. E$"):
+            parse_named_pair(bad, option="--x", form="F", example="E", valid=lambda a, b: True)
+    # both options go through it: the same malformed text gives the same shape of message
+    with pytest.raises(RootsimError, match=r"^--param 'a\.b=2:1': expected KEY\.PATH=LOW:HIGH with LOW < HIGH"):
+        parse_fit_parameter("a.b=2:1")
+    assert parse_trait_target("  d50_depth_cm =22:2") == parse_trait_target("d50_depth_cm=22:2")

@@ -28,7 +28,7 @@ def test_t_intervals_cover_the_mean_about_95_percent_of_the_time():
     hits = 0
     for _ in range(2000):
         d = describe(rng.normal(3.0, 2.0, size=5))
-        hits += d["ci_low"] <= 3.0 <= d["ci_high"]
+        hits += d["ci95_low"] <= 3.0 <= d["ci95_high"]
     assert abs(hits / 2000 - 0.95) < 0.015
 
 
@@ -46,7 +46,7 @@ def test_differences_match_welch_and_holm():
         assert out.loc[v, "p_value"] == pytest.approx(welch.pvalue, rel=1e-9)
         assert out.loc[v, "difference"] == pytest.approx(x.mean() - ref.mean())
         ci = welch.confidence_interval(0.95)
-        assert (out.loc[v, "ci_low"], out.loc[v, "ci_high"]) == pytest.approx((ci.low, ci.high), rel=1e-9)
+        assert (out.loc[v, "ci95_low"], out.loc[v, "ci95_high"]) == pytest.approx((ci.low, ci.high), rel=1e-9)
         raw.append(welch.pvalue)
     # Holm (1979): sort p ascending, multiply the k-th smallest by (m - k + 1), running maximum, cap at 1
     order = np.argsort(raw)
@@ -94,12 +94,12 @@ def test_power_table_uses_core_and_stand_spread():
     runs = pd.DataFrame({"run_id": ["r0", "r1"], "variant": "ref", "status": "ok", "n_plants": 4})
     row = power_table(samples, profiles, runs, reference="ref", relative_difference=0.25).iloc[0]
     core_sd = np.std([1.0, 2.0, 3.0, 4.0], ddof=1)
-    assert row.core_mean_cm_per_cm3 == pytest.approx(2.5) and row.core_sd_cm_per_cm3 == pytest.approx(core_sd)
+    assert row.core_mean_cm_per_cm3 == pytest.approx(2.5) and row.core_standard_deviation_cm_per_cm3 == pytest.approx(core_sd)
     from statsmodels.stats.power import TTestIndPower
 
     assert row.cores_needed == math.ceil(TTestIndPower().solve_power(0.25 * 2.5 / core_sd, alpha=0.05, power=0.8))
     plant_sd = np.std([1.0, 1.4], ddof=1) * 2.0  # stand of 4 independent plants: plant SD = stand SD x sqrt(4)
-    assert row.plant_sd_cm_per_cm3 == pytest.approx(plant_sd)
+    assert row.plant_standard_deviation_cm_per_cm3 == pytest.approx(plant_sd)
     assert row.plants_needed == math.ceil(TTestIndPower().solve_power(0.25 * 1.2 / plant_sd, alpha=0.05, power=0.8))
 
 
@@ -123,8 +123,15 @@ def test_compare_writes_a_self_contained_report(tiny_study, capsys):
     runs = pd.read_parquet(tiny_study / "runs.parquet")
     mine = summary[(summary.variant == "angle-45_spacing-0.5") & (summary.measure == "total_length_cm")].iloc[0]
     values = runs.total_length_cm[runs.variant == "angle-45_spacing-0.5"]
-    assert mine["mean"] == pytest.approx(values.mean()) and mine["sd"] == pytest.approx(values.std(ddof=1))
-    assert mine["n"] == 3
+    assert mine["mean"] == pytest.approx(values.mean())
+    assert mine["standard_deviation"] == pytest.approx(values.std(ddof=1))
+    assert mine["replicates"] == 3 and mine["unit"] == "cm"
+    rld = pd.read_csv(out / "rld_summary.csv")
+    assert list(rld.columns) == ["variant", "layer", "replicates", "mean_cm_per_cm3", "standard_deviation_cm_per_cm3",
+                                 "ci95_low_cm_per_cm3", "ci95_high_cm_per_cm3"]
+    power = pd.read_csv(out / "power.csv")
+    assert {"stand_standard_deviation_cm_per_cm3", "plant_standard_deviation_cm_per_cm3",
+            "core_standard_deviation_cm_per_cm3"} <= set(power.columns)
     diffs = pd.read_csv(out / "trait_differences.csv")
     assert set(diffs.reference) == {"angle-80_spacing-1.5"} and "angle-80_spacing-1.5" not in set(diffs.variant)
     text = (out / "report.html").read_text()
@@ -218,3 +225,39 @@ def test_compare_bad_input_is_one_line_and_writes_nothing(tiny_study, tmp_path, 
     assert "not a study folder" in capsys.readouterr().err
     assert main(["study", "compare", str(tiny_study), "--difference", "0", "--out", str(tmp_path / "c")]) == 2
     assert not (tmp_path / "c").exists()
+
+
+def _tree(folder: Path) -> dict:
+    """Every file under ``folder`` with its bytes (to show a refused command changed nothing)."""
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def test_compare_never_replaces_what_is_not_an_earlier_comparison(tiny_study, tmp_path, capsys):
+    study_files = _tree(tiny_study)
+    precious = tmp_path / "precious.txt"
+    precious.write_text("field notes\n")
+    notes = tmp_path / "notes"
+    notes.mkdir()
+    (notes / "plot_plan.txt").write_text("block layout\n")
+    refused = {str(tiny_study): "is or holds the study folder",  # the study folder itself
+               str(tiny_study.parent): "is or holds the study folder",  # a folder holding it
+               str(tiny_study / "runs"): "lies inside the study folder",
+               str(precious): "exists and is not a folder",
+               str(notes): "is not an earlier comparison"}
+    for out, words in refused.items():
+        assert main(["study", "compare", str(tiny_study), "--out", out]) == 2
+        err = capsys.readouterr().err
+        assert err.startswith("error: --out ") and words in err and err.count("\n") == 1, err
+    assert _tree(tiny_study) == study_files  # runs/, runs.parquet and the rest untouched
+    assert precious.read_text() == "field notes\n"
+    assert (notes / "plot_plan.txt").read_text() == "block layout\n" and len(list(notes.iterdir())) == 1
+    # an earlier comparison (its manifest says so) is replaced as a whole, twice over
+    out = tmp_path / "cmp"
+    for _ in range(2):
+        assert main(["study", "compare", str(tiny_study), "--out", str(out)]) == 0
+        capsys.readouterr()
+    from rootsim.result_folder import verify_result_folder
+
+    manifest = verify_result_folder(out)
+    assert manifest.command == "study compare" and "report.html" in manifest.files
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no staging or .old folder left

@@ -120,18 +120,31 @@ def test_killed_study_resumes_to_the_uninterrupted_result(tmp_path):
     assert not (out / ".partial").exists() and not list(out.rglob("*.part*"))
 
 
-def test_failed_runs_are_recorded_and_the_study_goes_on(tmp_path):
+def test_segment_budget_failures_are_recorded_and_the_study_goes_on(tmp_path):
     text = TINY_STUDY.replace('key = "root_classes.taproot.interbranch_distance_cm"\nlevels = [0.5, 1.5]',
-                              'key = "run.max_segments"\nlevels = [20, 1000000]').replace(
-        "levels = [45.0, 80.0]", "levels = [45.0, 250.0]")
+                              'key = "run.max_segments"\nlevels = [20, 1000000]')
     results = run_plan(plan_study(write_study(tmp_path, text)), tmp_path / "out", progress=False)
     runs = results.runs.set_index("variant")
     assert (runs.loc["angle-45_spacing-1000000", "status"] == "ok").all()
     budget = runs.loc["angle-45_spacing-20"]
     assert (budget.status == "failed").all() and budget.error.str.contains("segment budget").all()
-    bad = runs.loc["angle-250_spacing-1000000"]
-    assert (bad.status == "failed").all() and bad.error.str.contains("insertion_angle_deg").all()
+    assert (runs.loc["angle-80_spacing-1000000", "status"] == "ok").all()
     assert len(results.runs) == 8
+
+
+_NAMED_VARIANTS = f'''
+name = "typed_values"
+base = "{PARAMS / 'taproot_laterals.toml'}"
+master_seed = 3
+replicates = 1
+[design]
+kind = "variants"
+[[variants]]
+name = "fine"
+[[variants]]
+name = "thick"
+set = {{ "root_classes.taproot.radius_cm" = "thick" }}
+'''
 
 
 @pytest.mark.parametrize("change, words", [
@@ -141,6 +154,9 @@ def test_failed_runs_are_recorded_and_the_study_goes_on(tmp_path):
     (("taproot_laterals.toml", "no_such_base.toml"), ["base", "does not exist"]),
     (("replicates = 2", "replicates = 0"), ["replicates"]),
     (("[measure]", "[measure]\ncapture = true"), ["capture"]),
+    # an invalid value of one factor level stops the plan before any run (insertion angles lie in 0..180 deg)
+    (("levels = [45.0, 80.0]", "levels = [45.0, 250.0]"),
+     ["factors[0].levels", "angle-250_spacing-0.5", "insertion_angle_deg"]),
 ])
 def test_bad_study_files_are_one_line_errors_and_write_nothing(tmp_path, capsys, change, words):
     study = write_study(tmp_path, TINY_STUDY.replace(*change))
@@ -150,6 +166,14 @@ def test_bad_study_files_are_one_line_errors_and_write_nothing(tmp_path, capsys,
     for w in words:
         assert w in err
     assert not (tmp_path / "out").exists()
+
+
+def test_a_wrongly_typed_set_value_stops_the_study_before_any_run(tmp_path, capsys):
+    study = write_study(tmp_path, _NAMED_VARIANTS)
+    assert main(["study", "run", str(study), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"error: {study}: variants[1].set.root_classes.taproot.radius_cm: ") and "'thick'" in err
+    assert err.count("\n") == 1 and not (tmp_path / "out").exists()
 
 
 def test_cyclic_base_and_folder_of_another_study(tmp_path, capsys):

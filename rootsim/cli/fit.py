@@ -22,7 +22,7 @@ overlap (10 and 15 cm increments mixed) are refused.
 
 --method global searches the whole box of bounds by differential evolution, each generation run as one
 batch through the study runner (--workers N or --scheduler ADDRESS). It also takes observations on several
-dates (a 'day' column), per-observation standard deviations as weights (a 'rld_sd_cm_per_cm3' column),
+dates (a 'day' column), per-observation standard deviations as weights (a 'rld_standard_deviation_cm_per_cm3' column),
 observations taken with cores at their positions (--observed-as cores: columns x_cm, y_cm, diameter_cm, as
 in cores.csv), trait targets (--target d50_depth_cm=22:2), and reports a 95% profile-likelihood interval
 for each fitted value; it also writes OUT/fit_observed_vs_fitted.png.
@@ -53,7 +53,7 @@ def register(parser) -> None:
                         help="local: Powell from the file's values (default); global: differential evolution")
     parser.add_argument("--observed-as", choices=("stand", "cores"), default="stand",
                         help="global: compare with the whole-stand profile or with cores at the observed positions")
-    parser.add_argument("--target", action="append", default=[], metavar="TRAIT=VALUE:SD",
+    parser.add_argument("--target", action="append", default=[], metavar="TRAIT=VALUE:STANDARD_DEVIATION",
                         help="global: a trait to reproduce, with its SD (repeatable)")
     parser.add_argument("--population", type=int, default=6, metavar="N",
                         help="global: population per parameter (default 6)")
@@ -127,7 +127,7 @@ def _run_global(args, spec, parameters) -> int:
               "observed_as": args.observed_as, "values": result.values,
               "interval_95": {k: list(v) for k, v in result.intervals.items()},
               "objective_chi2": result.objective, "evaluations": result.evaluations,
-              "replicates": args.replicates, "targets": {t.name: [t.value, t.sd] for t in targets},
+              "replicates": args.replicates, "targets": {t.name: [t.value, t.standard_deviation] for t in targets},
               "fitted_traits": result.traits, "bounds": {p.key_path: [p.low, p.high] for p in parameters}}
     atomic_write_text(Path(out) / "fit_history.csv", result.history.to_csv(index=False))
     atomic_write_text(Path(out) / "fit_profile.csv", result.profile.to_csv(index=False))

@@ -113,7 +113,7 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="depth down to which the tube-soil gap reaches (default 0)")
     parser.add_argument("--tube-wall-growth", metavar="F", type=float, default=0.0,
                         help="fraction of the root length meeting the tube that grows along it in view (default 0)")
-    parser.add_argument("--tube-dof-cm", metavar="D[,D...]", default=None,
+    parser.add_argument("--tube-depth-of-field-cm", metavar="D[,D...]", default=None,
                         help="depths of field of the side-by-side image conversions (default 0.2,0.3)")
     parser.add_argument("--core-washing-recovery", metavar="F", type=float, default=1.0,
                         help="fraction of fine-root length recovered by washing (default 1)")
@@ -149,12 +149,13 @@ def _requests(args):
              for text in args.tube]
     tube_options = {"gap_cm": args.tube_gap_cm, "gap_depth_cm": args.tube_gap_depth_cm,
                     "wall_growth_fraction": args.tube_wall_growth, "detection_limit_cm": args.detection_limit_cm}
-    if args.tube_dof_cm is not None:
+    if args.tube_depth_of_field_cm is not None:
         from ..sampling.geometry_strings import parse_numbers
 
-        values = str(args.tube_dof_cm).split(",")
+        values = str(args.tube_depth_of_field_cm).split(",")
         tube_options["conversion_depths_of_field_cm"] = tuple(
-            parse_numbers(args.tube_dof_cm, option="--tube-dof-cm", names=tuple(f"d{i}" for i in range(len(values)))).values())
+            parse_numbers(args.tube_depth_of_field_cm, option="--tube-depth-of-field-cm",
+                          names=tuple(f"depth_of_field_{i}" for i in range(len(values)))).values())
     tubes = [dataclasses.replace(t, **tube_options) for t in tubes]
     walls = [dataclasses.replace(w, scraped_cm=args.wall_scraped_cm, min_protruding_cm=args.wall_min_protruding_cm,
                                  detection_limit_cm=args.detection_limit_cm) for w in walls]

@@ -36,11 +36,12 @@ def run(args) -> int:
     from ..soil.build import biopores_from_spec, soil_bounds_cm, soil_fields_from_spec
     from ..spec import load_spec
 
+    import math
+
+    for option, value in (("--depth-cm", args.depth_cm), ("--step-cm", args.step_cm), ("--voxel-cm", args.voxel_cm)):
+        if value is not None and not (math.isfinite(value) and value > 0):  # also refuses nan and inf
+            raise RootsimError(f"{option} {value:g}: not allowed (allowed: a finite number of cm > 0)")
     spec = load_spec(args.spec)
-    if args.depth_cm is not None and not args.depth_cm > 0:
-        raise RootsimError(f"--depth-cm {args.depth_cm:g} (allowed: > 0)")
-    if not args.step_cm > 0:
-        raise RootsimError(f"--step-cm {args.step_cm:g} (allowed: > 0)")
     bounds = soil_bounds_cm(spec, depth_cm=args.depth_cm)
     fields = soil_fields_from_spec(spec)
     biopores = biopores_from_spec(spec)

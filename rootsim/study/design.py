@@ -159,16 +159,28 @@ def _label(value) -> str:
     return str(value)
 
 
-def _build(base: dict, settings: list[tuple[str, Any]], layers: list[Path], source: str) -> tuple[Spec | None, str | None]:
+def _build(base: dict, settings: list[tuple[str, Any]], layers: list[Path], source: str, *, variant: str,
+           where_of: dict[str, str]) -> Spec:
+    """The spec of one variant; an invalid one stops the plan with the study file and key named.
+
+    ``where_of`` maps each set key path to where the study file sets it (``factors[1].levels``,
+    ``variants[2].set.root_classes.taproot.radius_cm``), so the message points at the line to change.
+    """
     data = base
     for path in layers:
         data = _layer(data, path)
     for key, value in settings:
         data = set_key_path(data, key, value)
     try:
-        return parse_spec(data, source=source), None
-    except RootsimError as exc:  # a bad factor combination: recorded as a failed run, the study goes on
-        return None, exc.cli_message()
+        return parse_spec(data, source=f"{source}: variant {variant}")
+    except SpecError as exc:
+        where = next((w for key, w in where_of.items()
+                      if exc.key_path == key or exc.key_path.startswith(key + ".")), None)
+        problem = f"variant {variant!r} sets {exc.key_path}: {exc.problem}" if where else \
+            f"variant {variant!r}: {exc.key_path or '<top level>'}: {exc.problem}"
+        raise SpecError(source, where or f"variant {variant!r}", problem, exc.allowed) from None
+    except RootsimError as exc:
+        raise RootsimError(f"{source}: variant {variant!r}: {exc}") from None
 
 
 def _variants(study: StudyFile, root: Path, source: str, base_spec: Spec):
@@ -184,7 +196,8 @@ def _variants(study: StudyFile, root: Path, source: str, base_spec: Spec):
                 if not f.is_file():
                     raise SpecError(source, f"variants[{i}].files[{j}]", f"file {v.files[j]!r} does not exist",
                                     "a parameter file path, relative to the study file")
-            out.append((v.name, {"variant": v.name}, list(v.set.items()), files))
+            out.append((v.name, {"variant": v.name}, list(v.set.items()), files,
+                        {key: f"variants[{i}].set.{key}" for key in v.set}))
         return out
     for i, f in enumerate(study.factors):
         if f.key is not None:
@@ -200,7 +213,8 @@ def _variants(study: StudyFile, root: Path, source: str, base_spec: Spec):
             settings = [(f.key, v) for f, v in zip(study.factors, combo) if f.key is not None]
             layers = [root / v for f, v in zip(study.factors, combo) if f.files is not None]
             values = {f.name: (Path(v).stem if f.files else v) for f, v in zip(study.factors, combo)}
-            out.append((name, values, settings, layers))
+            where_of = {f.key: f"factors[{i}].levels" for i, f in enumerate(study.factors) if f.key is not None}
+            out.append((name, values, settings, layers, where_of))
         return out
     # Latin hypercube (McKay, Beckman & Conover 1979, doi:10.1080/00401706.1979.10489755) via scipy.stats.qmc
     from scipy.stats import qmc
@@ -213,7 +227,8 @@ def _variants(study: StudyFile, root: Path, source: str, base_spec: Spec):
         for f, u in zip(study.factors, row):
             v = f.range[0] + u * (f.range[1] - f.range[0])
             values[f.name] = int(round(v)) if f.integer else float(v)
-        out.append((f"sample_{k + 1:0{width}d}", values, [(f.key, values[f.name]) for f in study.factors], []))
+        out.append((f"sample_{k + 1:0{width}d}", values, [(f.key, values[f.name]) for f in study.factors], [],
+                    {f.key: f"factors[{i}].range" for i, f in enumerate(study.factors)}))
     return out
 
 
@@ -253,15 +268,18 @@ def _plan(study: StudyFile, root: Path, source: str, *, kind: str = "study") -> 
     base_spec = parse_spec(base, source=str(base_path))
     tasks = []
     seen = {}
-    for index, (name, values, settings, layers) in enumerate(_variants(study, root, source, base_spec)):
+    # every variant's spec is built and validated here, before any run: a wrongly typed or out-of-range
+    # setting stops the plan with one line naming the study file and key; only failures that show while
+    # growing (a segment budget passed) are recorded as failed runs
+    for index, (name, values, settings, layers, where_of) in enumerate(_variants(study, root, source, base_spec)):
         folder_name = safe_path_component(name, what=f"{source}: variant name")
         if folder_name in seen:
             raise SpecError(source, "variants", f"variants {seen[folder_name]!r} and {name!r} give the same folder "
                             f"name {folder_name!r}", "names that differ in letters, digits or . _ + -")
         seen[folder_name] = name
-        spec, error = _build(base, settings, layers, f"{source}: variant {name}")
-        if spec is not None:
-            spec = spec.model_copy(update={"name": name})
+        spec = _build(base, settings, layers, source, variant=name, where_of=where_of)
+        spec = spec.model_copy(update={"name": name})
+        error = None
         for r in range(study.replicates):
             seed = run_seed(study.master_seed, name, r, common_random_numbers=study.design.common_random_numbers)
             tasks.append(Task(f"{folder_name}__r{r:03d}", name, index, r, seed, values, spec, error,

@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import RootsimError
-from ..fitting import FitParameter, with_parameter
+from ..fitting import FitParameter, parse_named_pair, with_parameter
 
 __all__ = ["TraitTarget", "parse_trait_target", "fit_global", "GlobalFitResult"]
 
@@ -36,24 +36,21 @@ CHI2_95_ONE_DOF = 3.841458820694124  # scipy.stats.chi2.ppf(0.95, 1)
 
 @dataclass(frozen=True)
 class TraitTarget:
-    """An observed trait the fit should reproduce: name (a column of runs.parquet), value and SD."""
+    """An observed trait the fit should reproduce: name (a column of runs.parquet), value and its standard
+    deviation (in the trait's units), used as the weight 1 / standard_deviation² of the trait's term."""
 
     name: str
     value: float
-    sd: float
+    standard_deviation: float
 
 
 def parse_trait_target(text: str) -> TraitTarget:
-    """Parse ``NAME=VALUE:SD`` (e.g. ``d50_depth_cm=22:2``)."""
-    name, _, rest = text.partition("=")
-    value, _, sd = rest.partition(":")
-    try:
-        v, s = float(value), float(sd)
-    except ValueError:
-        v = s = math.nan
-    if not name.strip() or not (math.isfinite(v) and math.isfinite(s) and s > 0):
-        raise RootsimError(f"--target {text!r}: expected TRAIT=VALUE:SD with SD > 0, e.g. d50_depth_cm=22:2")
-    return TraitTarget(name.strip(), v, s)
+    """Parse ``NAME=VALUE:STANDARD_DEVIATION`` (e.g. ``d50_depth_cm=22:2``) with the shared
+    :func:`rootsim.fitting.parse_named_pair`."""
+    name, value, standard_deviation = parse_named_pair(
+        text, option="--target", form="TRAIT=VALUE:STANDARD_DEVIATION with STANDARD_DEVIATION > 0",
+        example="d50_depth_cm=22:2", valid=lambda value, standard_deviation: standard_deviation > 0)
+    return TraitTarget(name, value, standard_deviation)
 
 
 @dataclass
@@ -141,7 +138,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
                       cores=_cores_measure(obs, source) if as_cores else [])
     base = spec.run.seed if seed is None else seed
     seeds = [replicate_seed(base, r) for r in range(replicates)]
-    sd = obs["rld_sd_cm_per_cm3"].to_numpy(float)
+    sd = obs["rld_standard_deviation_cm_per_cm3"].to_numpy(float)
     weighted = bool(np.isfinite(sd).all())
     sd = np.where(np.isfinite(sd), sd, 1.0)
     target = obs["rld_cm_per_cm3"].to_numpy(float)
@@ -195,7 +192,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
         for t in targets:
             if not math.isfinite(traits.get(t.name, math.nan)):
                 raise RootsimError(f"--target {t.name}: not a trait rootsim measures (see runs.parquet columns)")
-            total += ((traits[t.name] - t.value) / t.sd) ** 2
+            total += ((traits[t.name] - t.value) / t.standard_deviation) ** 2
         return total
 
     def evaluate(units, stage):
@@ -248,7 +245,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     fitted, traits = observe(results, specs[0][0])
     profile = obs[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]].copy()
     profile["rld_observed_cm_per_cm3"] = target
-    profile["rld_sd_cm_per_cm3"] = obs["rld_sd_cm_per_cm3"].to_numpy()
+    profile["rld_standard_deviation_cm_per_cm3"] = obs["rld_standard_deviation_cm_per_cm3"].to_numpy()
     profile["rld_fitted_cm_per_cm3"] = fitted
     if not as_cores:
         profile = profile.drop(columns=["x_cm", "y_cm", "diameter_cm"])
@@ -266,9 +263,9 @@ def observed_vs_fitted_figure(profile: pd.DataFrame):
         block = profile[profile["day"] == day]
         keys = ["depth_top_cm", "depth_bottom_cm"]
         mean = block.groupby(keys, sort=True)[["rld_observed_cm_per_cm3", "rld_fitted_cm_per_cm3",
-                                               "rld_sd_cm_per_cm3"]].mean().reset_index()
+                                               "rld_standard_deviation_cm_per_cm3"]].mean().reset_index()
         mid = 0.5 * (mean["depth_top_cm"] + mean["depth_bottom_cm"])
-        err = mean["rld_sd_cm_per_cm3"].where(np.isfinite(mean["rld_sd_cm_per_cm3"]))
+        err = mean["rld_standard_deviation_cm_per_cm3"].where(np.isfinite(mean["rld_standard_deviation_cm_per_cm3"]))
         ax.errorbar(mean["rld_observed_cm_per_cm3"], mid, xerr=err, fmt="o", ms=4, label="observed")
         ax.plot(mean["rld_fitted_cm_per_cm3"], mid, "-", label="fitted")
         ax.invert_yaxis()

@@ -1,7 +1,10 @@
 """``rootsim study compare``: tables, figures and one self-contained HTML report of a finished study.
 
-Everything is computed and drawn in memory first, then written into a fresh folder that replaces the old
-report in one rename, so a failed comparison never leaves a half-written report.
+Everything is computed and drawn in memory first, then written as a result folder
+(:func:`rootsim.result_folder.write_result_folder`: a staged sibling swapped in, ``manifest.json`` with
+``command = "study compare"``), so a failed comparison never leaves a half-written report. ``out`` may be new,
+empty, or an earlier comparison (its manifest says so); anything else, and a folder equal to or holding the
+study folder, or inside it other than the default ``STUDY/compare``, is refused before any work.
 """
 
 from __future__ import annotations
@@ -10,8 +13,6 @@ import base64
 import html
 import io
 import os
-import shutil
-import uuid
 from pathlib import Path
 
 import numpy as np
@@ -19,9 +20,16 @@ import pandas as pd
 
 from ..errors import RootsimError
 from .runner import read_results
-from .statistics import differences, power_table, summarize
+from .statistics import differences, measure_unit, power_table, summarize
 
-__all__ = ["compare_study", "comparison_tables", "report_html"]
+__all__ = ["compare_study", "comparison_tables", "report_html", "check_compare_folder"]
+
+#: ``command`` recorded in the manifest of a comparison folder; only such a folder is ever replaced.
+COMPARE_COMMAND = "study compare"
+#: Level of every confidence interval in the tables (the columns are named ``ci95_...``).
+_CONFIDENCE = 0.95
+#: Default comparison folder inside a study folder.
+DEFAULT_COMPARE_NAME = "compare"
 
 #: Trait columns compared when present (in this order); other numeric trait columns follow.
 _ID_COLUMNS = {"run_id", "variant", "replicate", "seed", "folder", "status", "error", "n_segments", "n_plants",
@@ -38,10 +46,17 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
                       alpha: float = 0.05) -> dict[str, pd.DataFrame]:
     """The comparison tables of a study: trait and RLD-layer summaries, differences, power.
 
+    Intervals are 95 % t intervals (``ci95_low``, ``ci95_high``); ``alpha`` is the significance level of the
+    Holm-corrected tests and of the power table.
+
     Returns
     -------
     dict of DataFrame
-        ``trait_summary``, ``trait_differences``, ``rld_summary``, ``rld_differences``, ``power``.
+        ``trait_summary`` (``variant, measure, unit, replicates, mean, standard_deviation, ci95_low, ci95_high``),
+        ``trait_differences`` (``..., difference, ci95_low, ci95_high, unit, p_value, hedges_g, p_holm, ...``),
+        ``rld_summary`` (``variant, layer, replicates, mean_cm_per_cm3, standard_deviation_cm_per_cm3,
+        ci95_low_cm_per_cm3, ci95_high_cm_per_cm3``), ``rld_differences`` (``difference_cm_per_cm3``, ...) and
+        ``power``.
     """
     for name, value, low, high in (("--difference", difference, 0, 10), ("--power", power, 0, 1),
                                    ("--alpha", alpha, 0, 1)):
@@ -56,7 +71,6 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
         raise RootsimError(f"--reference {reference!r}: no such variant (allowed: {', '.join(variants)})")
     if ok.empty:
         raise RootsimError("no successful runs to compare (see the error column of runs.parquet)")
-    confidence = 1 - alpha
     traits = _trait_columns(ok, results.factor_names)
     prof = results.profiles
     prof = prof[(prof["order"] == -1) & (prof["day"] == prof["day"].max()) & prof["run_id"].isin(ok["run_id"])]
@@ -64,12 +78,20 @@ def comparison_tables(results, *, reference=None, difference: float = 0.2, power
     wide = prof.assign(layer=labels.to_numpy()).pivot_table(index=["run_id", "variant"], columns="layer",
                                                             values="rld_cm_per_cm3", sort=False).reset_index()
     layers = list(dict.fromkeys(labels))
+    trait_summary = summarize(ok, traits, order=variants, confidence=_CONFIDENCE)
+    trait_summary.insert(2, "unit", trait_summary["measure"].map(measure_unit))
+    trait_differences = differences(ok, traits, reference=reference, order=variants, confidence=_CONFIDENCE,
+                                    alpha=alpha)
+    trait_differences.insert(trait_differences.columns.get_loc("p_value"), "unit",
+                             trait_differences["measure"].map(measure_unit))
+    rld_units = {c: f"{c}_cm_per_cm3" for c in ("mean", "standard_deviation", "ci95_low", "ci95_high", "difference")}
     return {
-        "trait_summary": summarize(ok, traits, order=variants, confidence=confidence),
-        "trait_differences": differences(ok, traits, reference=reference, order=variants, confidence=confidence),
-        "rld_summary": summarize(wide, layers, order=variants, confidence=confidence).rename(columns={"measure": "layer"}),
-        "rld_differences": differences(wide, layers, reference=reference, order=variants,
-                                       confidence=confidence).rename(columns={"measure": "layer"}),
+        "trait_summary": trait_summary,
+        "trait_differences": trait_differences,
+        "rld_summary": summarize(wide, layers, order=variants, confidence=_CONFIDENCE).rename(
+            columns={"measure": "layer", **rld_units}),
+        "rld_differences": differences(wide, layers, reference=reference, order=variants, confidence=_CONFIDENCE,
+                                       alpha=alpha).rename(columns={"measure": "layer", **rld_units}),
         "power": power_table(results.samples, results.profiles[results.profiles["run_id"].isin(ok["run_id"])], ok,
                              reference=reference, relative_difference=difference, power=power, alpha=alpha),
     }
@@ -83,8 +105,9 @@ def _figure_profiles(results, summary: pd.DataFrame):
     for variant, block in summary.groupby("variant", sort=False):
         bounds = block["layer"].str.replace(" cm", "").str.split("-", expand=True).astype(float)
         mid = bounds.mean(axis=1).to_numpy()
-        line, = ax.plot(block["mean"], mid, marker="o", ms=3, label=str(variant))
-        ax.fill_betweenx(mid, block["ci_low"], block["ci_high"], color=line.get_color(), alpha=0.2, lw=0)
+        line, = ax.plot(block["mean_cm_per_cm3"], mid, marker="o", ms=3, label=str(variant))
+        ax.fill_betweenx(mid, block["ci95_low_cm_per_cm3"], block["ci95_high_cm_per_cm3"], color=line.get_color(),
+                         alpha=0.2, lw=0)
     ax.invert_yaxis()
     ax.set_xlabel("RLD, cm cm$^{-3}$ (mean, 95% CI band over replicates)")
     ax.set_ylabel("depth, cm")
@@ -175,6 +198,7 @@ def compare_study(folder, out, *, reference=None, difference: float = 0.2, power
     bad option; nothing is written then.
     """
     results = read_results(folder)
+    out = check_compare_folder(folder, out)
     tables = comparison_tables(results, reference=reference, difference=difference, power=power, alpha=alpha)
     variants = list(dict.fromkeys(results.runs["variant"]))
     reference = reference or variants[0]
@@ -201,28 +225,60 @@ def compare_study(folder, out, *, reference=None, difference: float = 0.2, power
          f"variant's spread.", figures["power.png"]),
         ("Sampling power table", "", tables["power"]),
     ])
-    out = Path(out)
-    tmp = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.part"
-    try:
-        tmp.mkdir(parents=True)
+    from ..result_folder import write_result_folder
+
+    def write_files(staging: Path) -> dict:
         for key, table in tables.items():
-            table.to_csv(tmp / f"{key}.csv", index=False)
+            table.to_csv(staging / f"{key}.csv", index=False)
         for key, data in figures.items():
-            (tmp / key).write_bytes(data)
-        (tmp / "report.html").write_text(html_text, encoding="utf-8")
-        old = None
-        if out.exists():
-            old = out.parent / f".{out.name}.{uuid.uuid4().hex[:8]}.old"
-            os.rename(out, old)
-        os.rename(tmp, out)
-        if old is not None:
-            shutil.rmtree(old, ignore_errors=True)
-    except OSError as exc:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise RootsimError(f"{out}: cannot write the report ({exc.strerror or exc})") from None
+            (staging / key).write_bytes(data)
+        (staging / "report.html").write_text(html_text, encoding="utf-8")
+        return {"study_folder": str(Path(folder).resolve()), "reference": reference}
+
+    write_result_folder(out, write_files, overwrite=True, command=COMPARE_COMMAND, run_file="report.html")
     diff = tables["trait_differences"]
     lines = [f"compared {len(variants)} variants against {reference}; wrote {out}/report.html and CSV tables"]
     for _, r in diff[diff["significant_holm"]].head(8).iterrows():
         lines.append(f"  {r['variant']}: {r['measure']} {r['difference']:+.4g} "
-                     f"(95% CI {r['ci_low']:.4g} to {r['ci_high']:.4g}, Holm p = {r['p_holm']:.3g})")
+                     f"(95% CI {r['ci95_low']:.4g} to {r['ci95_high']:.4g}, Holm p = {r['p_holm']:.3g})")
     return "\n".join(lines)
+
+
+def check_compare_folder(study_folder, out) -> Path:
+    """Check, before any work, that the comparison of ``study_folder`` may be written to ``out``.
+
+    Allowed: a missing or empty folder, or an earlier comparison (its ``manifest.json`` records
+    ``command = "study compare"``), which is then replaced as a whole. Refused: an existing file, any other
+    folder with content, the study folder itself, a folder that holds it, and a folder inside it other than
+    ``STUDY/compare``.
+
+    Raises
+    ------
+    RootsimError
+        One line naming ``--out`` and what is allowed; nothing was written.
+    """
+    from ..errors import SegmentTableError
+    from ..result_folder import read_manifest
+
+    out = Path(out)
+    study = Path(study_folder).resolve()
+    target = out.resolve()
+    allowed = "a new or empty folder, or an earlier 'rootsim study compare' folder"
+    if target == study or target in study.parents:
+        raise RootsimError(f"--out {out}: is or holds the study folder {study_folder} (allowed: {allowed} "
+                           "outside it, or the default STUDY/compare)")
+    if study in target.parents and target != study / DEFAULT_COMPARE_NAME:
+        raise RootsimError(f"--out {out}: lies inside the study folder {study_folder} (allowed: {allowed} "
+                           f"outside it, or the default {Path(study_folder) / DEFAULT_COMPARE_NAME})")
+    if out.exists() or out.is_symlink():
+        if not out.is_dir():
+            raise RootsimError(f"--out {out}: exists and is not a folder (allowed: {allowed})")
+        if any(os.scandir(out)):
+            try:
+                manifest = read_manifest(out)
+            except SegmentTableError:
+                manifest = None
+            if manifest is None or manifest.command != COMPARE_COMMAND:
+                raise RootsimError(f"--out {out}: is not empty and is not an earlier comparison (no manifest.json "
+                                   f"of '{COMPARE_COMMAND}'); allowed: {allowed}")
+    return out

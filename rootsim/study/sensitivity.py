@@ -31,6 +31,9 @@ def _problem(names, bounds) -> dict:
 def sensitivity_design(names: list[str], bounds: list, *, method: str, samples: int, seed: int) -> np.ndarray:
     """Sample points, shape (n, d), for ``method`` ``"morris"`` (``samples`` trajectories, 4 levels) or
     ``"sobol"`` (``samples`` base points, a power of 2; n = samples x (d + 2), no second-order terms)."""
+    if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) or samples < 1:
+        raise RootsimError(f"--samples {samples}: must be a whole number >= 1 (Morris trajectories, or Sobol' "
+                           "base samples: a power of 2)")
     problem = _problem(names, bounds)
     if method == "morris":
         from SALib.sample import morris
@@ -49,8 +52,8 @@ def sensitivity_indices(names: list[str], bounds: list, points: np.ndarray, valu
                         seed: int = 0) -> pd.DataFrame:
     """Sensitivity indices of ``values`` (shape (n,)) at ``points`` from :func:`sensitivity_design`.
 
-    Returns one row per factor: Morris ``mu_star``, ``mu_star_conf`` (95 % bootstrap half-width), ``sigma``;
-    Sobol' ``first_order``, ``first_order_conf``, ``total``, ``total_conf``.
+    Returns one row per factor: Morris ``mu_star``, ``mu_star_ci95`` (half-width of the 95 % bootstrap
+    interval), ``sigma``; Sobol' ``first_order``, ``first_order_ci95``, ``total``, ``total_ci95`` (half-widths).
     """
     import warnings
 
@@ -62,13 +65,13 @@ def sensitivity_indices(names: list[str], bounds: list, points: np.ndarray, valu
             from SALib.analyze import morris
 
             res = morris.analyze(problem, points, values, num_levels=4, seed=seed)
-            return pd.DataFrame({"factor": names, "mu_star": res["mu_star"], "mu_star_conf": res["mu_star_conf"],
+            return pd.DataFrame({"factor": names, "mu_star": res["mu_star"], "mu_star_ci95": res["mu_star_conf"],
                                  "sigma": res["sigma"]})
         from SALib.analyze import sobol
 
         res = sobol.analyze(problem, values, calc_second_order=False, seed=seed)
-    return pd.DataFrame({"factor": names, "first_order": res["S1"], "first_order_conf": res["S1_conf"],
-                         "total": res["ST"], "total_conf": res["ST_conf"]})
+    return pd.DataFrame({"factor": names, "first_order": res["S1"], "first_order_ci95": res["S1_conf"],
+                         "total": res["ST"], "total_ci95": res["ST_conf"]})
 
 
 def _bar_chart(table: pd.DataFrame, method: str):
@@ -81,11 +84,11 @@ def _bar_chart(table: pd.DataFrame, method: str):
         block = table[table["trait"] == trait]
         y = np.arange(len(block))
         if method == "morris":
-            ax.barh(y, block["mu_star"], xerr=block["mu_star_conf"], color="tab:blue")
+            ax.barh(y, block["mu_star"], xerr=block["mu_star_ci95"], color="tab:blue")
             ax.set_xlabel("Morris mu* (trait units)")
         else:
-            ax.barh(y - 0.2, block["first_order"], 0.4, xerr=block["first_order_conf"], label="first order")
-            ax.barh(y + 0.2, block["total"], 0.4, xerr=block["total_conf"], label="total")
+            ax.barh(y - 0.2, block["first_order"], 0.4, xerr=block["first_order_ci95"], label="first order")
+            ax.barh(y + 0.2, block["total"], 0.4, xerr=block["total_ci95"], label="total")
             ax.set_xlabel("Sobol' index")
             ax.legend(fontsize=7)
         ax.set_yticks(y)
@@ -127,8 +130,14 @@ def run_sensitivity(study_path, out_dir, *, method: str, traits: list[str], samp
     data = study.model_dump(exclude_none=True)
     data.update(factors=[], variants=variants,
                 design={"kind": "variants", "common_random_numbers": True})
-    plan = _plan(parse_study_file(data, source=str(study_path)), study_path.parent, str(study_path),
-                 kind="sensitivity")
+    try:
+        plan = _plan(parse_study_file(data, source=str(study_path)), study_path.parent, str(study_path),
+                     kind="sensitivity")
+    except SpecError as exc:  # a sample point outside what a key allows: point at the factor's range
+        i = next((i for i, f in enumerate(study.factors) if exc.key_path.endswith(f".set.{f.key}")), None)
+        if i is None:
+            raise
+        raise SpecError(exc.file, f"factors[{i}].range", exc.problem, exc.allowed) from None
     plan.factor_names = []
     results = run_plan(plan, out_dir, workers=workers, scheduler=scheduler, resume=resume, progress=progress)
     runs = results.runs
