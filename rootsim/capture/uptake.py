@@ -108,7 +108,7 @@ def root_length_by_day(system, *, cell_cm: float, n_cells: int, first_day: int, 
     depth1 = -float_column(system, "z1")
     length = float_column(system, "length_cm")
     if n_days <= 0:
-        raise CaptureError("season: no days to simulate (allowed: at least one day)")
+        raise CaptureError("season: no days to run (allowed: at least one day)")
     group = np.clip(np.ceil(birth - 1e-9).astype(np.int64) - first_day, 0, None)
     late = group >= n_days
     group = np.where(late, n_days, group)  # born after the season: an extra group dropped below
