@@ -210,8 +210,14 @@ def _assemble(plants: list[_PlantResult], class_names: list[str], *, in_biopore:
         copy_root_columns(local_root, m, offset, root_offsets[k], k, p.order, p.class_code, p.radius, root, plant_id,
                           order, class_code, radius)
         del local_root
-    names = np.asarray(class_names, dtype=object)
-    root_class = names[class_code] if n else np.zeros(0, dtype=object)
+    # root_class as a Categorical straight from the class codes (sorted categories, as a table read from Parquet
+    # has them): no Python string per segment, no factorizing afterwards
+    import pandas as pd
+
+    sorted_names = sorted(class_names)
+    rank = np.asarray([sorted_names.index(name) for name in class_names], dtype=np.int16)
+    root_class = pd.Categorical.from_codes(rank[class_code] if n else np.zeros(0, dtype=np.int16),
+                                           categories=pd.Index(sorted_names, dtype=object))
     del class_code
     parent = np.empty(n, dtype=np.int64)
     segment_offsets = np.cumsum([0] + [p.n_segments for p in plants])
