@@ -15,6 +15,7 @@ import pandas as pd
 from ..analysis.profile import profile_area
 from .errors import CaptureError
 from .nitrate import KG_PER_HA_TO_MG_PER_CM2, nitrate_step
+from .reference_et import hargreaves_reference_evapotranspiration_mm
 from .richards import advance_water
 from .soil_file import SoilWaterSetup
 from .uptake import root_length_by_day, uptake_sink
@@ -22,15 +23,38 @@ from .uptake import root_length_by_day, uptake_sink
 __all__ = ["run_water_season", "potential_transpiration_mm", "capture_traits"]
 
 
-def potential_transpiration_mm(weather, *, crop_coefficient: float) -> np.ndarray:
-    """Daily potential transpiration, mm: the weather column, else crop coefficient x reference ET (FAO-56,
-    Allen et al. 1998, single crop coefficient). One-line error naming both columns when neither is there."""
+def potential_transpiration_mm(weather, *, crop_coefficient: float, latitude_deg: float | None = None,
+                               first_day_of_year: int | None = None, soil_source: str = "<soil>") -> np.ndarray:
+    """Daily potential transpiration, mm, shape (n_days,).
+
+    In order of preference: the weather column ``potential_transpiration_mm``; else crop coefficient x the column
+    ``reference_evapotranspiration_mm`` (FAO-56, Allen et al. 1998, single crop coefficient); else crop coefficient x
+    Hargreaves & Samani (1985) reference ET from ``min_air_temperature_c`` and ``max_air_temperature_c`` (FAO-56
+    eq. 52, see :mod:`rootsim.capture.reference_et`), which needs ``latitude_deg`` and ``first_day_of_year`` (the
+    calendar day of year of the table's first row; later rows count on, wrapping after day 365). A one-line
+    :class:`CaptureError` names what is missing.
+    """
     if weather.has("potential_transpiration_mm"):
         return weather.column("potential_transpiration_mm")
     if weather.has("reference_evapotranspiration_mm"):
         return crop_coefficient * weather.column("reference_evapotranspiration_mm")
-    raise CaptureError(f"{weather.source}: columns: neither 'potential_transpiration_mm' nor "
-                       "'reference_evapotranspiration_mm' is present (allowed: one of them, mm/day)")
+    missing = [c for c in ("min_air_temperature_c", "max_air_temperature_c") if not weather.has(c)]
+    if missing:
+        raise CaptureError(f"{weather.source}: columns: neither 'potential_transpiration_mm' nor "
+                           f"'reference_evapotranspiration_mm' is present, and {' and '.join(map(repr, missing))} "
+                           "for Hargreaves reference ET is missing (allowed: one of the two, mm/day, or both "
+                           "min_air_temperature_c and max_air_temperature_c)")
+    if latitude_deg is None or first_day_of_year is None:
+        key = "latitude_deg" if latitude_deg is None else "first_day_of_year"
+        raise CaptureError(f"{soil_source}: transpiration.{key}: missing, needed for Hargreaves reference ET "
+                           f"because {weather.source} has no potential_transpiration_mm or "
+                           "reference_evapotranspiration_mm (allowed: latitude_deg -90..90 and first_day_of_year "
+                           "1..366 in [transpiration])")
+    day_of_year = (first_day_of_year - 1 + (weather.day - weather.first_day)) % 365 + 1
+    reference = hargreaves_reference_evapotranspiration_mm(
+        weather.column("min_air_temperature_c"), weather.column("max_air_temperature_c"),
+        latitude_deg=latitude_deg, day_of_year=day_of_year)
+    return crop_coefficient * reference
 
 
 def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2: float | None = None,
@@ -63,7 +87,10 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
     n_days, n_cells, cell = days.size, setup.n_cells, setup.cell_cm
     rain = weather.column("rain_mm", default=0.0)[:n_days]
     irrigation = weather.column("irrigation_mm", default=0.0)[:n_days]
-    potential = potential_transpiration_mm(weather, crop_coefficient=setup.crop_coefficient)[:n_days]
+    potential = potential_transpiration_mm(weather, crop_coefficient=setup.crop_coefficient,
+                                           latitude_deg=setup.latitude_deg,
+                                           first_day_of_year=setup.first_day_of_year,
+                                           soil_source=setup.source)[:n_days]
     roots = root_length_by_day(system, cell_cm=cell, n_cells=n_cells, first_day=int(days[0]), n_days=n_days)
     head = setup.initial_head_cm.astype(np.float64).copy()
     soil = setup.soil

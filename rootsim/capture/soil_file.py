@@ -17,6 +17,9 @@ Example (``params/capture/soil_water_loam.toml``)::
     [transpiration]
     crop_coefficient = 1.0           # potential = coefficient x reference ET (FAO-56) when the weather table
                                      # has no potential_transpiration_mm
+    latitude_deg = 45.0              # optional: with first_day_of_year, reference ET by Hargreaves (FAO-56 eq. 52)
+    first_day_of_year = 100          # from min/max air temperature when the table has no ET column; calendar
+                                     # day of year (1..366) of the weather table's first row
     [nitrate]                        # see rootsim.capture.nitrate (initial_nitrate_n_mg_per_l, dispersivity_cm,
                                      # diffusion_in_water_cm2_per_day, max_uptake_mg_n_per_cm_root_per_day,
                                      # half_saturation_mg_n_per_l)
@@ -68,6 +71,8 @@ class SoilWaterSetup:
     deep_water_below_cm: float
     stress_ratio_below: float
     nitrate: NitrateParameters = NitrateParameters()
+    latitude_deg: float | None = None
+    first_day_of_year: int | None = None
 
     @property
     def n_cells(self) -> int:
@@ -157,9 +162,18 @@ def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterS
         _number(uptake, key, f"{source}: uptake", low=-1e6, high=1e6)
     feddes = FeddesParameters(**{k: float(v) for k, v in uptake.items()}).check(f"{source}: uptake")
     transpiration = data.get("transpiration", {})
-    _unknown(transpiration, {"crop_coefficient"}, f"{source}: transpiration")
+    _unknown(transpiration, {"crop_coefficient", "latitude_deg", "first_day_of_year"}, f"{source}: transpiration")
     coefficient = _number(transpiration, "crop_coefficient", f"{source}: transpiration", low=0.0, high=3.0,
                           default=1.0)
+    latitude = (None if "latitude_deg" not in transpiration else
+                _number(transpiration, "latitude_deg", f"{source}: transpiration", low=-90.0, high=90.0))
+    first_day_of_year = None
+    if "first_day_of_year" in transpiration:
+        value = transpiration["first_day_of_year"]
+        if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 366:
+            raise CaptureError(f"{source}: transpiration.first_day_of_year: {value!r} "
+                               "(allowed: a whole calendar day of year 1..366)")
+        first_day_of_year = int(value)
     traits = data.get("traits", {})
     _unknown(traits, {"deep_water_below_cm", "stress_ratio_below"}, f"{source}: traits")
     deep = _number(traits, "deep_water_below_cm", f"{source}: traits", low=0.0, high=depth, default=min(60.0, depth))
@@ -171,7 +185,7 @@ def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterS
                                    for k in nitrate_table})
     name = str(data.get("name", Path(source).stem))
     return SoilWaterSetup(source, name, depth, cell, bottom, soil, arrays["h0"], feddes, coefficient, deep, stress,
-                          nitrate)
+                          nitrate, latitude, first_day_of_year)
 
 
 def read_soil_water_file(path: str | os.PathLike) -> SoilWaterSetup:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import json
+from pathlib import Path
 
 COMMAND = "capture"
 HELP = "soil water over a season under a grown root system -> capture_daily.csv, capture_layers.csv, traits"
@@ -20,6 +21,8 @@ CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotransp
   capture_layers.csv   one row per day and soil cell: water content, pressure head, uptake, root length
   capture_traits.json  seasonal transpiration, water taken up below a stated depth, stress days, ...
   water_content.png, cumulative_uptake.png, season_summary.png
+  --vtk FILE.vti       the soil state as VTK image data: x = day, z = depth (cm, z up), cell data
+                       water_content, pressure_head_cm, water_uptake_mm, root_length_cm
 
 Simulated capture is a research aid, not agronomic advice; the shipped soil and weather are invented.
 
@@ -38,17 +41,22 @@ def register(parser: argparse.ArgumentParser) -> None:
                              "overlap between roots and plants -> phosphorus_profile.csv, traits")
     parser.add_argument("--phosphorus-voxel-cm", metavar="V", type=float, default=None,
                         help="voxel edge for the depletion volume, cm (default R / 4)")
+    parser.add_argument("--vtk", metavar="FILE.vti", default=None,
+                        help="also write the soil state by depth and day as VTK image data (.vti)")
     parser.add_argument("--no-figures", action="store_true", help="skip the PNG figures")
 
 
 def run(args: argparse.Namespace) -> int:
     from ..atomic import atomic_path, ensure_output_dir
+    from ..capture.errors import CaptureError
     from ..capture.figures import plot_cumulative_uptake, plot_season_summary, plot_water_content
     from ..capture.season import run_water_season
     from ..capture.soil_file import read_soil_water_file
     from ..rootsystem import RootSystem
     from ..soil.weather import read_weather_table
 
+    if args.vtk is not None and Path(args.vtk).suffix.lower() != ".vti":
+        raise CaptureError(f"--vtk {args.vtk}: the soil state is written as VTK image data (allowed: a .vti file)")
     setup = read_soil_water_file(args.soil_water)
     weather = read_weather_table(args.weather)
     system = RootSystem.read(args.dir)
@@ -76,6 +84,10 @@ def run(args: argparse.Namespace) -> int:
         result["daily"].to_csv(tmp["capture_daily.csv"], index=False, float_format="%.10g")
         result["layers"].to_csv(tmp["capture_layers.csv"], index=False, float_format="%.10g")
         tmp["capture_traits.json"].write_text(json.dumps(traits, indent=2, allow_nan=False) + "\n", encoding="utf-8")
+        if args.vtk is not None:
+            from ..capture.soil_state_vtk import write_soil_state_vti
+
+            write_soil_state_vti(stack.enter_context(atomic_path(args.vtk)), result["layers"])
         if phosphorus is not None:
             phosphorus["profile"].to_csv(tmp["phosphorus_profile.csv"], index=False, float_format="%.10g")
         if not args.no_figures:
@@ -90,5 +102,5 @@ def run(args: argparse.Namespace) -> int:
           f"{t['seasonal_potential_transpiration_mm']:.1f} mm potential, {t['water_uptake_below_depth_mm']:.1f} mm "
           f"from below {t['deep_water_below_cm']:g} cm, {t['days_of_water_stress']} stress days, drainage "
           f"{t['drainage_mm']:.1f} mm")
-    print(f"wrote {', '.join(str(out / n) for n in names)}")
+    print(f"wrote {', '.join([str(out / n) for n in names] + ([str(args.vtk)] if args.vtk else []))}")
     return 0
