@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["CATEGORY_COLOURS_RGB", "TOTAL_COLOUR_RGB", "category_colours", "order_colours", "hex_colour"]
+__all__ = ["CATEGORY_COLOURS_RGB", "TOTAL_COLOUR_RGB", "FIELD_COLOURMAP", "category_colours", "order_colours", "hex_colour"]
 
 #: Okabe-Ito colours without black, RGB 0..255, shape (7, 3): orange, blue, bluish green,
 #: reddish purple, vermillion, sky blue, yellow.
@@ -22,6 +22,10 @@ CATEGORY_COLOURS_RGB = np.array([[230, 159, 0], [0, 114, 178], [0, 158, 115], [2
 CATEGORY_COLOURS_RGB.setflags(write=False)
 #: Colour of totals (all roots, the stand mean), RGB 0..255: Okabe-Ito black.
 TOTAL_COLOUR_RGB = np.array([0, 0, 0], dtype=np.uint8)
+#: Sequential colour map (matplotlib name) of soil fields in renders: cividis, readable with colour-vision
+#: deficiency, low values dark blue, high values yellow (Nuñez, Anderton & Renslow 2018, PLoS ONE 13:e0199239,
+#: doi:10.1371/journal.pone.0199239).
+FIELD_COLOURMAP = "cividis"
 
 
 def order_colours(order) -> np.ndarray:

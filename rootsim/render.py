@@ -169,7 +169,8 @@ def _scene_bounds(system) -> np.ndarray:
 
 
 def render_image(system, *, color_by: str = "order", view: str = "iso", size=(1200, 900),
-                 title: str | None = None, style: str = "lines", tube_scale: float = 1.0) -> np.ndarray:
+                 title: str | None = None, style: str = "lines", tube_scale: float = 1.0,
+                 soil_fields=None, soil_field: str | None = None) -> np.ndarray:
     """Render a root system offscreen and return the picture.
 
     Parameters
@@ -193,6 +194,13 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         are thinner than a pixel).
     tube_scale : float
         Factor on the radius of tubes (> 0), e.g. 5 to thicken fine roots.
+    soil_fields : rootsim.soil.fields.SoilFields, optional
+        Compiled soil (:func:`rootsim.soil.build.soil_fields_from_spec`); needed with ``soil_field``.
+    soil_field : str, optional
+        Draw this field as a translucent vertical slice behind the roots (side and iso views): sampled
+        on an x–z grid of cells through the stand's centre (y of the stand cell's middle), drawn at the
+        back of the scene so it never hides a root, coloured with :data:`rootsim.palette.FIELD_COLOURMAP`
+        between the slice's lowest and highest value, with a scalar bar naming the field and its unit.
 
     Returns
     -------
@@ -202,9 +210,17 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     Raises
     ------
     RootsimError
-        Unknown ``color_by``, ``view`` or ``style``, a bad ``size`` or ``tube_scale``.
+        Unknown ``color_by``, ``view`` or ``style``, a bad ``size`` or ``tube_scale``; an unknown
+        ``soil_field``, or one asked for in the top view or without ``soil_fields``.
     """
     width, height = _check_options(color_by, view, size)
+    if soil_field is not None:
+        if soil_fields is None:
+            raise RootsimError(f"soil field {soil_field!r}: no soil given (allowed: with a compiled soil)")
+        if view == "top":
+            raise RootsimError(f"soil field {soil_field!r}: a vertical slice cannot be seen from the top "
+                               "(allowed views: side, iso)")
+        soil_fields.index(soil_field)  # a one-line error naming the defined fields
     if style not in STYLES:
         raise RootsimError(f"unknown style {style!r} (allowed: {', '.join(STYLES)})")
     if not (isinstance(tube_scale, (int, float)) and math.isfinite(tube_scale) and tube_scale > 0):
@@ -230,7 +246,8 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         if len(system):
             roots = polydata_from_segments(system, point_arrays=("age_days", "tube_radius_cm"))  # the ones drawn
             legend_entries = _add_roots(plotter, roots, color_by=color_by, scale=scale,
-                                        tube_scale=tube_scale if style == "tubes" else None)
+                                        tube_scale=tube_scale if style == "tubes" else None,
+                                        bar_low=soil_field is not None)
             del roots  # the drawn parts share its points; the rest is freed before rendering
         plane = pv.Plane(center=(0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi), 0.0), direction=(0, 0, 1),
                          i_size=x_hi - x_lo, j_size=y_hi - y_lo, i_resolution=1, j_resolution=1)
@@ -241,6 +258,10 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         _add_stand(plotter, layout, view=view, scale=scale, y_range=(y_lo, y_hi))
         ruler_end = _add_ruler(plotter, view=view, corner=(x_lo, y_lo), x_span=x_hi - x_lo, depth=-box[4])
         z_lo = min(box[4], ruler_end[2])
+        if soil_field is not None:
+            cell_y = layout["cell_y_cm"] if layout is not None else box[2:4]
+            _add_soil_slice(plotter, soil_fields, soil_field, x_range=(x_lo, x_hi), z_range=(z_lo, 0.0),
+                            sample_y=0.5 * (float(cell_y[0]) + float(cell_y[1])), drawn_y=y_hi, scale=scale)
         if view == "side":  # a horizontal scale at the bottom right, level with the depth ruler's end
             _add_scale_bar(plotter, right=(x_hi, y_lo, z_lo), x_span=x_hi - x_lo)
         elif view == "iso":  # on the soil surface along its back edge, at the right end, clear of the roots
@@ -256,7 +277,8 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         if view == "top":  # the ruler runs along the front edge: room for its labels below it
             points.append([x_lo, y_lo - 0.08 * (y_hi - y_lo), 0.0])
         _set_camera(plotter, view, points=np.asarray(points, dtype=float), aspect=width / height,
-                    legend_height=_legend_height(legend_entries) if color_by != "age" else None)
+                    legend_height=_legend_height(legend_entries)
+                    if color_by != "age" and soil_field is None else None)
         image = plotter.screenshot(return_img=True)
     finally:
         plotter.close()
@@ -289,11 +311,13 @@ def _line_subset(poly, cells: np.ndarray, *, point_scalars: dict, cell_scalars: 
     return part
 
 
-def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float | None = None) -> int:
+def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float | None = None,
+               bar_low: bool = False) -> int:
     """Add the roots, one actor per root-order group (order 0, 1, >= 2), and their legend
     (categorical colourings) or scalar bar (age); return the number of legend entries (0 for age).
     Lines get widths by order; with ``tube_scale`` the roots become shaded tubes of radius
-    ``tube_radius_cm * tube_scale`` instead."""
+    ``tube_radius_cm * tube_scale`` instead. ``bar_low``: the age bar keeps the lower right corner
+    free (for a soil field's bar)."""
     point_scalars, cell_scalars = {}, {}
     if color_by == "age":
         age = np.asarray(poly.point_data["age_days"], dtype=float)
@@ -318,12 +342,44 @@ def _add_roots(plotter, poly, *, color_by: str, scale: float, tube_scale: float 
             plotter.add_mesh(tubes, smooth_shading=True, **style)
     if color_by == "age":
         plotter.add_scalar_bar(title="age (days)", color=TEXT_COLOUR, n_labels=5, fmt="%.0f", vertical=True,
-                               position_x=0.84, position_y=0.2, width=0.06, height=0.6, unique_bar=True,
+                               position_x=0.84, position_y=0.45 if bar_low else 0.2, width=0.06,
+                               height=0.4 if bar_low else 0.6, unique_bar=True,
                                title_font_size=max(7, int(22 * scale)), label_font_size=max(7, int(20 * scale)))
         return 0
     entries = [[label, colours[i]] for i, label in enumerate(labels)]
     _add_legend(plotter, entries)
     return len(entries)
+
+
+#: Opacity of a soil field's slice (the white background shows through, so the roots stand out).
+SOIL_SLICE_OPACITY = 0.55
+#: Cells of a soil slice along x and along z.
+SOIL_SLICE_CELLS = (240, 240)
+
+
+def _add_soil_slice(plotter, fields, name: str, *, x_range, z_range, sample_y: float, drawn_y: float,
+                    scale: float) -> None:
+    """A translucent x–z slice of soil field ``name`` sampled at ``y = sample_y`` and drawn at
+    ``y = drawn_y`` (the back of the scene), one flat colour per cell, and its scalar bar at the
+    lower right."""
+    import pyvista as pv
+
+    from .palette import FIELD_COLOURMAP
+    from .soil.slice import field_label, vertical_slice
+
+    nx, nz = SOIL_SLICE_CELLS
+    values = vertical_slice(fields, name, x_range_cm=x_range, z_range_cm=z_range, y_cm=sample_y, cells=(nx, nz))
+    grid = pv.ImageData(dimensions=(nx + 1, 1, nz + 1), origin=(x_range[0], drawn_y, z_range[0]),
+                        spacing=((x_range[1] - x_range[0]) / nx, 1.0, (z_range[1] - z_range[0]) / nz))
+    label = field_label(name)
+    grid.cell_data[label] = np.ascontiguousarray(values.ravel())  # x fastest, as VTK orders cells
+    low, high = float(np.nanmin(values)), float(np.nanmax(values))
+    actor = plotter.add_mesh(grid, scalars=label, cmap=FIELD_COLOURMAP, clim=(low, max(high, low + 1e-9)),
+                             opacity=SOIL_SLICE_OPACITY, lighting=False, show_scalar_bar=False,
+                             preference="cell")
+    plotter.add_scalar_bar(title=label, mapper=actor.mapper, color=TEXT_COLOUR, n_labels=4, fmt="%.3g",
+                           vertical=True, position_x=0.84, position_y=0.05, width=0.06, height=0.3,
+                           title_font_size=max(7, int(20 * scale)), label_font_size=max(7, int(18 * scale)))
 
 
 def _legend_height(count: int) -> float:

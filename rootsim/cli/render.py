@@ -28,6 +28,11 @@ framed tightly.
   --view side|top|iso    looking horizontally, straight down, or obliquely from above
   --style tubes          shaded tubes of the real root radius instead of lines (close-ups
                          of a plant; add --tube-scale 5 to thicken fine roots)
+  --soil-field NAME      a translucent vertical slice of that soil field (e.g.
+                         penetration_resistance_mpa) through the stand's centre, behind the
+                         roots, with a colour bar naming the field and its unit (side and iso
+                         views); the soil comes from --soil-spec SPEC.toml, else from the
+                         parameter file recorded in the run
 
 DIR is a results directory written by 'rootsim grow' (holding segments.parquet) or a
 segments.parquet file. A root system without segments renders as an empty scene
@@ -37,6 +42,8 @@ Examples:
   rootsim render results/demo --png results/demo/roots.png
   rootsim render results/demo --png side.png --view side --color-by age --size 1600x1200 --title "Trial 7, day 40"
   rootsim render results/pot_test --png tubes.png --style tubes --tube-scale 3
+  rootsim render results/pan --png pan.png --view side --soil-field penetration_resistance_mpa \
+      --soil-spec params/field_plough_pan.toml
 """
 
 
@@ -53,6 +60,10 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="lines (default; fast for any stand) or shaded tubes of the root radius")
     parser.add_argument("--tube-scale", metavar="F", type=float, default=1.0,
                         help="with --style tubes: thicken tubes by this factor (default 1 = true radius)")
+    parser.add_argument("--soil-field", metavar="NAME", default=None,
+                        help="draw this soil field as a translucent slice behind the roots (side and iso views)")
+    parser.add_argument("--soil-spec", metavar="SPEC.toml", default=None,
+                        help="parameter file whose soil --soil-field comes from (default: the one recorded in the run)")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -63,15 +74,37 @@ def run(args: argparse.Namespace) -> int:
     size = parse_size(args.size)
     if not str(args.png).lower().endswith(".png"):
         raise RootsimError(f"--png {args.png}: the file name must end in .png")
+    if args.soil_spec is not None and args.soil_field is None:
+        raise RootsimError("--soil-spec needs --soil-field NAME (the field to draw)")
     with stage(f"reading {args.dir}"):
         system = RootSystem.read(args.dir)
+    soil_fields = _soil_fields(args, system) if args.soil_field is not None else None
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
     with stage(f"rendering {len(system):,} segments to {args.png}"):
         path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
-                          style=args.style, tube_scale=args.tube_scale)
+                          style=args.style, tube_scale=args.tube_scale, soil_fields=soil_fields,
+                          soil_field=args.soil_field)
     from ..result_folder import record_derived
 
     record_derived(args.dir, [path], command="render")
     print(path)
     return 0
+
+
+def _soil_fields(args: argparse.Namespace, system):
+    """The compiled soil of ``--soil-spec``, else of the parameter file recorded in the run's metadata."""
+    from ..soil.build import soil_fields_from_spec
+    from ..spec import load_spec
+
+    spec_path = args.soil_spec or (getattr(system, "metadata", None) or {}).get("spec_file")
+    if not spec_path:
+        raise RootsimError(f"--soil-field {args.soil_field}: {args.dir} records no parameter file "
+                           "(allowed: give one with --soil-spec SPEC.toml)")
+    fields = soil_fields_from_spec(load_spec(spec_path))
+    try:
+        fields.index(args.soil_field)
+    except RootsimError:
+        raise RootsimError(f"--soil-field {args.soil_field}: not a soil field of {spec_path} (allowed: "
+                           f"{', '.join(fields.names) or 'none defined'})") from None
+    return fields
