@@ -41,7 +41,7 @@ from .tropisms import (
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
-    tan_half_angle,
+    toward_by_factor,
     toward_direction_turn,
 )
 
@@ -216,24 +216,6 @@ def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropi
     if exotropism > 0:
         hx, hy, hz = toward_direction_turn(hx, hy, hz, h0x, h0y, h0z, half_arc, exotropism)
     return hx, hy, hz
-
-
-@njit(**JIT_INLINE)
-def _toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
-    """:func:`~rootsim.growth.tropisms.toward_direction_turn` with ``shrink = exp(-k s)`` given (one ``exp``
-    serves both halves of a step's turn): tan(beta/2) -> tan(beta/2) * shrink."""
-    cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
-    px = hx - cos_b * tx
-    py = hy - cos_b * ty
-    pz = hz - cos_b * tz
-    sin_b = math.sqrt(px * px + py * py + pz * pz)
-    if not sin_b > 1e-12:
-        return hx, hy, hz
-    half = tan_half_angle(sin_b, cos_b) * shrink
-    h2 = half * half
-    cos_n = (1.0 - h2) / (1.0 + h2)
-    sin_n = 2.0 * half / (1.0 + h2)
-    return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
 
 @njit(**JIT_BORROW)
@@ -548,7 +530,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         field_pull = tropism_strength[cls]
                         field_shrink = math.exp(-field_pull * (0.5 * arc))
                 if field_pull > 0:
-                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
+                    hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -559,7 +541,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
                                                log_x_table, ratio_table)
                 if field_pull > 0:
-                    hx, hy, hz = _toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
+                    hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
                                                h0y, h0z)
                 if pore >= 0:  # a tip in a biopore follows its axis (no tropism, no deflection by layers)

@@ -97,6 +97,13 @@ def sine_law_turn(hx, hy, hz, step_cm, strength_per_cm, cos_phi, sin_phi):
 def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
     """Exact sine-law step rotating heading h toward target t in their common plane:
     dβ/ds = -k sin β, tan(β/2) -> tan(β/2) exp(-k s). Returns the new heading (x, y, z)."""
+    return toward_by_factor(hx, hy, hz, tx, ty, tz, math.exp(-strength_per_cm * step_cm))
+
+
+@njit(**JIT_INLINE)
+def toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
+    """:func:`toward_direction_turn` with ``shrink = exp(-k s)`` given (so one ``exp`` can serve both halves of a
+    step's turn): tan(β/2) -> tan(β/2) * shrink."""
     cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
     px = hx - cos_b * tx
     py = hy - cos_b * ty
@@ -104,7 +111,7 @@ def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
     sin_b = math.sqrt(px * px + py * py + pz * pz)
     if not sin_b > 1e-12:
         return hx, hy, hz
-    half = tan_half_angle(sin_b, cos_b) * math.exp(-strength_per_cm * step_cm)
+    half = tan_half_angle(sin_b, cos_b) * shrink
     h2 = half * half
     cos_n = (1.0 - h2) / (1.0 + h2)
     sin_n = 2.0 * half / (1.0 + h2)
