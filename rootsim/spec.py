@@ -191,6 +191,7 @@ PARAMETER_RANGES: dict[str, ValueRange] = {
     "max_length_cm": ValueRange(0, 10000, low_strict=True),
     "basal_zone_cm": ValueRange(0, 10000),
     "apical_zone_cm": ValueRange(0, 10000),
+    "apical_zone_days": ValueRange(0, 10000),
     "interbranch_distance_cm": ValueRange(0.01, 10000),
     "gravitropism_per_cm": ValueRange(0, 100),
     "plagiotropism_per_cm": ValueRange(0, 100),
@@ -199,6 +200,15 @@ PARAMETER_RANGES: dict[str, ValueRange] = {
     "random_turning_deg_per_sqrt_cm": ValueRange(0, 360),
     "lifespan_days": ValueRange(0, math.inf, low_strict=True),
 }
+
+
+class RateMultiplierRow(_Model):
+    """One row of a class's ``elongation_rate_multiplier_by_plant_age`` table: at ``plant_age_days`` (time since
+    sowing, in the run's clock: days, effective days or degree-days) the elongation rate is multiplied by
+    ``multiplier``; linear between rows, the first and last rows' values before and after them."""
+
+    plant_age_days: float = Field(ge=0, le=100_000)
+    multiplier: float = Field(ge=0, le=100)
 
 
 class RootClass(_Model):
@@ -214,9 +224,13 @@ class RootClass(_Model):
     (``plagiotropism_per_cm``), back toward the root's initial heading (``exotropism_per_cm``), and
     deviates at random with angular standard deviation ``random_turning_deg_per_sqrt_cm`` times the square
     root of the step length. Branching: no laterals in the first ``basal_zone_cm`` or within
-    ``apical_zone_cm`` of the tip; branch points every ``interbranch_distance_cm`` (drawn per interval);
+    ``apical_zone_cm`` of the tip (or, with ``apical_zone_days`` instead, until the tip has grown that long past
+    the branch point, so the unbranched zone's length scales with the elongation rate); branch points every ``interbranch_distance_cm`` (drawn per interval);
     at each point one of ``branches`` is chosen by its probability (or none). Roots older than
-    ``lifespan_days`` die, with their laterals, and are left out of the result.
+    ``lifespan_days`` die, with their laterals, and are left out of the result. The elongation rate may change
+    with the plant's age (``elongation_rate_multiplier_by_plant_age``, rows of ``plant_age_days`` and
+    ``multiplier``, linear between rows): a slow establishment phase or an end of deepening; the elongation
+    laws are then integrated exactly over the multiplier (:mod:`rootsim.growth.plant_age`).
     """
 
     radius_cm: Numeric = Fixed(0.02)
@@ -227,6 +241,7 @@ class RootClass(_Model):
     max_length_cm: Numeric = Fixed(50.0)
     basal_zone_cm: Numeric = Fixed(1.0)
     apical_zone_cm: Numeric = Fixed(2.0)
+    apical_zone_days: Numeric | None = None  # instead of apical_zone_cm: the zone as the tip's time past a point
     interbranch_distance_cm: Numeric = Fixed(1.0)
     gravitropism_per_cm: Numeric = Fixed(0.0)
     plagiotropism_per_cm: Numeric = Fixed(0.0)
@@ -240,6 +255,8 @@ class RootClass(_Model):
     # responses to named soil fields (rootsim.soil.schema; wired in rootsim.growth.step)
     field_tropism: FieldTropism | None = None
     proliferation: Proliferation | None = None
+    elongation_rate_multiplier_by_plant_age: list[RateMultiplierRow] | None = Field(None, min_length=1,
+                                                                                     max_length=1000)
 
     @model_validator(mode="after")
     def _ranges(self):
@@ -253,6 +270,15 @@ class RootClass(_Model):
         total = sum(b.probability for b in self.branches)
         if total > 1 + 1e-9:
             raise _RangeError("branches", f"branch probabilities add up to {total:g}", "a sum <= 1")
+        if self.apical_zone_days is not None and "apical_zone_cm" in self.model_fields_set:
+            raise _RangeError("apical_zone_days", "apical_zone_cm and apical_zone_days are both given",
+                              "exactly one of them: a length behind the tip or the tip's time past a branch point")
+        rows = self.elongation_rate_multiplier_by_plant_age or []
+        for i in range(1, len(rows)):
+            if not rows[i].plant_age_days > rows[i - 1].plant_age_days:
+                raise _RangeError(f"elongation_rate_multiplier_by_plant_age[{i}].plant_age_days",
+                                  f"{rows[i].plant_age_days:g} does not follow {rows[i - 1].plant_age_days:g}",
+                                  "rows sorted by plant_age_days, each age greater than the one before")
         return self
 
 

@@ -6,6 +6,7 @@ import numpy as np
 
 from ..spec import PARAMETER_RANGES, Spec
 from .draws import parameter_tables
+from .plant_age import development_tables
 
 __all__ = ["ClassTable", "PARAM_NAMES"]
 
@@ -35,3 +36,5 @@ class ClassTable:
         self.any_branching = bool((self.branch_class >= 0).any())
         # Per-root parameter draws (rootsim.growth.draws): kind and numbers of every (class, parameter).
         self.parameter_kind, self.parameter_values = parameter_tables(classes, PARAM_NAMES)
+        # Apical zone as a time and rate multipliers by plant age (rootsim.growth.plant_age).
+        self.development = development_tables(classes)

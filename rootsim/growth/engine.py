@@ -316,7 +316,8 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             # Plain Python scalars of fixed types: one compiled (and cached) version serves every spec.
             out = grow_plant(rng, float(x), float(y), float(z), *events, *tables, *soil, box, log_x, ratio,
                              float(duration), float(dt), int(n_steps), bool(classes.has_lifespan),
-                             int(budget - n_segments), int(budget - n_roots), int(budget), *soil_3d)
+                             int(budget - n_segments), int(budget - n_roots), int(budget), *soil_3d,
+                             classes.development)
             status, count, day = out[8:11]
             if status != STATUS_OK:
                 before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants

@@ -28,6 +28,7 @@ from numba.typed import List
 
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
+from .plant_age import growth_time, time_at_growth_time
 from ..soil.biopores import biopore_at
 from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
@@ -61,6 +62,7 @@ P_RATE = PARAM_NAMES.index("elongation_rate_cm_per_day")
 P_MAXLEN = PARAM_NAMES.index("max_length_cm")
 P_BASAL = PARAM_NAMES.index("basal_zone_cm")
 P_APICAL = PARAM_NAMES.index("apical_zone_cm")
+P_APICAL_DAYS = PARAM_NAMES.index("apical_zone_days")
 P_INTERBRANCH = PARAM_NAMES.index("interbranch_distance_cm")
 P_GRAVI = PARAM_NAMES.index("gravitropism_per_cm")
 P_PLAGIO = PARAM_NAMES.index("plagiotropism_per_cm")
@@ -151,8 +153,9 @@ def _draw_root_parameters(rng, kind, values, cls, out):
 
 @njit(**JIT)
 def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
-              params, birth, carry, felt_reference_radius_cm, felt_radius_exponent):
-    """Write root ``r`` and its growing tip (row ``j`` of the tip store)."""
+              params, birth, carry, felt_reference_radius_cm, felt_radius_exponent, apical_by_time):
+    """Write root ``r`` and its growing tip (row ``j`` of the tip store); ``apical_by_time``: the class's
+    apical zone is ``apical_zone_days`` (a time) rather than ``apical_zone_cm``."""
     rootf[r, R_LEN] = 0.0
     rootf[r, R_PREV] = 0.0
     rootf[r, R_DT] = 0.0
@@ -189,7 +192,7 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipf[j, T_SINPHI] = sin_phi
     tipf[j, T_EXO] = params[P_EXO]
     tipf[j, T_SIGMA] = math.radians(params[P_TURNING])
-    tipf[j, T_APICAL] = params[P_APICAL]
+    tipf[j, T_APICAL] = params[P_APICAL_DAYS] if apical_by_time else params[P_APICAL]
     tipf[j, T_NEXT] = params[P_BASAL]
     tipf[j, T_CARRY] = carry
     tipf[j, T_HALF] = 0.0
@@ -220,8 +223,9 @@ def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropi
 
 @njit(**JIT_BORROW)
 def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
-    """Time (days) since parent root ``pr`` passed length ``threshold`` during its last step: the inverse of
-    its elongation law (exact for both laws when nothing slowed the step down), else by proportion."""
+    """Time (days; growth time when the parent's class has a rate multiplier by plant age) since parent root
+    ``pr`` passed length ``threshold`` during its last step: the inverse of its elongation law (exact for both
+    laws when nothing slowed the step down), else by proportion."""
     prev = rootf[pr, R_PREV]
     new = rootf[pr, R_LEN]
     grew = new - prev
@@ -240,6 +244,24 @@ def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
     return min(max(after, 0.0), last_dt)
 
 
+@njit(**JIT_INLINE)
+def _passing_time(dev, cls, law_negexp_class, length, position, max_len, rate, growth_dt, start):
+    """The time at which a tip that was ``length`` long at time ``start`` and grew over ``growth_dt`` of growth
+    time (:mod:`rootsim.growth.plant_age`) at ``rate`` passed ``position``: the inverse of its elongation law,
+    by proportion if that fails."""
+    if law_negexp_class:
+        ratio = (max_len - length) / (max_len - position) if max_len > position else math.inf
+        after = max_len / rate * math.log(ratio) if rate > 0 else math.nan
+    else:
+        after = (position - length) / rate if rate > 0 else math.nan
+    if not math.isfinite(after):
+        after = growth_dt
+    after = min(max(after, 0.0), growth_dt)
+    if dev.age_rows[cls] == 0:
+        return start + after
+    return time_at_growth_time(dev, cls, growth_time(dev, cls, start) + after)
+
+
 @njit(**JIT)
 def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
                kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
@@ -247,7 +269,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
-               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max):
+               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
+               dev):
     """Grow one plant over the whole run.
 
     Parameters
@@ -291,6 +314,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
         Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
         density by ``1 + (max - 1) * v / (v + half)``.
+    dev : rootsim.growth.plant_age.DevelopmentTables
+        Per class: apical zone as a time, and the elongation-rate multiplier by plant age (the laws are
+        integrated exactly over it, in growth time).
 
     Returns
     -------
@@ -415,7 +441,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 tipf = _room(tipf, n_tips, root_limit)
                 tipi = _room(tipi, n_tips, root_limit)
                 _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, 0, -1, -1, x, y, z, hx, hy, hz, params,
-                          event_day[ev], -(event_day[ev] - t0), felt_reference_radius_cm, felt_radius_exponent)
+                          event_day[ev], -(event_day[ev] - t0), felt_reference_radius_cm, felt_radius_exponent,
+                          dev.apical_by_time[cls])
                 n_roots += 1
                 n_tips += 1
             ev += 1
@@ -467,6 +494,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 cls = tipi[j, T_CLASS]
                 sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
                 dt = (t1 - t0) + tipf[j, T_CARRY]
+                growth_dt = dt  # elapsed growth time: dt scaled by the class's multiplier by plant age
+                if dev.age_rows[cls] > 0:
+                    growth_dt = growth_time(dev, cls, t1) - growth_time(dev, cls, t1 - dt)
                 length = tipf[j, T_LEN]
                 max_len = tipf[j, T_MAXLEN]
                 pore = -1
@@ -498,9 +528,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 else:
                     rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
                 if law_negexp[cls]:
-                    grown = max_len - (max_len - length) * math.exp(-rate * dt / max_len)
+                    grown = max_len - (max_len - length) * math.exp(-rate * growth_dt / max_len)
                 else:
-                    grown = min(length + rate * dt, max_len)
+                    grown = min(length + rate * growth_dt, max_len)
                 ds = max(grown - length, 0.0)
                 # Room for every branch point this step can pass, before any draw for this tip.
                 reach = length + ds * (1 + 1e-9) + 1e-9
@@ -583,8 +613,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     new_length = length + seg_len
                     # Branch points passed by the new segment (one round per branch point).
                     apical = tipf[j, T_APICAL]
+                    apical_time = dev.apical_by_time[cls]
                     nxt = tipf[j, T_NEXT]
-                    while nxt <= new_length and nxt + apical <= max_len:
+                    while nxt <= new_length and (apical_time or nxt + apical <= max_len):
                         u_pick = rng.random()
                         pick = 0
                         while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
@@ -610,7 +641,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             pendf[q, Q_DX] = seg_x / seg_len
                             pendf[q, Q_DY] = seg_y / seg_len
                             pendf[q, Q_DZ] = seg_z / seg_len
-                            pendf[q, Q_THRESHOLD] = nxt + apical
+                            if apical_time:  # a time: when the tip passed the point plus the zone's days
+                                pendf[q, Q_THRESHOLD] = apical + _passing_time(
+                                    dev, cls, law_negexp[cls], length, nxt, max_len, rate, growth_dt, t1 - dt)
+                            else:
+                                pendf[q, Q_THRESHOLD] = nxt + apical
                             pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
                             pendi[q, Q_SEGMENT] = seg_id
                             pendi[q, Q_CLASS] = child
@@ -647,7 +682,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             tipi[j, T_DECLINED] = pore
                 rootf[root, R_PREV] = rootf[root, R_LEN]
                 rootf[root, R_LEN] = new_length
-                rootf[root, R_DT] = dt
+                rootf[root, R_DT] = growth_dt
                 rootf[root, R_RATE] = rate
                 finished = (max_len - new_length <= _FINISH_TOLERANCE * max_len) or tipf[j, T_RATE] <= 0
                 if has_lifespan and rooti[root, R_DEAD] != 0:
@@ -675,12 +710,20 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 continue
             q = rooti[pr, R_QUEUE_HEAD]
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
-            while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
+            by_time = dev.apical_by_time[rooti[pr, R_CLASS]]  # thresholds are times, else lengths
+            reached = t1 if by_time else rootf[pr, R_LEN]
+            while q >= 0 and alive and reached >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
                     return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
                 parent_cls = rooti[pr, R_CLASS]
-                carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
+                if by_time:
+                    carry = t1 - pendf[q, Q_THRESHOLD]
+                else:
+                    carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
+                    if dev.age_rows[parent_cls] > 0:  # growth time since the threshold -> days
+                        carry = t1 - time_at_growth_time(dev, parent_cls,
+                                                         growth_time(dev, parent_cls, t1) - carry)
                 cls = pendi[q, Q_CLASS]
                 _draw_root_parameters(rng, kind, values, cls, params)
                 if spiral[parent_cls]:
@@ -691,7 +734,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                                     math.radians(params[P_INSERTION]), azimuth)
                 _set_root(rootf, rooti, tipf, tipi, n_roots, n_tips, cls, rooti[pr, R_ORDER] + 1, pr,
                           pendi[q, Q_SEGMENT], pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z], hx, hy, hz, params,
-                          t1 - carry, carry, felt_reference_radius_cm, felt_radius_exponent)
+                          t1 - carry, carry, felt_reference_radius_cm, felt_radius_exponent,
+                          dev.apical_by_time[cls])
                 if n_pores > 0:  # a lateral born in a biopore grows out of it into the soil
                     tipi[n_tips, T_DECLINED] = biopore_at(pores, pendf[q, Q_X], pendf[q, Q_Y], pendf[q, Q_Z])
                 n_roots += 1
