@@ -400,7 +400,35 @@ def _record_origins(value, path: str, name: str, origins: dict) -> None:
         origins[path] = name
 
 
-def load_spec_layers(path: str | os.PathLike, *, _chain: tuple = ()) -> tuple[dict, dict]:
+def _anchor_input_files(data: dict, folder: Path) -> dict:
+    """``data`` with the input files it names (``weather.file``, ``soil.fields.NAME.depth_table_file`` and
+    ``.grid.file``) made absolute from ``folder``, so they still resolve when the table is laid under a file in
+    another folder (a ``based_on`` base, or the base of a study)."""
+    def anchored(name):
+        return str(Path(os.path.abspath(folder / name))) if isinstance(name, str) and not Path(name).is_absolute() \
+            else name
+
+    out = dict(data)
+    weather = out.get("weather")
+    if isinstance(weather, dict) and "file" in weather:
+        out["weather"] = {**weather, "file": anchored(weather["file"])}
+    soil = out.get("soil")
+    if isinstance(soil, dict) and isinstance(soil.get("fields"), dict):
+        fields = {}
+        for name, field in soil["fields"].items():
+            if isinstance(field, dict):
+                field = dict(field)
+                if "depth_table_file" in field:
+                    field["depth_table_file"] = anchored(field["depth_table_file"])
+                if isinstance(field.get("grid"), dict) and "file" in field["grid"]:
+                    field["grid"] = {**field["grid"], "file": anchored(field["grid"]["file"])}
+            fields[name] = field
+        out["soil"] = {**soil, "fields": fields}
+    return out
+
+
+def load_spec_layers(path: str | os.PathLike, *, anchor_files: bool = False,
+                     _chain: tuple = ()) -> tuple[dict, dict]:
     """Read a parameter file and the files it is ``based_on``, merged table by table.
 
     A file may say ``based_on = "other.toml"`` (a path relative to the file itself) and set only the keys it
@@ -412,6 +440,9 @@ def load_spec_layers(path: str | os.PathLike, *, _chain: tuple = ()) -> tuple[di
         The merged parameter table (without ``based_on``), ready for :func:`parse_spec`.
     origins : dict
         Dotted key path of every value set in a file -> the file that set it (for ``rootsim check``).
+
+    Input files named in a base (weather table, soil-field tables and grids) are made absolute from the base's
+    folder, and so are the file's own with ``anchor_files=True`` (for tables laid under a file elsewhere).
 
     Raises
     ------
@@ -427,6 +458,8 @@ def load_spec_layers(path: str | os.PathLike, *, _chain: tuple = ()) -> tuple[di
     if len(_chain) >= 32:
         raise SpecError(str(path), "based_on", "more than 32 layers of base files", "at most 32")
     data = _read_toml_table(path) if not _chain else _read_toml_table(path, referrer=_chain_source(_chain))
+    if _chain or anchor_files:
+        data = _anchor_input_files(data, path.parent)
     base_name = data.pop("based_on", None)
     if base_name is None:
         origins: dict = {}

@@ -32,17 +32,45 @@ def reachable_depth_cm(spec) -> tuple[float, str]:
     angle or in strong layers stay shallower); limited by the container depth for pots and
     rhizoboxes. Laterals are left out: they branch behind the tip's apical zone.
     """
-    duration = spec.run.duration_days
+    duration = _engine_duration(spec)
     best, which = 0.0, ""
     for em in spec.emergence:
         rc = spec.root_classes[em.root_class]
         start = spec.stand.sowing_depth_cm if em.depth_cm is None else em.depth_cm
-        length = min(_mean(rc.max_length_cm), _mean(rc.elongation_rate_cm_per_day) * max(duration - em.first_day, 0.0))
+        growing = max(duration - em.first_day, 0.0)
+        rows = rc.elongation_rate_multiplier_by_plant_age
+        if rows and growing > 0:  # the rate changes with plant age: its integral over the run
+            from .growth.plant_age import multiplier_integral
+
+            ages, factors = [r.plant_age_days for r in rows], [r.multiplier for r in rows]
+            growing = float(multiplier_integral(ages, factors, duration) - multiplier_integral(ages, factors,
+                                                                                                em.first_day))
+        length = min(_mean(rc.max_length_cm), _mean(rc.elongation_rate_cm_per_day) * growing)
         if max(start, 0.0) + length > best:
             best, which = max(start, 0.0) + length, em.root_class
     if spec.container.kind != "field" and spec.container.depth_cm is not None:
         best = min(best, float(spec.container.depth_cm))
     return best, which
+
+
+def _engine_duration(spec) -> float:
+    """The run's length in the file's time unit: calendar days, or on a thermal clock the season's effective days
+    (degree-days) from the weather table (calendar days if the table cannot be read here)."""
+    dev = getattr(spec, "development", None)
+    if dev is None or dev.clock == "calendar":
+        return spec.run.duration_days
+    from .errors import RootsimError
+    from .soil.thermal import cumulative_effective_days, daily_effective_days, weather_table_for_spec
+
+    try:
+        weather = weather_table_for_spec(spec)
+        daily = daily_effective_days(weather, shape=dev.temperature_response, base_c=dev.base_temperature_c,
+                                     optimum_c=dev.optimum_temperature_c, maximum_c=dev.maximum_temperature_c,
+                                     temperature_column=dev.temperature_column)[-weather.first_day:]
+    except RootsimError:
+        return spec.run.duration_days
+    unit = dev.optimum_temperature_c - dev.base_temperature_c if dev.time_unit == "degree_day" else 1.0
+    return float(cumulative_effective_days(daily, spec.run.duration_days)) * unit
 
 
 def spec_warnings(spec) -> list[str]:

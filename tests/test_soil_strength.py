@@ -67,3 +67,33 @@ def test_kernel_matches_the_array_functions(code, response, parameter):
                                  limiting_resistance_mpa=parameter)
     got = [elongation_factor_kernel(r, code, parameter, 1.0) for r in resistance]
     np.testing.assert_allclose(got, expected, rtol=1e-12)
+
+
+def test_busscher_law_is_recovered_exactly_by_log_log_regression():
+    # Source of the check: no worked numbers of Busscher (1990) are recalled here, so this tests the published
+    # equation's defining identity instead. Busscher fitted Q = a theta^b rho^c by linear least squares of ln Q on
+    # ln theta and ln rho; for values computed with the equation that regression is exact, so numpy's lstsq
+    # (an independent solver) must give back ln a, b and c to round-off over a grid of soils.
+    theta, rho = np.meshgrid(np.linspace(0.08, 0.42, 9), np.linspace(1.1, 1.8, 8))
+    q = busscher_penetration_resistance_mpa(theta, rho, coefficient_mpa=0.025, water_content_exponent=-2.3,
+                                            bulk_density_exponent=4.1)
+    design = np.column_stack([np.ones(theta.size), np.log(theta.ravel()), np.log(rho.ravel())])
+    fitted, *_ = np.linalg.lstsq(design, np.log(q.ravel()), rcond=None)
+    np.testing.assert_allclose(fitted, [np.log(0.025), -2.3, 4.1], atol=1e-10)
+
+
+def test_busscher_adjustment_collapses_readings_of_one_soil_and_composes():
+    # The identity behind Busscher's (1990) adjustment to a common water content: readings of one soil (one bulk
+    # density) taken at different water contents, each moved to theta = 0.20 with Q (0.20 / theta)^b, are one value,
+    # a theta^b rho^c at 0.20 (computed by hand here); and moving 0.30 -> 0.25 -> 0.20 equals moving 0.30 -> 0.20.
+    a, b, c, rho = 0.04, -1.9, 3.5, 1.52
+    theta = np.array([0.14, 0.19, 0.26, 0.33])
+    readings = busscher_penetration_resistance_mpa(theta, rho, coefficient_mpa=a, water_content_exponent=b,
+                                                   bulk_density_exponent=c)
+    adjusted = busscher_adjust_to_water_content(readings, theta, 0.20, water_content_exponent=b)
+    np.testing.assert_allclose(adjusted, a * 0.20 ** b * rho ** c, rtol=1e-12)
+    two_steps = busscher_adjust_to_water_content(
+        busscher_adjust_to_water_content(1.7, 0.30, 0.25, water_content_exponent=b), 0.25, 0.20,
+        water_content_exponent=b)
+    assert two_steps == pytest.approx(busscher_adjust_to_water_content(1.7, 0.30, 0.20, water_content_exponent=b),
+                                      rel=1e-12)

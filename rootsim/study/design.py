@@ -148,7 +148,7 @@ def set_key_path(data: dict, key_path: str, value: Any) -> dict:
 
 
 def _layer(data: dict, path: Path) -> dict:
-    top, _ = load_spec_layers(path)
+    top, _ = load_spec_layers(path, anchor_files=True)
     top.pop("name", None)
     return merge_layers(data, top)
 
@@ -261,7 +261,7 @@ def _plan(study: StudyFile, root: Path, source: str, *, kind: str = "study") -> 
     if not base_path.is_file():
         raise SpecError(source, "base", f"parameter file {study.base!r} does not exist",
                         "a parameter file path, relative to the study file")
-    base, _ = load_spec_layers(base_path)
+    base, _ = load_spec_layers(base_path, anchor_files=True)
     run_over = {k: v for k, v in study.run.model_dump().items() if v is not None}
     if run_over:
         base = merge_layers(base, {"run": run_over})
