@@ -91,3 +91,20 @@ def test_fitted_file_of_a_layered_file_still_finds_its_base(tmp_path):
     spec = load_spec(written)
     assert spec.root_classes["taproot"].radius_cm.value == 0.09
     assert written.read_text().startswith("# my variant")
+
+
+def test_input_files_of_a_base_are_found_from_a_file_in_another_folder(tmp_path):
+    # A base naming its weather table relative to itself: a file in another folder built on it still finds it.
+    base_dir, top_dir = tmp_path / "base", tmp_path / "variants" / "deep"
+    base_dir.mkdir()
+    top_dir.mkdir(parents=True)
+    (base_dir / "season.csv").write_text("day,mean_air_temperature_c\n" + "".join(f"{d},20.0\n" for d in range(10)))
+    (base_dir / "base.toml").write_text(
+        '[run]\nduration_days = 5\n[weather]\nfile = "season.csv"\n[development]\nclock = "thermal"\n'
+        '[[emergence]]\nroot_class = "a"\n[root_classes.a]\n')
+    (top_dir / "top.toml").write_text('based_on = "../../base/base.toml"\n[run]\nduration_days = 4\n')
+    spec = load_spec(top_dir / "top.toml")
+    assert Path(spec.weather.file).is_absolute()
+    assert Path(spec.weather.file).resolve() == (base_dir / "season.csv").resolve()
+    own, _ = load_spec_layers(base_dir / "base.toml")
+    assert own["weather"]["file"] == "season.csv"  # a file's own names stay as written
