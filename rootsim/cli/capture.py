@@ -22,7 +22,8 @@ CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotransp
   capture_traits.json  seasonal transpiration, water taken up below a stated depth, stress days, ...
   water_content.png, cumulative_uptake.png, season_summary.png
   --vtk FILE.vti       the soil state as VTK image data: x = day, z = depth (cm, z up), cell data
-                       water_content, pressure_head_cm, water_uptake_mm, root_length_cm
+                       water_content, pressure_head_cm, water_uptake_mm, root_length_cm,
+                       nitrate_n_kg_per_ha, nitrate_n_mg_per_l, nitrate_uptake_kg_n_per_ha
 
 Simulated capture is a research aid, not agronomic advice; the shipped soil and weather are invented.
 
