@@ -66,17 +66,18 @@ def _segment_boxes(p0, p1, radius, voxel, origin_index):
     return box
 
 
-@njit(cache=True, inline="always", error_model="numpy")
-def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius):
+@njit(cache=True, inline="always", error_model="numpy", fastmath=True)
+def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius, start_ball):
     """Interval of u (x relative to the segment start) where the point (u, cy, cz) lies within ``radius`` of
     the segment from 0 to (dx, dy, dz): the union of the two end balls and the finite cylinder (the capsule is
     convex, so along a line the union is one interval). ``inv_dd`` = 1 / |d|² (0 for a point),
     ``along_x`` = 1 - dx² / |d|², ``inv_two_along_x`` = 1 / (2 along_x). Returns (low, high), low > high when
-    empty."""
+    empty. Without ``start_ball`` the ball at the start is left out (it is the end ball of the root's previous
+    segment, which marks it for the same root)."""
     r2 = radius * radius
     low, high = 1.0, -1.0
     rest = r2 - cy * cy - cz * cz                       # ball at the start
-    if rest >= 0.0:
+    if start_ball and rest >= 0.0:
         root = np.sqrt(rest)
         low, high = -root, root
     ey, ez = cy - dy, cz - dz                           # ball at the end
@@ -100,7 +101,7 @@ def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radi
         else:                                           # along x: the distance does not change with u
             if c > 0.0:
                 return low, high
-            c0, c1 = -np.inf, np.inf
+            c0, c1 = -1e300, 1e300
         if dx != 0.0:
             t0, t1 = -e / dx, (dd - e) / dx
             if t0 > t1:
@@ -143,15 +144,17 @@ def _tile_lists(box, order, n_tiles_axis, edge):
     return start, items
 
 
-@njit(cache=True, error_model="numpy")
-def _count_tiles(p0, p1, seg_root, root_plant, box, start, items, n_tiles_axis, edge, origin_index, radius, voxel,
-                 layer_cm, n_layers):
+@njit(cache=True, error_model="numpy", boundscheck=False, fastmath=True)
+def _count_tiles(p0, p1, seg_root, root_plant, continues, box, start, items, n_tiles_axis, edge, origin_index,
+                 radius, voxel, layer_cm, n_layers):
     """Voxel counts per layer (explored, same plant, between plants, any two roots), tile by tile.
 
     Each voxel's state is one int64: the tile's stamp in the high 32 bits (so nothing is cleared between tiles),
     the root that reached it last (plant by plant) in bits 2..31 and two flags (same-plant / between-plant
     overlap counted) in bits 0..1. A row of voxels (fixed y and depth) is marked over the interval where its
-    centres lie within the radius (:func:`_row_interval`), so no voxel outside the capsule is visited.
+    centres lie within the radius (:func:`_row_interval`), so no voxel outside the capsule is visited. A segment
+    that continues its root from the end of the previous one (``continues``) leaves out its start ball: the
+    union of a root's capsules, and so every count, is unchanged.
     """
     nx, ny = n_tiles_axis[0], n_tiles_axis[1]
     size = edge * edge * edge
@@ -187,7 +190,8 @@ def _count_tiles(p0, p1, seg_root, root_plant, box, start, items, n_tiles_axis, 
                 explored = same = between = either = 0
                 for j in range(j0, j1 + 1):
                     cy = (j + origin_index[1] + 0.5) * voxel - ay
-                    u0, u1 = _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius)
+                    u0, u1 = _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius,
+                                           continues[s] == 0)
                     if u0 > u1:
                         continue
                     first = max(i0, int(np.ceil((u0 + ax) / voxel - 0.5)) - origin_index[0])
@@ -222,7 +226,8 @@ def _count_tiles(p0, p1, seg_root, root_plant, box, start, items, n_tiles_axis, 
 
 
 def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_plant: np.ndarray, *,
-                     radius_cm: float, voxel_cm: float, layer_cm: float) -> np.ndarray:
+                     radius_cm: float, voxel_cm: float, layer_cm: float,
+                     previous_segment: np.ndarray | None = None) -> np.ndarray:
     """Voxel counts per depth layer: explored, same-plant overlap, between-plant overlap, any-two-roots overlap.
 
     Parameters
@@ -235,6 +240,9 @@ def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_
         Plant of each root.
     radius_cm, voxel_cm, layer_cm : float
         Depletion radius, voxel edge and depth-layer thickness, cm.
+    previous_segment : ndarray of int64, shape (n,), optional
+        Row of each segment's predecessor (``parent_id``), -1 for none. A segment whose predecessor is of the
+        same root and ends exactly where it starts skips its start ball (same counts, fewer voxel visits).
 
     Returns
     -------
@@ -256,8 +264,16 @@ def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_
     n_layers = max(int(np.ceil(max(deepest, 0.0) / layer_cm)), 1)
     plant_of_segment = root_plant[seg_root]
     order = np.argsort(plant_of_segment, kind="stable").astype(np.int64)
+    continues = np.zeros(p0.shape[0], dtype=np.uint8)
+    if previous_segment is not None:
+        previous = np.asarray(previous_segment, dtype=np.int64)
+        has = (previous >= 0) & (previous < p0.shape[0])
+        rows = np.flatnonzero(has)
+        before = previous[rows]
+        same = (seg_root[before] == seg_root[rows]) & (p1[before] == p0[rows]).all(axis=1)
+        continues[rows[same]] = 1
     box = _segment_boxes(p0, p1, float(radius_cm), float(voxel_cm), origin_index)
     start, items = _tile_lists(box, order, n_tiles_axis, edge)
     return _count_tiles(p0, p1, np.ascontiguousarray(seg_root, dtype=np.int32),
-                        np.ascontiguousarray(root_plant, dtype=np.int32), box, start, items, n_tiles_axis, edge,
+                        np.ascontiguousarray(root_plant, dtype=np.int32), continues, box, start, items, n_tiles_axis, edge,
                         origin_index, float(radius_cm), float(voxel_cm), float(layer_cm), n_layers)

@@ -28,6 +28,13 @@ __all__ = ["explored_volume"]
 MAX_TILES = 20_000_000
 
 
+def _has_column(system, name: str) -> bool:
+    try:
+        return name in system.columns if hasattr(system, "columns") else name in system
+    except TypeError:
+        return False
+
+
 def explored_volume(system, *, radius_cm: float, voxel_cm: float, layer_cm: float = 10.0) -> dict:
     """Soil volume within ``radius_cm`` of any root, and overlap between roots, total and by depth layer.
 
@@ -51,7 +58,7 @@ def explored_volume(system, *, radius_cm: float, voxel_cm: float, layer_cm: floa
         and ``profile`` (DataFrame: ``depth_top_cm``, ``depth_bottom_cm`` and the three volumes per layer),
         ``voxel_cm``, ``radius_cm``.
     """
-    from .depletion_kernel import TILE_EDGE_VOXELS, depletion_counts
+    from .depletion_kernel import MAX_ROOTS, TILE_EDGE_VOXELS, depletion_counts
 
     r, v = float(radius_cm), float(voxel_cm)
     if not (np.isfinite(r) and r > 0 and np.isfinite(v) and 0 < v <= r):
@@ -76,8 +83,11 @@ def explored_volume(system, *, radius_cm: float, voxel_cm: float, layer_cm: floa
                                - (root.min() if root.size else 0), return_inverse=True)
     root_plant = np.empty(keys.size, dtype=np.int64)
     root_plant[seg_root.ravel()] = plant
+    if keys.size > MAX_ROOTS:
+        raise CaptureError(f"phosphorus: {keys.size:,} roots (allowed: at most {MAX_ROOTS:,})")
+    previous = int_column(system, "parent_id") if _has_column(system, "parent_id") else None
     counts = depletion_counts(p0, p1, seg_root.ravel().astype(np.int32), root_plant.astype(np.int32),
-                              radius_cm=r, voxel_cm=v, layer_cm=float(layer_cm))
+                              radius_cm=r, voxel_cm=v, layer_cm=float(layer_cm), previous_segment=previous)
     cube = v ** 3
     n_layers = counts.shape[1]
     volumes = counts * cube
