@@ -150,3 +150,28 @@ def test_bad_capture_inputs_stop_the_study_with_one_line(tmp_path, capsys, chang
     for word in words:
         assert word in err
     assert not (tmp_path / "out").exists()
+
+
+def test_roots_that_died_during_the_run_take_up_water_while_they_lived(tmp_path):
+    # Laterals living 5 days: the study's season counts them from birth to death (grown with keep_dead_roots),
+    # while profiles and kept segments show the usual table without them.
+    from rootsim.growth.engine import drop_dead_roots, grow
+    from rootsim.study import plan_study, run_plan
+
+    study = STUDY.replace('set = {{ "root_classes.taproot.elongation_rate_cm_per_day" = 3.0 }}'.replace("{{", "{")
+                          .replace("}}", "}"), 'set = { "root_classes.lateral_first.lifespan_days" = 5.0 }')
+    path = _write(tmp_path, study)
+    plan = plan_study(path, overrides={"replicates": 1})
+    task = [t for t in plan.tasks if t.variant == "deep"][0]
+    results = run_plan(plan)
+    row = results.runs.set_index("run_id").loc[task.run_id]
+    kept = grow(task.spec, seed=task.seed, progress=False, keep_dead_roots=True)
+    assert np.isfinite(kept["death_day"]).any()                       # some laterals died during the 20 days
+    setup = read_soil_water_file(tmp_path / "soil.toml")
+    weather = read_weather_table(tmp_path / "weather.csv")
+    with_dead = run_water_season(kept, setup, weather)["traits"]
+    alive_only = run_water_season(drop_dead_roots(kept), setup, weather)["traits"]
+    assert row["seasonal_transpiration_mm"] == with_dead["seasonal_transpiration_mm"]
+    assert row["n_segments"] == len(drop_dead_roots(kept))
+    # the dead laterals' share of the nitrate uptake was counted (Michaelis-Menten uptake per cm of living root)
+    assert with_dead["nitrate_uptake_kg_n_per_ha"] > alive_only["nitrate_uptake_kg_n_per_ha"]

@@ -14,7 +14,10 @@ Dask cluster needs no shared disk. Each run's grown system drives
 :func:`rootsim.capture.season.run_water_season` over the weather table's days (roots grow day by day through
 their ``birth_day``; after the growth run ends the root system stays as it was) and its traits join the run's
 row under the names of :data:`CAPTURE_TRAITS`; the daily table is kept as ``capture_daily.parquet`` in the run
-folder. The season depends on the segments and the files alone, so results are identical on any number of
+folder. Roots that die during the run (``lifespan_days``) take up water and nitrate while they live: the run
+is grown keeping them (:func:`grow_for_capture`), the season counts each segment from its ``birth_day`` to its
+``death_day``, and every other measurement sees the usual table without them (on a thermal clock dead roots
+are left out, as before). The season depends on the segments and the files alone, so results are identical on any number of
 workers. Simulated capture is a research aid, not agronomic advice.
 """
 
@@ -28,7 +31,7 @@ import numpy as np
 
 from ..errors import RootsimError, SpecError
 
-__all__ = ["StudyCapture", "load_study_capture", "capture_outcomes", "CAPTURE_TRAITS"]
+__all__ = ["StudyCapture", "load_study_capture", "capture_outcomes", "grow_for_capture", "CAPTURE_TRAITS"]
 
 #: Columns added to a run's row (the water-uptake depth is written into its name, e.g.
 #: ``water_uptake_below_60cm_mm``); phosphorus columns only with ``phosphorus_radius_cm``.
@@ -105,6 +108,25 @@ def load_study_capture(capture, root: Path, source: str) -> StudyCapture:
         voxel = capture.phosphorus_radius_cm / 4.0
     digest.update(repr((capture.phosphorus_radius_cm, voxel)).encode())
     return StudyCapture(setup, weather, capture.phosphorus_radius_cm, voxel, digest.hexdigest())
+
+
+def grow_for_capture(spec, *, seed: int):
+    """Grow one run for the capture season: (system for the season, system for every other measurement).
+
+    With root lifespans on the calendar clock the season's system keeps the roots that died, with their
+    ``death_day`` (:func:`rootsim.growth.engine.grow` with ``keep_dead_roots``), and the other is the same
+    table without them (exactly what growing without keeping them gives); otherwise both are the same system.
+    """
+    from ..growth.classes import ClassTable
+    from ..growth.engine import drop_dead_roots, grow
+    from ..soil.thermal import grow_for_spec
+
+    dev = getattr(spec, "development", None)
+    if ClassTable(spec).has_lifespan and (dev is None or dev.clock == "calendar"):
+        full = grow(spec, seed=seed, progress=False, keep_dead_roots=True)
+        return full, drop_dead_roots(full)
+    system = grow_for_spec(spec, seed=seed, progress=False)
+    return system, system
 
 
 def capture_outcomes(system, capture: StudyCapture) -> tuple[dict, "object"]:

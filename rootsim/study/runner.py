@@ -58,12 +58,15 @@ def execute_task(task: Task, measure, keep_segments: bool = False, capture=None)
     from .measure import measure_run
 
     try:
-        system = grow(task.spec, seed=task.seed, progress=False)
+        if capture is None:
+            system = grow(task.spec, seed=task.seed, progress=False)
+        else:  # roots that die during the run are kept for the season (counted while alive)
+            from .capture import capture_outcomes, grow_for_capture
+
+            season_system, system = grow_for_capture(task.spec, seed=task.seed)
         traits, profile, samples = measure_run(system, measure, final_day=task.spec.run.duration_days)
         if capture is not None:
-            from .capture import capture_outcomes
-
-            captured, payload["capture_daily"] = capture_outcomes(system, capture)
+            captured, payload["capture_daily"] = capture_outcomes(season_system, capture)
             traits = {**traits, **captured}
     except RootsimError as exc:  # segment budget, a sampler outside a pot, ...: recorded, the study goes on
         row.update(status="failed", error=exc.cli_message())
