@@ -83,14 +83,14 @@ def test_pot_water_balance_closes_to_round_off_with_roots_on_one_side():
 def test_closed_container_keeps_its_water_and_walls_pass_none():
     # No-flow walls and bottom, no rain, no roots: a wet half and a dry half even out sideways while the total
     # volume of water stays what it was (to round-off), and the pot's round wall lets nothing through.
-    grid = _pot()
+    grid = container_grid(Container(kind="pot", diameter_cm=8.0, depth_cm=8.0), cell_cm=1.0, layer_cm=LAYER_CM)
     soil = soil_on_grid(VanGenuchtenMualem.texture("loam", grid.shape[2], air_entry=-2.0), grid)
     x = grid.origin_cm[0] + (np.nonzero(grid.active)[0] + 0.5) * grid.cell_cm[0]
     head = np.where(x < 0.0, -40.0, -400.0)
     volume = grid.cell_volume_cm3
     before = soil.water_content(head).sum() * volume
     spread_before = np.ptp(head)
-    head, totals, _, _ = advance_voxel_water(head, 2.0, grid=grid, soil=soil, supply_cm_per_day=0.0,
+    head, totals, _, _ = advance_voxel_water(head, 1.0, grid=grid, soil=soil, supply_cm_per_day=0.0,
                                              sink=lambda h: np.zeros(h.size), bottom="no_flow",
                                              head_tolerance_cm=1e-6)
     after = soil.water_content(head).sum() * volume
@@ -110,3 +110,65 @@ def test_container_grid_follows_the_pot_and_refuses_a_field():
         container_grid(Container(kind="field"), cell_cm=1.0, layer_cm=2.0)
     with pytest.raises(CaptureError, match="divide"):
         container_grid(Container(kind="pot", diameter_cm=10.0, depth_cm=15.0), cell_cm=1.0, layer_cm=2.0)
+
+
+def _season_inputs(depth_cm):
+    import pandas as pd
+
+    from rootsim.capture.soil_file import soil_water_from_mapping
+    from rootsim.soil.weather import weather_table_from_frame
+
+    setup = soil_water_from_mapping({
+        "column": {"depth_cm": depth_cm, "cell_cm": 2.0, "initial_pressure_head_cm": -120.0},
+        "horizons": [{"depth_bottom_cm": depth_cm / 2, "texture": "loam"},
+                     {"depth_bottom_cm": depth_cm, "texture": "sandy_loam"}],
+        "traits": {"deep_water_below_cm": 10.0},
+    }, source="pot_soil.toml")
+    weather = weather_table_from_frame(pd.DataFrame({"day": np.arange(6), "mean_air_temperature_c": 20.0,
+                                                     "rain_mm": [6.0, 0, 0, 3.0, 0, 0],
+                                                     "potential_transpiration_mm": 3.0}))
+    return setup, weather
+
+
+def _vertical_roots(xs, depth_cm):
+    top = np.tile(np.arange(0.0, depth_cm), len(xs))
+    x = np.repeat(xs, int(depth_cm))
+    return {"x0": x, "y0": np.zeros_like(x), "z0": -top, "x1": x, "y1": np.zeros_like(x), "z1": -(top + 1.0),
+            "length_cm": np.ones(top.size), "birth_day": top / 4.0}
+
+
+def test_a_one_cell_wide_rhizobox_season_equals_the_1d_season():
+    # One voxel across the box: the 3D season is the 1D season over the box's area (same solver rules, same
+    # Feddes sink by root length per layer), day by day.
+    from rootsim.capture.season import run_water_season
+    from rootsim.capture.season3d import run_voxel_water_season
+
+    setup, weather = _season_inputs(20.0)
+    box = Container(kind="rhizobox", width_cm=6.0, thickness_cm=2.0, depth_cm=20.0)
+    roots = _vertical_roots([-1.0, 1.5], 14.0)
+    three = run_voxel_water_season(roots, setup, weather, box, cell_cm=6.0)
+    one = run_water_season(roots, setup, weather, ground_area_cm2=12.0)
+    assert three["grid"].shape == (1, 1, 10)
+    for column in ("actual_transpiration_mm", "drainage_mm", "soil_water_storage_mm", "infiltration_mm"):
+        np.testing.assert_allclose(three["daily"][column], one["daily"][column], rtol=1e-7, atol=1e-9)
+    np.testing.assert_allclose(three["layers"]["water_uptake_mm"], one["layers"]["water_uptake_mm"], rtol=1e-7,
+                               atol=1e-9)
+    np.testing.assert_allclose(three["layers"]["root_length_cm"], one["layers"]["root_length_cm"], atol=1e-9)
+
+
+def test_pot_season_closes_its_water_balance_and_takes_up_only_where_roots_are():
+    # Roots at x = +3 cm only, down to 8 cm: layers below 8 cm take up nothing (no uptake where no roots are) and
+    # the rooted half of the pot ends drier than the other half; every day's balance closes.
+    from rootsim.capture.season3d import run_voxel_water_season
+
+    setup, weather = _season_inputs(16.0)
+    pot = Container(kind="pot", diameter_cm=12.0, depth_cm=16.0)
+    result = run_voxel_water_season(_vertical_roots([3.0], 8.0), setup, weather, pot, cell_cm=1.0)
+    daily, layers = result["daily"], result["layers"]
+    assert daily["water_balance_error_mm"].abs().max() < 1e-5
+    assert (layers.loc[layers["depth_top_cm"] >= 8.0, "water_uptake_mm"] == 0.0).all()
+    assert daily["actual_transpiration_mm"].sum() > 0
+    assert result["traits"]["seasonal_transpiration_mm"] == pytest.approx(daily["actual_transpiration_mm"].sum())
+    with pytest.raises(CaptureError, match="column.depth_cm"):
+        run_voxel_water_season(_vertical_roots([3.0], 8.0), setup, weather,
+                               Container(kind="pot", diameter_cm=12.0, depth_cm=20.0))

@@ -260,10 +260,12 @@ def advance_voxel_water(head_cm: np.ndarray, duration_days: float, *, grid: Voxe
                         supply_cm_per_day: float, sink: Callable[[np.ndarray], np.ndarray],
                         bottom: str = "free_drainage", dt_days: float = 0.05, min_dt_days: float = 1e-7,
                         max_dt_days: float = 0.25, max_water_content_change: float = 0.02,
-                        head_tolerance_cm: float = 1e-3) -> tuple[np.ndarray, VoxelTotals, float, np.ndarray]:
+                        head_tolerance_cm: float = 1e-3, sink_floor_head_cm: float | None = None
+                        ) -> tuple[np.ndarray, VoxelTotals, float, np.ndarray]:
     """Advance the container over ``duration_days`` in adaptive implicit steps (the 1D rules of
     :func:`rootsim.capture.richards.advance_water`: halve on failure or a water-content change above
-    ``max_water_content_change``, grow by 1.3 after easy steps).
+    ``max_water_content_change``, grow by 1.3 after easy steps; with ``sink_floor_head_cm`` uptake in a step
+    never takes a cell below the water content at that head).
 
     Returns
     -------
@@ -280,10 +282,13 @@ def advance_voxel_water(head_cm: np.ndarray, duration_days: float, *, grid: Voxe
     h = np.asarray(head_cm, dtype=np.float64).copy()
     theta = soil.water_content(h)
     uptake = np.zeros(h.size)
+    floor = None if sink_floor_head_cm is None else soil.water_content(np.full(h.size, float(sink_floor_head_cm)))
     elapsed, dt = 0.0, min(max(dt_days, min_dt_days), max_dt_days)
     while elapsed < duration_days * (1.0 - 1e-12):
         step_dt = min(dt, duration_days - elapsed)
         s = np.asarray(sink(h), dtype=np.float64)
+        if floor is not None:
+            s = np.minimum(s, np.maximum(theta - floor, 0.0) * (0.5 / step_dt))
         step = voxel_water_step(h, step_dt, grid=grid, soil=soil, supply_cm_per_day=supply_cm_per_day,
                                 sink_per_day=s, bottom=bottom, head_tolerance_cm=head_tolerance_cm,
                                 _geometry=geometry)
