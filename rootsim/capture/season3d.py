@@ -25,7 +25,7 @@ from .season import capture_traits, potential_transpiration_mm
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
-__all__ = ["run_voxel_water_season", "root_length_by_day_on_grid"]
+__all__ = ["run_voxel_water_season", "root_length_by_day_on_grid", "season_for_system"]
 
 
 def root_length_by_day_on_grid(system, grid: VoxelGrid, *, first_day: int, n_days: int) -> np.ndarray:
@@ -164,3 +164,18 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
     })
     return {"daily": daily, "layers": layers, "grid": grid,
             "traits": capture_traits(daily, layers, setup=setup, ground_area_cm2=area)}
+
+
+def season_for_system(system, setup: SoilWaterSetup, weather, *, cell_cm: float | None = None) -> dict:
+    """The season a grown system calls for: the 3D voxel column when its container (``metadata["container"]``)
+    is a pot or rhizobox, else the 1D layered column (:func:`rootsim.capture.season.run_water_season`).
+    The result's ``column`` says which (``"3d_voxels_pot"``, ``"3d_voxels_rhizobox"`` or ``"1d_layers"``)."""
+    from ..spec import Container
+    from .season import run_water_season
+
+    metadata = getattr(system, "metadata", None) or {}
+    container = metadata.get("container") if isinstance(metadata, dict) else None
+    if isinstance(container, dict) and container.get("kind") in ("pot", "rhizobox"):
+        return {**run_voxel_water_season(system, setup, weather, Container(**container), cell_cm=cell_cm),
+                "column": f"3d_voxels_{container['kind']}"}
+    return {**run_water_season(system, setup, weather), "column": "1d_layers"}

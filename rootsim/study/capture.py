@@ -11,7 +11,9 @@ A study file asks for it with ``[measure.capture]`` (paths relative to the study
 Both files are read and validated once, when the study is planned (a bad file stops the study before any run,
 with one line naming the study file, the key and the problem), and travel to the workers with the plan, so a
 Dask cluster needs no shared disk. Each run's grown system drives
-:func:`rootsim.capture.season.run_water_season` over the weather table's days (roots grow day by day through
+:func:`rootsim.capture.season.run_water_season` (or, for a pot or rhizobox, the 3D voxel column of
+:mod:`rootsim.capture.season3d`, whose soil file must then be as deep as the container) over the weather
+table's days (roots grow day by day through
 their ``birth_day``; after the growth run ends the root system stays as it was) and its traits join the run's
 row under the names of :data:`CAPTURE_TRAITS`; the daily table is kept as ``capture_daily.parquet`` in the run
 folder. Roots that die during the run (``lifespan_days``) take up water and nitrate while they live: the run
@@ -140,9 +142,9 @@ def capture_outcomes(system, capture: StudyCapture) -> tuple[dict, "object"]:
     daily : pandas.DataFrame
         :func:`rootsim.capture.season.run_water_season`'s daily table (one row per day).
     """
-    from ..capture.season import run_water_season
+    from ..capture.season3d import season_for_system
 
-    result = run_water_season(system, capture.setup, capture.weather)
+    result = season_for_system(system, capture.setup, capture.weather)  # a pot or rhizobox: the 3D column
     t = result["traits"]
     potential = t["seasonal_potential_transpiration_mm"]
 
