@@ -86,3 +86,48 @@ def test_counts_equal_a_brute_force_count_of_voxel_centres(monkeypatch, tile_edg
     assert result["overlap_between_plants_cm3"] == pytest.approx((plant0 & near[:, 2]).sum() * cube, rel=1e-12)
     assert result["overlap_any_roots_cm3"] == pytest.approx((near.sum(axis=1) >= 2).sum() * cube, rel=1e-12)
     assert result["overlap_same_plant_cm3"] > 0 and result["overlap_between_plants_cm3"] > 0
+
+
+@pytest.mark.parametrize("tile_edge", [64, 4])
+def test_chained_roots_with_parent_ids_count_like_brute_force(monkeypatch, tile_edge):
+    # Roots as chains of short bent segments linked by parent_id (as grown): the kernel skips what a segment's
+    # predecessor already covers; the counts must equal an independent numpy count of voxel centres within r.
+    from rootsim.capture import depletion_kernel
+
+    monkeypatch.setattr(depletion_kernel, "TILE_EDGE_VOXELS", tile_edge)
+    r, v = 0.25, 0.1
+    s = np.linspace(0.0, 6.0, 41)
+    chains = [np.column_stack([0.8 * np.sin(s), 0.5 * np.cos(1.3 * s), -0.5 - 0.6 * s]),      # plant 0, root 0
+              # plant 0, root 1 and plant 1, root 0: bent chains through points of the first root
+              np.column_stack([0.8 * np.sin(2.0) + 0.5 * (s - 3), 0.5 * np.cos(2.6) + 0.1 * np.sin(s - 3),
+                               -1.7 - 0.05 * (s - 3) ** 2]),
+              np.column_stack([0.8 * np.sin(4.0) + 0.15 * (s - 3), 0.5 * np.cos(5.2) - 0.15 * (s - 3),
+                               -2.9 + 0.1 * np.cos(s)])]
+    p0 = np.concatenate([c[:-1] for c in chains])
+    p1 = np.concatenate([c[1:] for c in chains])
+    n = len(s) - 1
+    plant = np.repeat([0, 0, 1], n)
+    root = np.repeat([0, 1, 0], n)
+    parent = np.concatenate([np.arange(b * n - 1, b * n + n - 1) for b in range(3)])
+    parent[::n] = -1
+    system = {**_lines(p0, p1, plant, root), "parent_id": parent}
+    result = explored_volume(system, radius_cm=r, voxel_cm=v)
+    low = np.floor((np.minimum(p0, p1).min(axis=0) - r) / v)
+    high = np.floor((np.maximum(p0, p1).max(axis=0) + r) / v)
+    axes = [(np.arange(lo, hi + 1) + 0.5) * v for lo, hi in zip(low, high)]
+    centres = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, 3)
+    centres = centres[centres[:, 2] <= 0.0]
+    d = p1 - p0
+    near = np.zeros((len(centres), 3), dtype=bool)                         # (voxel, chain)
+    for c in range(3):
+        rows = slice(c * n, (c + 1) * n)
+        t = np.clip(np.einsum("nsk,sk->ns", centres[:, None, :] - p0[None, rows], d[rows])
+                    / np.einsum("sk,sk->s", d[rows], d[rows]), 0, 1)
+        gap = centres[:, None, :] - p0[None, rows] - t[..., None] * d[None, rows]
+        near[:, c] = (np.einsum("nsk,nsk->ns", gap, gap) <= r * r).any(axis=1)
+    cube = v ** 3
+    assert result["explored_cm3"] == pytest.approx(near.any(axis=1).sum() * cube, rel=1e-12)
+    assert result["overlap_same_plant_cm3"] == pytest.approx((near[:, 0] & near[:, 1]).sum() * cube, rel=1e-12)
+    assert result["overlap_between_plants_cm3"] == pytest.approx(
+        ((near[:, 0] | near[:, 1]) & near[:, 2]).sum() * cube, rel=1e-12)
+    assert result["overlap_same_plant_cm3"] > 0 and result["overlap_between_plants_cm3"] > 0

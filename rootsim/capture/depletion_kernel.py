@@ -144,8 +144,37 @@ def _tile_lists(box, order, n_tiles_axis, edge):
     return start, items
 
 
+@njit(cache=True, inline="always", error_model="numpy", boundscheck=False)
+def _mark_range(state, row, first, last, mark, fresh, root, plant, root_plant):
+    """Visit voxels ``row + first .. row + last`` for ``root`` of ``plant``; returns the new counts
+    (explored, same plant, between plants, any two roots)."""
+    explored = same = between = either = 0
+    for i in range(first, last + 1):
+        v = row + i
+        value = state[v]
+        if value & _STAMP_MASK != mark:      # first root in this voxel
+            state[v] = fresh
+            explored += 1
+            continue
+        held = (value >> 2) & _ROOT_MASK
+        if held == root:
+            continue
+        flag = value & 3
+        if root_plant[held] != plant:        # a new plant reaches the voxel
+            if flag & 2 == 0:
+                either += flag == 0
+                between += 1
+                flag |= 2
+            state[v] = fresh | flag          # follow this plant's roots from here on
+        elif flag & 1 == 0:                  # a second root of the same plant
+            either += flag == 0
+            same += 1
+            state[v] = value | 1
+    return explored, same, between, either
+
+
 @njit(cache=True, error_model="numpy", boundscheck=False, fastmath=True)
-def _count_tiles(p0, p1, seg_root, root_plant, continues, box, start, items, n_tiles_axis, edge, origin_index,
+def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_tiles_axis, edge, origin_index,
                  radius, voxel, layer_cm, n_layers):
     """Voxel counts per layer (explored, same plant, between plants, any two roots), tile by tile.
 
@@ -153,8 +182,9 @@ def _count_tiles(p0, p1, seg_root, root_plant, continues, box, start, items, n_t
     the root that reached it last (plant by plant) in bits 2..31 and two flags (same-plant / between-plant
     overlap counted) in bits 0..1. A row of voxels (fixed y and depth) is marked over the interval where its
     centres lie within the radius (:func:`_row_interval`), so no voxel outside the capsule is visited. A segment
-    that continues its root from the end of the previous one (``continues``) leaves out its start ball: the
-    union of a root's capsules, and so every count, is unchanged.
+    that continues its root from the end of the segment ``previous[s]`` leaves out its start ball and the voxels
+    of the row inside the previous segment's capsule: the same root visits them anyway (the previous segment,
+    or for its start ball the one before), so every count is unchanged and repeated visits are saved.
     """
     nx, ny = n_tiles_axis[0], n_tiles_axis[1]
     size = edge * edge * edge
@@ -177,6 +207,17 @@ def _count_tiles(p0, p1, seg_root, root_plant, continues, box, start, items, n_t
             inv_dd = 1.0 / dd if dd > 0.0 else 0.0
             along_x = 1.0 - dx * dx * inv_dd
             inv_two_along_x = 0.5 / along_x if along_x > 1e-12 else 0.0
+            before = previous[s]
+            continuing = before >= 0
+            if continuing:  # the previous segment's capsule, in the same frame
+                bx, by, bz = p0[before, 0], p0[before, 1], -p0[before, 2]
+                ex, ey, ez = p1[before, 0] - bx, p1[before, 1] - by, -p1[before, 2] - bz
+                edd = ex * ex + ey * ey + ez * ez
+                e_inv = 1.0 / edd if edd > 0.0 else 0.0
+                e_along = 1.0 - ex * ex * e_inv
+                e_inv_two = 0.5 / e_along if e_along > 1e-12 else 0.0
+            else:
+                bx = by = bz = ex = ey = ez = edd = e_inv = e_along = e_inv_two = 0.0
             k0 = max(box[s, 4], tz * edge)
             k1 = min(box[s, 5], tz * edge + edge - 1)
             j0 = max(box[s, 2], ty * edge)
@@ -185,39 +226,41 @@ def _count_tiles(p0, p1, seg_root, root_plant, continues, box, start, items, n_t
             i1 = min(box[s, 1], tx * edge + edge - 1)
             fresh = mark | (root << 2)
             for k in range(k0, k1 + 1):
-                cz = (k + origin_index[2] + 0.5) * voxel - az
-                layer = min(int((k + origin_index[2] + 0.5) * voxel / layer_cm), n_layers - 1)
+                centre_z = (k + origin_index[2] + 0.5) * voxel
+                cz = centre_z - az
+                layer = min(int(centre_z / layer_cm), n_layers - 1)
                 explored = same = between = either = 0
                 for j in range(j0, j1 + 1):
-                    cy = (j + origin_index[1] + 0.5) * voxel - ay
+                    centre_y = (j + origin_index[1] + 0.5) * voxel
+                    cy = centre_y - ay
                     u0, u1 = _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius,
-                                           continues[s] == 0)
+                                           not continuing)
                     if u0 > u1:
                         continue
                     first = max(i0, int(np.ceil((u0 + ax) / voxel - 0.5)) - origin_index[0])
                     last = min(i1, int(np.floor((u1 + ax) / voxel - 0.5)) - origin_index[0])
+                    if first > last:
+                        continue
                     row = ((k - tz * edge) * edge + (j - ty * edge)) * edge - tx * edge
-                    for i in range(first, last + 1):
-                        v = row + i
-                        value = state[v]
-                        if value & _STAMP_MASK != mark:      # first root in this voxel
-                            state[v] = fresh
-                            explored += 1
-                            continue
-                        held = (value >> 2) & _ROOT_MASK
-                        if held == root:
-                            continue
-                        flag = value & 3
-                        if root_plant[held] != plant:        # a new plant reaches the voxel
-                            if flag & 2 == 0:
-                                either += flag == 0
-                                between += 1
-                                flag |= 2
-                            state[v] = fresh | flag          # follow this plant's roots from here on
-                        elif flag & 1 == 0:                  # a second root of the same plant
-                            either += flag == 0
-                            same += 1
-                            state[v] = value | 1
+                    skip_first, skip_last = last + 1, last   # empty: nothing of the row skipped
+                    if continuing:
+                        w0, w1 = _row_interval(centre_y - by, centre_z - bz, ex, ey, ez, edd, e_inv, e_along,
+                                               e_inv_two, radius, True)
+                        if w0 <= w1:
+                            skip_first = int(np.ceil((w0 + bx) / voxel - 0.5)) - origin_index[0]
+                            skip_last = int(np.floor((w1 + bx) / voxel - 0.5)) - origin_index[0]
+                    if skip_first > skip_last or skip_last < first or skip_first > last:
+                        n0, n1, n2, n3 = _mark_range(state, row, first, last, mark, fresh, root, plant, root_plant)
+                    else:
+                        n0, n1, n2, n3 = _mark_range(state, row, first, min(last, skip_first - 1), mark, fresh,
+                                                     root, plant, root_plant)
+                        m0, m1, m2, m3 = _mark_range(state, row, max(first, skip_last + 1), last, mark, fresh,
+                                                     root, plant, root_plant)
+                        n0, n1, n2, n3 = n0 + m0, n1 + m1, n2 + m2, n3 + m3
+                    explored += n0
+                    same += n1
+                    between += n2
+                    either += n3
                 counts[0, layer] += explored
                 counts[1, layer] += same
                 counts[2, layer] += between
@@ -242,7 +285,8 @@ def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_
         Depletion radius, voxel edge and depth-layer thickness, cm.
     previous_segment : ndarray of int64, shape (n,), optional
         Row of each segment's predecessor (``parent_id``), -1 for none. A segment whose predecessor is of the
-        same root and ends exactly where it starts skips its start ball (same counts, fewer voxel visits).
+        same root and ends exactly where it starts skips what the predecessor's capsule covers (same counts,
+        fewer voxel visits).
 
     Returns
     -------
@@ -264,14 +308,14 @@ def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_
     n_layers = max(int(np.ceil(max(deepest, 0.0) / layer_cm)), 1)
     plant_of_segment = root_plant[seg_root]
     order = np.argsort(plant_of_segment, kind="stable").astype(np.int64)
-    continues = np.zeros(p0.shape[0], dtype=np.uint8)
+    continues = np.full(p0.shape[0], -1, dtype=np.int64)   # row of the segment continued, or -1
     if previous_segment is not None:
         previous = np.asarray(previous_segment, dtype=np.int64)
         has = (previous >= 0) & (previous < p0.shape[0])
         rows = np.flatnonzero(has)
         before = previous[rows]
         same = (seg_root[before] == seg_root[rows]) & (p1[before] == p0[rows]).all(axis=1)
-        continues[rows[same]] = 1
+        continues[rows[same]] = before[same]
     box = _segment_boxes(p0, p1, float(radius_cm), float(voxel_cm), origin_index)
     start, items = _tile_lists(box, order, n_tiles_axis, edge)
     return _count_tiles(p0, p1, np.ascontiguousarray(seg_root, dtype=np.int32),
