@@ -175,3 +175,11 @@ def test_roots_that_died_during_the_run_take_up_water_while_they_lived(tmp_path)
     assert row["n_segments"] == len(drop_dead_roots(kept))
     # the dead laterals' share of the nitrate uptake was counted (Michaelis-Menten uptake per cm of living root)
     assert with_dead["nitrate_uptake_kg_n_per_ha"] > alive_only["nitrate_uptake_kg_n_per_ha"]
+
+
+def test_shipped_capture_study_plans_with_its_soil_and_weather():
+    from rootsim.study import plan_study
+
+    plan = plan_study(PARAMS / "studies" / "eastmoor_drying_capture.toml")
+    assert plan.capture is not None and plan.capture.setup.name == "invented_loam_field"
+    assert plan.capture.weather.n_days == 61 and len(plan.tasks) == 6
