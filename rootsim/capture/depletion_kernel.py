@@ -187,6 +187,7 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
     or for its start ball the one before), so every count is unchanged and repeated visits are saved.
     """
     nx, ny = n_tiles_axis[0], n_tiles_axis[1]
+    o0, o1, o2 = origin_index[0], origin_index[1], origin_index[2]
     size = edge * edge * edge
     state = np.zeros(size, dtype=np.int64)
     counts = np.zeros((4, n_layers), dtype=np.int64)  # explored, same plant, between plants, any two roots
@@ -219,6 +220,8 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
             else:
                 bx = by = bz = ex = ey = ez = edd = e_inv = e_along = e_inv_two = 0.0
             k0 = max(box[s, 4], tz * edge)
+            if k0 > min(box[s, 5], tz * edge + edge - 1):
+                continue
             k1 = min(box[s, 5], tz * edge + edge - 1)
             j0 = max(box[s, 2], ty * edge)
             j1 = min(box[s, 3], ty * edge + edge - 1)
@@ -226,19 +229,34 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
             i1 = min(box[s, 1], tx * edge + edge - 1)
             fresh = mark | (root << 2)
             for k in range(k0, k1 + 1):
-                centre_z = (k + origin_index[2] + 0.5) * voxel
+                centre_z = (k + o2 + 0.5) * voxel
                 cz = centre_z - az
                 layer = min(int(centre_z / layer_cm), n_layers - 1)
+                # rows of this depth that can meet the capsule: points of the segment within the radius in
+                # depth, widened by the radius in y
+                if dz != 0.0:
+                    ta, tb = (cz - radius) / dz, (cz + radius) / dz
+                    t_lo, t_hi = max(0.0, min(ta, tb)), min(1.0, max(ta, tb))
+                    if t_lo > t_hi:
+                        continue
+                elif abs(cz) > radius:
+                    continue
+                else:
+                    t_lo, t_hi = 0.0, 1.0
+                y_lo = ay + min(t_lo * dy, t_hi * dy) - radius
+                y_hi = ay + max(t_lo * dy, t_hi * dy) + radius
+                row_first = max(j0, int(np.ceil(y_lo / voxel - 0.5)) - o1)
+                row_last = min(j1, int(np.floor(y_hi / voxel - 0.5)) - o1)
                 explored = same = between = either = 0
-                for j in range(j0, j1 + 1):
-                    centre_y = (j + origin_index[1] + 0.5) * voxel
+                for j in range(row_first, row_last + 1):
+                    centre_y = (j + o1 + 0.5) * voxel
                     cy = centre_y - ay
                     u0, u1 = _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius,
                                            not continuing)
                     if u0 > u1:
                         continue
-                    first = max(i0, int(np.ceil((u0 + ax) / voxel - 0.5)) - origin_index[0])
-                    last = min(i1, int(np.floor((u1 + ax) / voxel - 0.5)) - origin_index[0])
+                    first = max(i0, int(np.ceil((u0 + ax) / voxel - 0.5)) - o0)
+                    last = min(i1, int(np.floor((u1 + ax) / voxel - 0.5)) - o0)
                     if first > last:
                         continue
                     row = ((k - tz * edge) * edge + (j - ty * edge)) * edge - tx * edge
@@ -247,8 +265,8 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
                         w0, w1 = _row_interval(centre_y - by, centre_z - bz, ex, ey, ez, edd, e_inv, e_along,
                                                e_inv_two, radius, True)
                         if w0 <= w1:
-                            skip_first = int(np.ceil((w0 + bx) / voxel - 0.5)) - origin_index[0]
-                            skip_last = int(np.floor((w1 + bx) / voxel - 0.5)) - origin_index[0]
+                            skip_first = int(np.ceil((w0 + bx) / voxel - 0.5)) - o0
+                            skip_last = int(np.floor((w1 + bx) / voxel - 0.5)) - o0
                     if skip_first > skip_last or skip_last < first or skip_first > last:
                         n0, n1, n2, n3 = _mark_range(state, row, first, last, mark, fresh, root, plant, root_plant)
                     else:
