@@ -118,6 +118,19 @@ def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radi
 
 
 @njit(cache=True)
+def _continued(previous, seg_root, p0, p1):
+    """Row of the segment each segment continues (same root, starting exactly at its end), or -1."""
+    n = previous.size
+    out = np.full(n, -1, dtype=np.int64)
+    for s in range(n):
+        b = previous[s]
+        if 0 <= b < n and seg_root[b] == seg_root[s] and p1[b, 0] == p0[s, 0] and p1[b, 1] == p0[s, 1] \
+                and p1[b, 2] == p0[s, 2]:
+            out[s] = b
+    return out
+
+
+@njit(cache=True)
 def _tile_lists(box, order, n_tiles_axis, edge):
     """CSR of tiles -> segments (segments in ``order``, i.e. plant by plant, within every tile)."""
     nx, ny, nz = n_tiles_axis[0], n_tiles_axis[1], n_tiles_axis[2]
@@ -325,15 +338,15 @@ def depletion_counts(p0: np.ndarray, p1: np.ndarray, seg_root: np.ndarray, root_
     n_tiles_axis = (extent + edge - 1) // edge
     n_layers = max(int(np.ceil(max(deepest, 0.0) / layer_cm)), 1)
     plant_of_segment = root_plant[seg_root]
-    order = np.argsort(plant_of_segment, kind="stable").astype(np.int64)
-    continues = np.full(p0.shape[0], -1, dtype=np.int64)   # row of the segment continued, or -1
+    if plant_of_segment.size < 2 or (np.diff(plant_of_segment) >= 0).all():  # grown tables: grouped by plant
+        order = np.arange(plant_of_segment.size, dtype=np.int64)
+    else:
+        order = np.argsort(plant_of_segment, kind="stable").astype(np.int64)
     if previous_segment is not None:
-        previous = np.asarray(previous_segment, dtype=np.int64)
-        has = (previous >= 0) & (previous < p0.shape[0])
-        rows = np.flatnonzero(has)
-        before = previous[rows]
-        same = (seg_root[before] == seg_root[rows]) & (p1[before] == p0[rows]).all(axis=1)
-        continues[rows[same]] = before[same]
+        continues = _continued(np.ascontiguousarray(previous_segment, dtype=np.int64),
+                               np.ascontiguousarray(seg_root, dtype=np.int64), p0, p1)
+    else:
+        continues = np.full(p0.shape[0], -1, dtype=np.int64)
     box = _segment_boxes(p0, p1, float(radius_cm), float(voxel_cm), origin_index)
     start, items = _tile_lists(box, order, n_tiles_axis, edge)
     return _count_tiles(p0, p1, np.ascontiguousarray(seg_root, dtype=np.int32),
