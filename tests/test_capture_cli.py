@@ -66,3 +66,36 @@ def test_hydraulic_parameter_out_of_range_exits_2(tmp_path, capsys):
                  str(PARAMS / "weather_drying_season.csv")])
     err = capsys.readouterr().err
     assert code == 2 and "horizons[0].saturated_water_content" in err and err.count("\n") == 1
+
+
+def test_capture_of_a_pot_run_uses_the_3d_voxel_column(tmp_path, capsys):
+    # A pot run (container in the table's metadata) gets the 3D column with no-flow walls: the surface is the
+    # pot's cells (10 cm pot on 2 cm cells: the cells whose centres lie in the circle, counted below).
+    top = np.arange(0.0, 12.0)
+    p0 = np.column_stack([np.full_like(top, 1.0), np.zeros_like(top), -top])
+    system = lines_system(p0, p0 - np.array([0.0, 0.0, 1.0]),
+                          metadata={"stand": {"ground_area_cm2": 78.5, "n_plants": 1},
+                                    "container": {"kind": "pot", "diameter_cm": 10.0, "depth_cm": 20.0}})
+    system.write(tmp_path / "run" / "segments.parquet")
+    soil = tmp_path / "pot_soil.toml"
+    soil.write_text('[column]\ndepth_cm = 20.0\ncell_cm = 2.0\ninitial_pressure_head_cm = -100.0\n'
+                    '[[horizons]]\ndepth_bottom_cm = 20.0\ntexture = "loam"\n[traits]\ndeep_water_below_cm = 10.0\n')
+    weather = pd.read_csv(PARAMS / "weather_drying_season.csv", comment="#").head(5)
+    weather.to_csv(tmp_path / "w.csv", index=False)
+    code = main(["capture", str(tmp_path / "run"), "--soil-water", str(soil), "--weather", str(tmp_path / "w.csv"),
+                 "--out", str(tmp_path / "out"), "--no-figures"])
+    assert code == 0, capsys.readouterr().err
+    traits = json.loads((tmp_path / "out" / "capture_traits.json").read_text())
+    centres = np.arange(-4.0, 5.0, 2.0)
+    cells = int(((centres[:, None] ** 2 + centres[None, :] ** 2) <= 25.0).sum())
+    assert traits["soil_column"] == "3d_voxels_pot" and traits["ground_area_cm2"] == pytest.approx(cells * 4.0)
+    daily = pd.read_csv(tmp_path / "out" / "capture_daily.csv")
+    assert daily["water_balance_error_mm"].abs().max() < 1e-5
+    layers = pd.read_csv(tmp_path / "out" / "capture_layers.csv")
+    assert (layers.loc[layers["depth_top_cm"] >= 12.0, "water_uptake_mm"] == 0.0).all()   # no roots below 12 cm
+    # a soil file deeper than the pot: one line, exit 2, nothing written
+    soil.write_text(soil.read_text().replace("20.0", "30.0"))
+    code = main(["capture", str(tmp_path / "run"), "--soil-water", str(soil), "--weather", str(tmp_path / "w.csv"),
+                 "--out", str(tmp_path / "out2")])
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and "column.depth_cm" in err and not (tmp_path / "out2").exists()

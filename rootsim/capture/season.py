@@ -101,6 +101,7 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
     initial_nitrate = float(mass.sum())
     nitrate_rows = []
     rows, theta_rows, head_rows, uptake_rows = [], [], [], []
+    nitrate_cells, nitrate_uptake_cells = [], []   # mg N / cm² per cell at the end of each day, and taken up
     for j in range(n_days):
         before = float(soil.water_content(head).sum()) * cell
         tp_cm = potential[j] / 10.0
@@ -139,6 +140,8 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
         theta_rows.append(soil.water_content(head))
         head_rows.append(head.copy())
         uptake_rows.append(10.0 * uptake)
+        nitrate_cells.append(mass.copy())
+        nitrate_uptake_cells.append(day_n["uptake"].copy())
     daily = pd.DataFrame(rows, columns=["day", "rain_mm", "irrigation_mm", "potential_transpiration_mm",
                                         "actual_transpiration_mm", "infiltration_mm", "runoff_mm", "drainage_mm",
                                         "soil_water_storage_mm", "water_balance_error_mm", "root_length_cm",
@@ -158,8 +161,35 @@ def run_water_season(system, setup: SoilWaterSetup, weather, *, ground_area_cm2:
         "water_uptake_mm": np.concatenate(uptake_rows),
         "root_length_cm": roots.ravel(),
     })
+    layers = add_nitrate_columns(layers, np.concatenate(nitrate_cells), np.concatenate(nitrate_uptake_cells),
+                                 cell_cm=cell)
     return {"daily": daily, "layers": layers,
             "traits": capture_traits(daily, layers, setup=setup, ground_area_cm2=area)}
+
+
+def add_nitrate_columns(layers: pd.DataFrame, mass_mg_per_cm2: np.ndarray, uptake_mg_per_cm2: np.ndarray, *,
+                        cell_cm: float) -> pd.DataFrame:
+    """The layers table with nitrate per cell and day: amount, concentration and uptake.
+
+    Parameters
+    ----------
+    layers : DataFrame, shape (n_days * n_cells, ...)
+        Rows day-major, cells from the surface down, with ``water_content``.
+    mass_mg_per_cm2, uptake_mg_per_cm2 : ndarray, shape (n_days * n_cells,)
+        Nitrate-N in each cell at the end of the day and taken up from it during the day, mg N per cm² of ground.
+
+    Returns
+    -------
+    DataFrame
+        ``layers`` plus ``nitrate_n_kg_per_ha`` (so a day's cells sum to the daily table's
+        ``nitrate_storage_kg_n_per_ha``), ``nitrate_n_mg_per_l`` (in the soil solution: amount / (theta dz))
+        and ``nitrate_uptake_kg_n_per_ha``.
+    """
+    to_kg = 1.0 / KG_PER_HA_TO_MG_PER_CM2
+    theta = layers["water_content"].to_numpy()
+    return layers.assign(nitrate_n_kg_per_ha=to_kg * mass_mg_per_cm2,
+                         nitrate_n_mg_per_l=1e3 * mass_mg_per_cm2 / (theta * cell_cm),
+                         nitrate_uptake_kg_n_per_ha=to_kg * uptake_mg_per_cm2)
 
 
 def capture_traits(daily: pd.DataFrame, layers: pd.DataFrame, *, setup: SoilWaterSetup,

@@ -3,8 +3,10 @@
 The image is one cell thick in y. Along z it is the soil column in rootsim's frame (cm, z up, soil surface at
 z = 0, the column bottom at z = -depth), one image cell per solver cell. Along x it is **time**: one image cell per
 day, x = day .. day + 1 (so x is in days, not cm), holding the state at the end of that day. Each column of the
-``capture_layers.csv`` table becomes one cell-data array of the same name, so any VTK viewer shows the season as
-a depth-time picture (e.g. colour by ``water_content``).
+``capture_layers.csv`` table named in :data:`SOIL_STATE_ARRAYS` becomes one cell-data array of the same name, so
+any VTK viewer shows the season as a depth-time picture (e.g. colour by ``water_content`` or
+``nitrate_n_mg_per_l``): water content, head, water uptake, root length and nitrate-N per cell (amount in kg N/ha
+of ground, concentration in the soil solution in mg N/L, uptake in kg N/ha during the day).
 """
 
 from __future__ import annotations
@@ -20,7 +22,8 @@ from .errors import CaptureError
 __all__ = ["SOIL_STATE_ARRAYS", "soil_state_image", "write_soil_state_vti"]
 
 #: Columns of the layers table written as cell-data arrays.
-SOIL_STATE_ARRAYS = ("water_content", "pressure_head_cm", "water_uptake_mm", "root_length_cm")
+SOIL_STATE_ARRAYS = ("water_content", "pressure_head_cm", "water_uptake_mm", "root_length_cm",
+                     "nitrate_n_kg_per_ha", "nitrate_n_mg_per_l", "nitrate_uptake_kg_n_per_ha")
 
 
 def soil_state_image(layers: pd.DataFrame):
@@ -53,6 +56,8 @@ def soil_state_image(layers: pd.DataFrame):
     image.SetOrigin(float(days[0]), 0.0, -float(top[-1] + cell_cm))
     image.SetSpacing(1.0, 1.0, cell_cm)
     for name in SOIL_STATE_ARRAYS:
+        if name not in layers:  # nitrate columns are absent from tables made without the solute model
+            continue
         grid = layers[name].to_numpy(dtype=np.float64).reshape(n_days, n_cells)     # (day, cell from the top)
         values = np.ascontiguousarray(grid.T[::-1].ravel())                         # z from the bottom, day fastest
         array = numpy_to_vtk(values, deep=True)

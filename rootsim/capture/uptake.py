@@ -101,7 +101,9 @@ def root_length_by_day(system, *, cell_cm: float, n_cells: int, first_day: int, 
 
     Row j holds the segments with ``birth_day <= first_day + j`` (counted from the end of that day's
     growth), split exactly at cell boundaries; one pass over the segments (grouped by day) and a cumulative sum.
-    Roots below the column bottom are not counted.
+    Roots below the column bottom are not counted. With a ``death_day`` column (``rootsim.grow(...,
+    keep_dead_roots=True)``) a segment counts only while its root lives: in rows with
+    ``first_day + j < death_day`` (a second grouped pass, subtracted from the day of death on).
     """
     birth = float_column(system, "birth_day")
     depth0 = -float_column(system, "z0")
@@ -114,4 +116,25 @@ def root_length_by_day(system, *, cell_cm: float, n_cells: int, first_day: int, 
     group = np.where(late, n_days, group)  # born after the season: an extra group dropped below
     per_day = depth_layer_lengths(depth0, depth1, length, layer_cm=cell_cm, n_layers=n_cells, group=group,
                                   n_groups=n_days + 1)
-    return np.cumsum(per_day[:, :n_days].T, axis=0)
+    present = np.cumsum(per_day[:, :n_days].T, axis=0)
+    if _has_column(system, "death_day"):
+        death = np.asarray(system["death_day"], dtype=np.float64)   # +inf: alive at the end
+        if np.isnan(death).any() or death.shape != birth.shape:
+            raise CaptureError("segment table: column death_day must hold a day or +inf for every segment "
+                               "(allowed: numbers, +inf for roots alive at the end)")
+        died = np.isfinite(death)
+        if died.any():
+            # gone from the first row whose day is at or after the death (death_day <= first_day + j)
+            gone = np.clip(np.ceil(death[died] - 1e-9).astype(np.int64) - first_day, 0, n_days)
+            lost = depth_layer_lengths(depth0[died], depth1[died], length[died], layer_cm=cell_cm, n_layers=n_cells,
+                                       group=gone, n_groups=n_days + 1)
+            present = present - np.cumsum(lost[:, :n_days].T, axis=0)
+            np.maximum(present, 0.0, out=present)  # round-off of the subtraction
+    return present
+
+
+def _has_column(system, name: str) -> bool:
+    try:
+        return name in system.columns if hasattr(system, "columns") else name in system
+    except TypeError:
+        return False

@@ -11,7 +11,8 @@ COMMAND = "capture"
 HELP = "soil water over a season under a grown root system -> capture_daily.csv, capture_layers.csv, traits"
 ORDER = 45
 DESCRIPTION = """\
-Run a season of soil water (1D Richards equation, van Genuchten-Mualem horizons) under a grown root
+Run a season of soil water (Richards equation, van Genuchten-Mualem horizons; a 1D layered column
+under a field stand, a 3D voxel column with no-flow walls for a pot or rhizobox run) under a grown root
 system, with root water uptake distributed by the root length in each soil cell on each day (Feddes
 et al. 1978 stress reduction). Reads DIR/segments.parquet, a soil-water TOML file and a daily weather
 CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotranspiration_mm), and writes:
@@ -22,7 +23,8 @@ CSV (rain_mm, irrigation_mm, potential_transpiration_mm or reference_evapotransp
   capture_traits.json  seasonal transpiration, water taken up below a stated depth, stress days, ...
   water_content.png, cumulative_uptake.png, season_summary.png
   --vtk FILE.vti       the soil state as VTK image data: x = day, z = depth (cm, z up), cell data
-                       water_content, pressure_head_cm, water_uptake_mm, root_length_cm
+                       water_content, pressure_head_cm, water_uptake_mm, root_length_cm,
+                       nitrate_n_kg_per_ha, nitrate_n_mg_per_l, nitrate_uptake_kg_n_per_ha
 
 Simulated capture is a research aid, not agronomic advice; the shipped soil and weather are invented.
 
@@ -44,13 +46,15 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--vtk", metavar="FILE.vti", default=None,
                         help="also write the soil state by depth and day as VTK image data (.vti)")
     parser.add_argument("--no-figures", action="store_true", help="skip the PNG figures")
+    parser.add_argument("--container-cell-cm", metavar="C", type=float, default=None,
+                        help="horizontal voxel edge of the 3D column used for a pot or rhizobox run, cm (default: "
+                             "the soil file's cell_cm)")
 
 
 def run(args: argparse.Namespace) -> int:
     from ..atomic import atomic_path, ensure_output_dir
     from ..capture.errors import CaptureError
     from ..capture.figures import plot_cumulative_uptake, plot_season_summary, plot_water_content
-    from ..capture.season import run_water_season
     from ..capture.soil_file import read_soil_water_file
     from ..rootsystem import RootSystem
     from ..soil.weather import read_weather_table
@@ -60,7 +64,9 @@ def run(args: argparse.Namespace) -> int:
     setup = read_soil_water_file(args.soil_water)
     weather = read_weather_table(args.weather)
     system = RootSystem.read(args.dir)
-    result = run_water_season(system, setup, weather)
+    from ..capture.season3d import season_for_system
+
+    result = season_for_system(system, setup, weather, cell_cm=args.container_cell_cm)
     phosphorus = None
     if args.phosphorus_radius_cm is not None:
         from ..capture.phosphorus import explored_volume
@@ -72,7 +78,7 @@ def run(args: argparse.Namespace) -> int:
                                  ("radius_cm", "voxel_cm", "explored_cm3", "overlap_same_plant_cm3",
                                   "overlap_between_plants_cm3")})
     traits = dict(result["traits"], soil_water_file=str(args.soil_water), weather_file=str(args.weather),
-                  source=str(args.dir))
+                  source=str(args.dir), soil_column=result["column"])
     out = ensure_output_dir(args.out if args.out is not None else args.dir)
     names = ["capture_daily.csv", "capture_layers.csv", "capture_traits.json"]
     if phosphorus is not None:

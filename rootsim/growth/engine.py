@@ -164,6 +164,7 @@ class _PlantResult:
     def __init__(self, out):
         float_chunks, parent_chunks, root_chunks, chunk_counts, self.n_segments, root_float, root_int = out[:7]
         self.dead_at_end = out[7]
+        self.death_day = _effective_death_day(root_float, root_int, self.dead_at_end)  # keep_dead_roots
         pore_chunks = out[11]
         n_fields = len(SEGMENT_FLOAT_FIELDS)
         self.chunk_counts = [int(m) for m in chunk_counts]
@@ -261,8 +262,50 @@ def _drop_dead(columns: dict, plants: list[_PlantResult]) -> dict:
     return out
 
 
+def _effective_death_day(root_float: np.ndarray, root_int: np.ndarray, dead_at_end: np.ndarray) -> np.ndarray:
+    """Day each root of a plant died (its own lifespan or an ancestor's, whichever came first), shape (n_roots,);
+    +inf for roots alive at the end of the run. Parents come before their laterals, so a few passes of
+    "the earlier of mine and my parent's" reach every order."""
+    from .step import R_DEATH, R_PARENT
+
+    death = np.array(root_float[:, R_DEATH], dtype=np.float64)
+    parent = np.asarray(root_int[:, R_PARENT], dtype=np.int64)
+    has_parent = parent >= 0
+    while death.size:
+        earlier = np.where(has_parent, np.minimum(death, death[np.maximum(parent, 0)]), death)
+        if np.array_equal(earlier, death):
+            break
+        death = earlier
+    return np.where(dead_at_end, death, np.inf)
+
+
+def _with_death_day(columns: dict, plants: list[_PlantResult]) -> dict:
+    """Keep every segment and add ``death_day`` (the day its root died; +inf while alive at the end)."""
+    death = np.concatenate([p.death_day for p in plants]) if plants else np.zeros(0)
+    return {**columns, "death_day": death[columns["root_id"]] if death.size else np.full(len(columns["root_id"]),
+                                                                                         np.inf)}
+
+
+def drop_dead_roots(system) -> RootSystem:
+    """The root system without the segments of roots that died during the run (rows of finite ``death_day``),
+    renumbered exactly as :func:`grow` does without ``keep_dead_roots``; the ``death_day`` column is left out.
+
+    A system without a ``death_day`` column is returned as it is.
+    """
+    if "death_day" not in system.columns:
+        return system
+    alive = ~np.isfinite(np.asarray(system["death_day"]))
+    new_id = np.cumsum(alive) - 1
+    out = {name: system[name][alive] for name in system.columns if name != "death_day"}
+    parent = out["parent_id"]
+    out["parent_id"] = np.where(parent >= 0, new_id[np.maximum(parent, 0)], -1)
+    out["segment_id"] = np.arange(int(alive.sum()), dtype=np.int64)
+    return RootSystem(out, system.metadata, validate=False)
+
+
 def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step_days: float | None = None,
-         max_segments: int | None = None, progress: bool | None = None) -> RootSystem:
+         max_segments: int | None = None, progress: bool | None = None,
+         keep_dead_roots: bool = False) -> RootSystem:
     """Grow the root systems of a spec's stand.
 
     Parameters
@@ -273,6 +316,11 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
         Override ``run.seed``, ``run.duration_days``, ``run.time_step_days``, ``run.max_segments``.
     progress : bool, optional
         Show a progress bar on stderr (default: when stderr is a terminal).
+    keep_dead_roots : bool
+        Keep the segments of roots that died during the run (``lifespan_days``, with their laterals) and add a
+        ``death_day`` column (the day the root died, +inf for roots alive at the end), so that models of the
+        season (``rootsim.capture``) count each segment from its ``birth_day`` to its ``death_day``;
+        :func:`drop_dead_roots` gives the usual table back. Default: dead roots are left out.
 
     Returns
     -------
@@ -330,6 +378,8 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
             plants.append(plant)
             bar.update(duration)
     columns = _assemble(plants, classes.names, in_biopore=has_pores)
-    if classes.has_lifespan:
+    if keep_dead_roots:
+        columns = _with_death_day(columns, plants)
+    elif classes.has_lifespan:
         columns = _drop_dead(columns, plants)
     return RootSystem(columns, _metadata(spec, positions, classes.names), validate=False)

@@ -55,6 +55,7 @@ class StudyPlan:
     kind: str = "study"
     source: str = "<study>"
     extra: dict = field(default_factory=dict)
+    capture: Any = None  # rootsim.study.capture.StudyCapture of [measure.capture], sent to workers
 
     @property
     def variants(self) -> list[str]:
@@ -70,6 +71,8 @@ class StudyPlan:
                               "factors": t.factors, "error": t.error,
                               "spec": None if t.spec is None else t.spec.model_dump(mode="json")}
                              for t in self.tasks]}
+        if self.capture is not None:  # the soil-water and weather files' contents
+            payload["capture_inputs"] = self.capture.digest
         text = json.dumps(payload, sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()
 
@@ -285,9 +288,14 @@ def _plan(study: StudyFile, root: Path, source: str, *, kind: str = "study") -> 
             tasks.append(Task(f"{folder_name}__r{r:03d}", name, index, r, seed, values, spec, error,
                               folder=f"runs/{folder_name}/replicate_{r:03d}"))
     factor_names = [f.name for f in study.factors] if study.design.kind != "variants" else []
+    capture = None
+    if study.measure.capture is not None:
+        from .capture import load_study_capture
+
+        capture = load_study_capture(study.measure.capture, root, source)
     return StudyPlan(study.name, tasks, study.measure, factor_names, kind=kind, source=source,
                      extra={"description": study.description, "replicates": study.replicates,
-                            "master_seed": study.master_seed, "design": study.design.kind})
+                            "master_seed": study.master_seed, "design": study.design.kind}, capture=capture)
 
 
 def plan_from_specs(specs: list[Spec], *, replicates: int, seeds, measure: Measure, kind: str = "batch",

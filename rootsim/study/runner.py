@@ -37,15 +37,20 @@ MANIFEST = "study.json"
 PARTIAL = ".partial"
 
 
-def execute_task(task: Task, measure, keep_segments: bool = False) -> dict:
-    """Grow and measure one run (in a worker). Returns its row and tables; user errors become a failed row."""
+def execute_task(task: Task, measure, keep_segments: bool = False, capture=None) -> dict:
+    """Grow and measure one run (in a worker). Returns its row and tables; user errors become a failed row.
+
+    ``capture`` (a :class:`rootsim.study.capture.StudyCapture`) adds the soil-water season's traits to the row
+    and its daily table to the payload (``capture_daily``).
+    """
     import time
 
     start = time.perf_counter()
     row = {"run_id": task.run_id, "variant": task.variant, "replicate": task.replicate, **task.factors,
            "seed": task.seed, "folder": task.folder, "status": "ok", "error": ""}
     # "seconds" (the run's wall time in its worker) is for progress lines only, never in the run's tables
-    payload = {"row": row, "profile": None, "samples": None, "segments": None, "seconds": 0.0}
+    payload = {"row": row, "profile": None, "samples": None, "segments": None, "seconds": 0.0,
+               "capture_daily": None}
     if task.error is not None:
         row.update(status="failed", error=task.error)
         return payload
@@ -53,8 +58,16 @@ def execute_task(task: Task, measure, keep_segments: bool = False) -> dict:
     from .measure import measure_run
 
     try:
-        system = grow(task.spec, seed=task.seed, progress=False)
+        if capture is None:
+            system = grow(task.spec, seed=task.seed, progress=False)
+        else:  # roots that die during the run are kept for the season (counted while alive)
+            from .capture import capture_outcomes, grow_for_capture
+
+            season_system, system = grow_for_capture(task.spec, seed=task.seed)
         traits, profile, samples = measure_run(system, measure, final_day=task.spec.run.duration_days)
+        if capture is not None:
+            captured, payload["capture_daily"] = capture_outcomes(season_system, capture)
+            traits = {**traits, **captured}
     except RootsimError as exc:  # segment budget, a sampler outside a pot, ...: recorded, the study goes on
         row.update(status="failed", error=exc.cli_message())
         payload["seconds"] = time.perf_counter() - start
@@ -111,6 +124,8 @@ def _commit(out: Path, task: Task, payload: dict, kind: str) -> None:
             payload["profile"].to_parquet(tmp / "profile.parquet", index=False)
         if payload["samples"] is not None:
             payload["samples"].to_parquet(tmp / "samples.parquet", index=False)
+        if payload.get("capture_daily") is not None:
+            payload["capture_daily"].to_parquet(tmp / "capture_daily.parquet", index=False)
         system = payload["segments"]
         if system is not None:
             system.write(tmp / "segments.parquet")
@@ -169,8 +184,8 @@ def _pool_runner(workers: int):
     executor = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context(method),
                                    initializer=_warm_worker)
 
-    def submit(tasks, measure, keep):
-        futures = {executor.submit(execute_task, t, measure, keep): t for t in tasks}
+    def submit(tasks, measure, keep, capture=None):
+        futures = {executor.submit(execute_task, t, measure, keep, capture): t for t in tasks}
         for fut in as_completed(futures):
             yield futures[fut], fut.result()
 
@@ -187,8 +202,8 @@ def _dask_runner(address: str):
                            f"({' '.join(str(exc).split())[:120]})") from None
     client.run(_warm_worker)
 
-    def submit(tasks, measure, keep):
-        futures = {client.submit(execute_task, t, measure, keep, pure=False, key=f"rootsim-{t.run_id}-{uuid.uuid4().hex[:6]}"): t
+    def submit(tasks, measure, keep, capture=None):
+        futures = {client.submit(execute_task, t, measure, keep, capture, pure=False, key=f"rootsim-{t.run_id}-{uuid.uuid4().hex[:6]}"): t
                    for t in tasks}
         for fut in as_completed(list(futures)):
             yield futures[fut], fut.result()
@@ -245,8 +260,8 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
     try:
         with bar:
             bar.skip(len(plan.tasks) - len(pending))
-            results = ((t, execute_task(t, plan.measure, keep)) for t in pending) if runner is None \
-                else runner(pending, plan.measure, keep)
+            results = ((t, execute_task(t, plan.measure, keep, plan.capture)) for t in pending) if runner is None \
+                else runner(pending, plan.measure, keep, plan.capture)
             for task, payload in results:
                 if out is not None:
                     _commit(out, task, payload, plan.kind)
@@ -267,10 +282,11 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
 class StudyResults:
     """The combined tables of a study: ``runs``, ``profiles`` and ``samples`` (None without samplers)."""
 
-    def __init__(self, runs, profiles, samples, factor_names=(), manifest=None):
+    def __init__(self, runs, profiles, samples, factor_names=(), manifest=None, capture_daily=None):
         self.runs, self.profiles, self.samples = runs, profiles, samples
         self.factor_names = list(factor_names)
         self.manifest = manifest or {}
+        self.capture_daily = capture_daily  # soil-water season by run and day ([measure.capture]), or None
 
     def write(self, out: Path, *, kind: str = "study") -> None:
         """Write runs.parquet, profiles.parquet, samples.parquet (and batch.csv for batches), each atomically."""
@@ -281,6 +297,9 @@ class StudyResults:
         if self.samples is not None:
             with atomic_path(out / "samples.parquet") as tmp:
                 self.samples.to_parquet(tmp, index=False)
+        if self.capture_daily is not None:
+            with atomic_path(out / "capture_daily.parquet") as tmp:
+                self.capture_daily.to_parquet(tmp, index=False)
         if kind == "batch":
             atomic_write_text(out / "batch.csv", self.runs.to_csv(index=False))
 
@@ -318,14 +337,15 @@ def _with_ids(frame, row):
 
 
 def _combine_payloads(plan: StudyPlan, payloads: dict) -> StudyResults:
-    rows, profiles, samples = [], [], []
+    rows, profiles, samples, daily = [], [], [], []
     for t in plan.tasks:
         p = payloads[t.run_id]
         rows.append(p["row"])
         profiles.append(_with_ids(p["profile"], p["row"]))
         samples.append(_with_ids(p["samples"], p["row"]))
+        daily.append(_with_ids(p.get("capture_daily"), p["row"]))
     runs, prof, samp, _ = _tables(rows, profiles, samples, plan.factor_names)
-    return StudyResults(runs, prof, samp, plan.factor_names)
+    return StudyResults(runs, prof, samp, plan.factor_names, capture_daily=_concat(daily))
 
 
 def read_results(out_dir: str | os.PathLike, *, plan: StudyPlan | None = None) -> StudyResults:
@@ -349,7 +369,7 @@ def read_results(out_dir: str | os.PathLike, *, plan: StudyPlan | None = None) -
         raise RootsimError(f"{out}/{MANIFEST}: unreadable manifest ({exc})") from None
     folders = [t.folder for t in plan.tasks] if plan is not None else sorted(
         str(p.parent.relative_to(out)) for p in out.glob("runs/*/replicate_*/run.json"))
-    rows, profiles, samples = [], [], []
+    rows, profiles, samples, daily = [], [], [], []
     for folder in folders:
         run_dir = out / folder
         if not (run_dir / "run.json").is_file():
@@ -358,12 +378,15 @@ def read_results(out_dir: str | os.PathLike, *, plan: StudyPlan | None = None) -
             row = json.loads((run_dir / "run.json").read_text(encoding="utf-8"))
             prof = pd.read_parquet(run_dir / "profile.parquet") if (run_dir / "profile.parquet").is_file() else None
             samp = pd.read_parquet(run_dir / "samples.parquet") if (run_dir / "samples.parquet").is_file() else None
+            season = (pd.read_parquet(run_dir / "capture_daily.parquet")
+                      if (run_dir / "capture_daily.parquet").is_file() else None)
         except (OSError, ValueError) as exc:
             raise RootsimError(f"{run_dir}: unreadable run folder ({' '.join(str(exc).split())[:100]})") from None
         row = {k: (np.nan if v is None else v) for k, v in row.items()}
         rows.append(row)
         profiles.append(_with_ids(prof, row))
         samples.append(_with_ids(samp, row))
+        daily.append(_with_ids(season, row))
     if not rows:
         raise RootsimError(f"{out}: no finished runs yet")
     factor_names = manifest.get("factors", []) if plan is None else plan.factor_names
@@ -372,4 +395,12 @@ def read_results(out_dir: str | os.PathLike, *, plan: StudyPlan | None = None) -
         order = {v: i for i, v in enumerate(manifest.get("variants", []))}
         runs = runs.sort_values(["variant", "replicate"], key=lambda s: s.map(order) if s.name == "variant" else s,
                                 kind="stable").reset_index(drop=True)
-    return StudyResults(runs, prof, samp, factor_names, manifest)
+    return StudyResults(runs, prof, samp, factor_names, manifest, capture_daily=_concat(daily))
+
+
+def _concat(frames):
+    """The non-empty frames stacked (design order), or None."""
+    import pandas as pd
+
+    frames = [f for f in frames if f is not None]
+    return pd.concat(frames, ignore_index=True, sort=False) if frames else None

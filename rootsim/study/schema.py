@@ -17,7 +17,9 @@ Schema (paths are relative to the study file)::
     [measure]  layer_cm, max_depth_cm, days, intervals_cm (instead of layers: [[top, bottom], ...]), traits, length_below_cm, segments,
                cores = [{x_cm, y_cm, diameter_cm, depth_cm, increment_cm}], core_grid = {diameter_cm, depth_cm,
                increment_cm}, walls = ["Y,XMIN,XMAX,DEPTH,CELL"], tubes = ["X,Y,ANGLE,LENGTH,DIAMETER,FIELD"],
-               capture = false           # capture outcomes: reserved for the soil-water/nutrient model
+    [measure.capture]                    # optional: a season of soil water and nitrate under every run
+               soil_water_file, weather_file (paths relative to the study file), phosphorus_radius_cm,
+               phosphorus_voxel_cm (see rootsim.study.capture)
 
 Every problem is a :class:`rootsim.errors.SpecError` naming the study file, the key path and what is allowed.
 """
@@ -29,11 +31,11 @@ import tomllib
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from ..errors import SpecError
 
-__all__ = ["StudyFile", "Factor", "NamedVariant", "Design", "Measure", "CoreSpec", "CoreGridSpec", "RunOverrides",
+__all__ = ["StudyFile", "Factor", "NamedVariant", "Design", "Measure", "CaptureMeasure", "CoreSpec", "CoreGridSpec", "RunOverrides",
            "load_study_file", "parse_study_file", "DEFAULT_TRAITS"]
 
 #: Scalar traits recorded per run unless ``measure.traits`` names others (keys of ``root_traits``).
@@ -110,6 +112,24 @@ class CoreGridSpec(_Model):
     increment_cm: float = Field(10.0, gt=0)
 
 
+class CaptureMeasure(_Model):
+    """``[measure.capture]``: the soil-water season run under every run's roots (see :mod:`rootsim.study.capture`)."""
+
+    soil_water_file: str = Field(min_length=1)
+    weather_file: str = Field(min_length=1)
+    phosphorus_radius_cm: float | None = Field(None, gt=0, le=10)
+    phosphorus_voxel_cm: float | None = Field(None, gt=0, le=10)
+
+    @model_validator(mode="after")
+    def _voxel(self):
+        if self.phosphorus_voxel_cm is not None:
+            if self.phosphorus_radius_cm is None:
+                raise ValueError("phosphorus_voxel_cm needs phosphorus_radius_cm")
+            if self.phosphorus_voxel_cm > self.phosphorus_radius_cm:
+                raise ValueError("phosphorus_voxel_cm must be at most phosphorus_radius_cm")
+        return self
+
+
 class Measure(_Model):
     """What each run measures."""
 
@@ -124,13 +144,20 @@ class Measure(_Model):
     core_grid: CoreGridSpec | None = None
     walls: list[str] = Field(default_factory=list)
     tubes: list[str] = Field(default_factory=list)
-    capture: bool = False
+    capture: CaptureMeasure | None = None
+
+    @field_validator("capture", mode="before")
+    @classmethod
+    def _capture_table(cls, value):
+        if value is False:
+            return None
+        if value is True:
+            raise ValueError("capture needs a table (allowed: [measure.capture] with soil_water_file and "
+                             "weather_file, paths relative to the study file)")
+        return value
 
     @model_validator(mode="after")
     def _check(self):
-        if self.capture:
-            raise ValueError("capture outcomes need the soil water and nutrient model, not available in this "
-                             "version (allowed: false)")
         for pair in self.intervals_cm or []:
             if len(pair) != 2 or not 0 <= pair[0] < pair[1]:
                 raise ValueError(f"intervals_cm entries must be [top, bottom] with 0 <= top < bottom (got {pair})")
@@ -228,7 +255,7 @@ def _model_for(loc):
         if field is None:
             return None
         ann = field.annotation
-        for cand in (Factor, NamedVariant, Design, Measure, CoreSpec, CoreGridSpec, RunOverrides):
+        for cand in (Factor, NamedVariant, Design, Measure, CoreSpec, CoreGridSpec, RunOverrides, CaptureMeasure):
             if cand is ann or cand in getattr(ann, "__args__", ()) or any(
                     cand in getattr(a, "__args__", ()) for a in getattr(ann, "__args__", ())):
                 model = cand

@@ -45,7 +45,7 @@ def interval_names(confidence: float = 0.95) -> tuple[str, str]:
 #: Units of trait names by their suffix (project naming: units in the name), longest suffix first.
 _UNIT_SUFFIXES = (("_cm_per_cm3", "cm cm-3"), ("_cm_per_cm2", "cm cm-2"), ("_cm_per_day", "cm d-1"),
                   ("_cm3", "cm3"), ("_cm2", "cm2"), ("_cm", "cm"), ("_deg", "deg"), ("_days", "days"),
-                  ("_mpa", "MPa"))
+                  ("_mpa", "MPa"), ("_kg_n_per_ha", "kg N ha-1"), ("_mm", "mm"))
 
 
 def measure_unit(name: str) -> str:
