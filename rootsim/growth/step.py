@@ -26,6 +26,7 @@ import numpy as np
 from numba import njit
 from numba.typed import List
 
+from . import generator_liveness
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
 from ..soil.biopores import biopore_at
@@ -47,11 +48,13 @@ from .tropisms import (
 
 __all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS",
            "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
-           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
+           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM", "STATUS_CHECKPOINT"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
 SEGMENT_INT_FIELDS = ("parent_local", "root_local")  # int64, int32
 STATUS_OK, STATUS_SEGMENTS, STATUS_ROOTS, STATUS_PENDING = 0, 1, 2, 3
+#: Status of a checkpoint yield of :func:`grow_plant` (growth paused; resume with ``next``).
+STATUS_CHECKPOINT = 4
 
 # Per-root parameter columns.
 P_RADIUS = PARAM_NAMES.index("radius_cm")
@@ -104,6 +107,8 @@ BYTES_PER_ITEM = {
 _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
 _MIN_STEP_CM = 1e-9
 _FIRST_CHUNK = 4096
+
+generator_liveness.apply()  # before grow_plant (a numba generator) compiles
 
 
 @njit(**JIT)
@@ -240,6 +245,28 @@ def _time_since_threshold(rootf, law_negexp_parent, pr, threshold):
     return min(max(after, 0.0), last_dt)
 
 
+@njit(**JIT_BORROW)
+def _add_length_by_depth(length_per_cell, cell_cm, depth0, depth1, length):
+    """Add a straight segment's ``length`` to the cells of thickness ``cell_cm`` (cell k: depth
+    ``[k, k + 1) * cell_cm``) in proportion to the part of its depth span in each (exact for a straight
+    segment); a level segment goes to the cell holding it. Length below the last cell is not counted."""
+    n = length_per_cell.size
+    low = min(depth0, depth1)
+    high = max(depth0, depth1)
+    span = high - low
+    if not span > 0:
+        cell = int(math.floor(low / cell_cm))
+        if 0 <= cell < n:
+            length_per_cell[cell] += length
+        return
+    first = max(int(math.floor(low / cell_cm)), 0)
+    last = min(int(math.floor(high / cell_cm)), n - 1)
+    for cell in range(first, last + 1):
+        part = min(high, (cell + 1) * cell_cm) - max(low, cell * cell_cm)
+        if part > 0:
+            length_per_cell[cell] += length * part / span
+
+
 @njit(**JIT)
 def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
                kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
@@ -247,8 +274,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
-               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max):
-    """Grow one plant over the whole run.
+               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
+               checkpoint_days, length_cell_cm, length_per_cell):
+    """Grow one plant over the whole run, pausing at checkpoints (a numba generator).
+
+    A generator: each ``next()`` runs until the next checkpoint or the end. Arrays passed in are shared with
+    the caller, so values changed in place between two ``next()`` calls (e.g. the ``data`` of ``fields``
+    updated by a soil-water model) are what the following steps read. ``grow`` passes no checkpoints and
+    takes the single (final) item.
 
     Parameters
     ----------
@@ -291,9 +324,19 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
         Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
         density by ``1 + (max - 1) * v / (v + half)``.
+    checkpoint_days : ndarray, shape (n_checkpoints,)
+        Increasing times (days): before the first step that starts at or after a checkpoint (steps of
+        ``step_days`` from day 0), the generator yields a checkpoint item (status ``STATUS_CHECKPOINT``,
+        ``status_count`` the checkpoint's number, ``status_day`` the time reached, empty root tables);
+        checkpoints after the last step are not yielded.
+    length_cell_cm : float
+        Thickness of the cells of ``length_per_cell`` (depth ``[k, k + 1) * length_cell_cm``).
+    length_per_cell : ndarray, shape (n_cells,)
+        Accumulator (size 0: none): every new segment adds its length to the cells its depth span crosses,
+        split exactly (:func:`_add_length_by_depth`); length below the last cell is not counted.
 
-    Returns
-    -------
+    Yields
+    ------
     float_chunks, parent_chunks, root_chunks : list of ndarray
         Segment columns in chunks: ``SEGMENT_FLOAT_FIELDS`` of chunk 0, then of chunk 1, ...; parents
         (segment numbers within the plant, -1 none) and roots (root numbers within the plant) per chunk.
@@ -361,6 +404,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
         min_interbranch[c] = values[c, P_INTERBRANCH, row] / proliferation_max[c]
     ev = 0
+    checkpoint = 0
+    counting_length = length_per_cell.size > 0
     status = STATUS_OK
     status_count = 0
     status_day = 0.0
@@ -382,6 +427,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 break
             t0 = duration
             t1 = duration
+        while checkpoint < checkpoint_days.size and checkpoint_days[checkpoint] <= t0 + 1e-9:
+            yield (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:0].copy(),
+                   rooti[:0].copy(), np.zeros(0, dtype=np.bool_), STATUS_CHECKPOINT, checkpoint, t0, pore_chunks)
+            checkpoint += 1
         k += 1
         if 4 * n_done > n_tips:  # drop finished tips once they are a quarter of the table (order kept)
             kept = 0
@@ -403,8 +452,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
+                    return
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
                 _draw_root_parameters(rng, kind, values, cls, params)
@@ -563,8 +613,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 stepped[j] = root
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
-                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                        yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                         rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0, pore_chunks)
+                        return
                     c = chunk_used
                     c_x0[c] = sx
                     c_y0[c] = sy
@@ -577,6 +628,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     c_parent[c] = tipi[j, T_LAST]
                     c_root[c] = root
                     c_pore[c] = 1 if pore >= 0 else 0
+                    if counting_length:
+                        _add_length_by_depth(length_per_cell, length_cell_cm, -sz, -ez, seg_len)
                     seg_id = n_seg
                     chunk_used += 1
                     n_seg += 1
@@ -592,8 +645,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         child = branch_class[cls, pick] if pick < n_branch_options else -1
                         if child >= 0:
                             if n_pend >= pending_limit:
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
+                                return
                             if free_row >= 0:
                                 q = free_row
                                 free_row = pendi[q, Q_NEXT]
@@ -601,8 +655,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 q = n_pend_rows
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
+                                return
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
                             pendf[q, Q_Y] = sy + frac * seg_y
@@ -677,8 +732,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
+                    return
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
@@ -722,7 +778,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     counts = np.empty(len(chunk_counts), dtype=np.int64)
     for c in range(counts.size):
         counts[c] = chunk_counts[c]
-    return (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
+    yield (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
             dead_at_end, STATUS_OK, 0, duration, pore_chunks)
 
