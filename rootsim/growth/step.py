@@ -328,7 +328,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         Increasing times (days): before the first step that starts at or after a checkpoint (steps of
         ``step_days`` from day 0), the generator yields a checkpoint item (status ``STATUS_CHECKPOINT``,
         ``status_count`` the checkpoint's number, ``status_day`` the time reached, empty root tables);
-        checkpoints after the last step are not yielded.
+        checkpoints after the start of the last step are not yielded (the final item comes instead).
     length_cell_cm : float
         Thickness of the cells of ``length_per_cell`` (depth ``[k, k + 1) * length_cell_cm``).
     length_per_cell : ndarray, shape (n_cells,)
@@ -427,7 +427,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 break
             t0 = duration
             t1 = duration
-        while checkpoint < checkpoint_days.size and checkpoint_days[checkpoint] <= t0 + 1e-9:
+        while k < n_steps and checkpoint < checkpoint_days.size and checkpoint_days[checkpoint] <= t0 + 1e-9:
             yield (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:0].copy(),
                    rooti[:0].copy(), np.zeros(0, dtype=np.bool_), STATUS_CHECKPOINT, checkpoint, t0, pore_chunks)
             checkpoint += 1
