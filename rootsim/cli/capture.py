@@ -31,8 +31,9 @@ irrigation_mm, potential_transpiration_mm or reference_evapotranspiration_mm). T
 
 Files written:
 
-  capture_daily.csv    one row per day: potential and actual transpiration, infiltration, runoff,
-                       drainage, storage and the daily water-balance error, mm
+  capture_daily.csv    one row per day: potential and actual transpiration, soil evaporation,
+                       infiltration, runoff, drainage, storage and the daily water-balance error, mm;
+                       nitrate uptake, leaching and balance
   capture_layers.csv   one row per day and soil cell: water content, pressure head, uptake, root length
   capture_traits.json  seasonal transpiration, water taken up below a stated depth, stress days, ...
   water_content.png, cumulative_uptake.png, season_summary.png

@@ -1,6 +1,7 @@
 """The compiled growth of one plant: every time step of a run in one call (numba ``njit``).
 
-One call of :func:`grow_plant` grows a plant from sowing to the end of the run with the plant's own
+:func:`grow_plant` (a compiled generator: one ``next()`` without checkpoints, or one per checkpoint day when a
+driver pauses it, e.g. the coupled soil-water season) grows a plant from sowing to the end of the run with the plant's own
 :class:`numpy.random.Generator`: emergence events, elongation under soil impedance, headings (exact
 tropism maps and the exact Brownian step, :mod:`rootsim.growth.tropisms`), soil look-ups
 (:mod:`rootsim.growth.soil`), branch points, lateral activation, per-root parameter draws
