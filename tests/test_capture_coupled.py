@@ -253,3 +253,19 @@ def test_cli_bad_input_one_line_exit_2(tmp_path, args, expected, capsys):
     lines = err.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("error: ") and expected in lines[0]
     assert not (tmp_path / "x").exists()
+
+
+def test_segment_budget_stops_a_coupled_run_with_a_one_line_error(setup, dry_weather, tmp_path, capsys):
+    from rootsim.errors import SegmentBudgetError
+
+    def small_budget(data):
+        data["run"]["max_segments"] = 2000
+
+    with pytest.raises(SegmentBudgetError, match="2,?000"):
+        run_coupled_season(_spec(edit=small_budget), setup, dry_weather, last_day=DAYS, progress=False)
+    spec_file = tmp_path / "tight.toml"
+    spec_file.write_text(f'based_on = "{SPEC}"\n[run]\nmax_segments = 2000\n')
+    code, err = _capture("--grow", spec_file, "--soil-water", SOIL, "--weather", WEATHER, "--out", tmp_path / "y",
+                         cwd=tmp_path, capsys=capsys)
+    assert code == 2 and err.count("\n") == 1 and err.startswith("error: ")
+    assert not (tmp_path / "y").exists()

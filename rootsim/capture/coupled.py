@@ -124,19 +124,21 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     budget = int(spec.run.max_segments)
     checkpoints = np.asarray([d for d in days if d <= duration + 1e-9], dtype=np.float64)
     length_per_cell = np.zeros(n_cells)
-    plants_running = [plant_steps(inputs, k, segment_limit=budget, root_limit=budget, checkpoint_days=checkpoints,
-                                  length_cell_cm=cell, length_per_cell=length_per_cell)
+    stops = [np.zeros(3) for _ in range(inputs.n_plants)]
+    plants_running = [plant_steps(inputs, k, segment_limit=budget, root_limit=budget, stop_out=stops[k],
+                                  checkpoint_days=checkpoints, length_cell_cm=cell, length_per_cell=length_per_cell)
                       for k in range(inputs.n_plants)]
     finished: list = [None] * inputs.n_plants
     segments_now = np.zeros(inputs.n_plants, dtype=np.int64)
 
     def advance(k: int, day: float) -> None:
         """Plant ``k`` to its next checkpoint, or to the end."""
-        out = next(plants_running[k])
-        segments_now[k] = out[4]
-        if out[8] == STATUS_CHECKPOINT:
-            return
-        finished[k] = plant_result(out, k, budget=budget)
+        out = next(plants_running[k], None)
+        if out is not None:
+            segments_now[k] = out[4]
+            if out[8] == STATUS_CHECKPOINT:
+                return
+        finished[k] = plant_result(out, k, stop_out=stops[k], budget=budget)
         plants_running[k] = None
         if int(segments_now.sum()) > budget:
             raise SegmentBudgetError(budget, int(segments_now.sum()), day, store="segments", plant=k)

@@ -299,8 +299,11 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
     n_roots = 0
     with progress_bar(total=duration * inputs.n_plants, desc="growing", enabled=progress) as bar:
         for k in range(inputs.n_plants):
-            out = next(plant_steps(inputs, k, segment_limit=budget - n_segments, root_limit=budget - n_roots))
-            plant = plant_result(out, k, budget=budget, segments_before=n_segments, roots_before=n_roots)
+            stop_out = np.zeros(3)
+            out = next(plant_steps(inputs, k, segment_limit=budget - n_segments, root_limit=budget - n_roots,
+                                   stop_out=stop_out), None)
+            plant = plant_result(out, k, stop_out=stop_out, budget=budget, segments_before=n_segments,
+                                 roots_before=n_roots)
             del out
             n_segments += plant.n_segments
             n_roots += plant.n_roots
@@ -353,21 +356,29 @@ def growth_inputs(spec: Spec, *, replace_fields=None) -> GrowthInputs:
 
 
 def plant_steps(inputs: GrowthInputs, k: int, *, segment_limit: int, root_limit: int,
-                checkpoint_days: np.ndarray = _NO_CHECKPOINTS, length_cell_cm: float = 1.0,
+                stop_out: np.ndarray, checkpoint_days: np.ndarray = _NO_CHECKPOINTS, length_cell_cm: float = 1.0,
                 length_per_cell: np.ndarray = _NO_CELLS):
     """The compiled generator growing plant ``k`` (:func:`rootsim.growth.step.grow_plant`): each ``next()``
-    runs to the next of ``checkpoint_days`` or to the end (the final item, status ``STATUS_OK``)."""
+    runs to the next of ``checkpoint_days`` or to the end (the final item, status ``STATUS_OK``); a plant that
+    stops at a store's limit ends without a final item and writes status, count and day into ``stop_out``
+    (float64, shape (3,))."""
     rng = np.random.default_rng(inputs.seeds[k])
     x, y, z = inputs.positions[k]
     return grow_plant(rng, float(x), float(y), float(z), *inputs.leading, int(segment_limit), int(root_limit),
                       int(inputs.spec.run.max_segments), *inputs.soil_3d,
-                      np.ascontiguousarray(checkpoint_days, dtype=np.float64), float(length_cell_cm), length_per_cell)
+                      np.ascontiguousarray(checkpoint_days, dtype=np.float64), float(length_cell_cm), length_per_cell,
+                      stop_out)
 
 
-def plant_result(out, k: int, *, budget: int, segments_before: int = 0, roots_before: int = 0) -> _PlantResult:
-    """The final item of a plant's generator as a :class:`_PlantResult` (a :class:`SegmentBudgetError` if it
-    stopped at a store's limit; ``*_before``: what earlier plants hold, for the message)."""
-    status, count, day = out[8:11]
+def plant_result(out, k: int, *, stop_out: np.ndarray, budget: int, segments_before: int = 0,
+                 roots_before: int = 0) -> _PlantResult:
+    """The final item of a plant's generator as a :class:`_PlantResult`; ``out`` None (the generator ended
+    without one) raises a :class:`SegmentBudgetError` from ``stop_out`` (``*_before``: what earlier plants
+    hold, for the message)."""
+    if out is None:
+        status, count, day = int(stop_out[0]), int(stop_out[1]), float(stop_out[2])
+    else:
+        status, count, day = out[8:11]
     if status != STATUS_OK:
         before = {STATUS_SEGMENTS: segments_before, STATUS_ROOTS: roots_before}.get(status, 0)
         raise SegmentBudgetError(budget, count + before, day, store=_STORE_NAMES[status], plant=k)

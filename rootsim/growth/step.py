@@ -27,7 +27,6 @@ import numpy as np
 from numba import njit
 from numba.typed import List
 
-from . import generator_liveness
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
 from ..soil.biopores import biopore_at
@@ -109,13 +108,15 @@ _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length ha
 _MIN_STEP_CM = 1e-9
 _FIRST_CHUNK = 4096
 
-generator_liveness.apply()  # before grow_plant (a numba generator) compiles
-
 
 @njit(**JIT)
-def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
-             day, pore_chunks):
-    """The return value of a plant whose growth stopped at a store's limit."""
+def _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status,
+             count, day, pore_chunks):
+    """The return value of a plant whose growth stopped at a store's limit; status, count and day are also
+    written into ``stop_out`` (a generator's return value does not reach its caller)."""
+    stop_out[0] = status
+    stop_out[1] = count
+    stop_out[2] = day
     return (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:n_roots].copy(),
             rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day, pore_chunks)
 
@@ -276,7 +277,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
                tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
-               checkpoint_days, length_cell_cm, length_per_cell):
+               checkpoint_days, length_cell_cm, length_per_cell, stop_out):
     """Grow one plant over the whole run, pausing at checkpoints (a numba generator).
 
     A generator: each ``next()`` runs until the next checkpoint or the end. Arrays passed in are shared with
@@ -335,6 +336,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     length_per_cell : ndarray, shape (n_cells,)
         Accumulator (size 0: none): every new segment adds its length to the cells its depth span crosses,
         split exactly (:func:`_add_length_by_depth`); length below the last cell is not counted.
+    stop_out : ndarray of float64, shape (3,)
+        Written when growth stops at a store's limit: status, the count reached, the day. The generator then
+        ends without a final item (``next`` raises ``StopIteration``).
 
     Yields
     ------
@@ -453,9 +457,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
-                    return
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
                 _draw_root_parameters(rng, kind, values, cls, params)
@@ -614,9 +617,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 stepped[j] = root
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
-                        yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                        return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                         rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0, pore_chunks)
-                        return
                     c = chunk_used
                     c_x0[c] = sx
                     c_y0[c] = sy
@@ -646,9 +648,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         child = branch_class[cls, pick] if pick < n_branch_options else -1
                         if child >= 0:
                             if n_pend >= pending_limit:
-                                yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
-                                return
                             if free_row >= 0:
                                 q = free_row
                                 free_row = pendi[q, Q_NEXT]
@@ -656,9 +657,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 q = n_pend_rows
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
-                                yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
-                                return
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
                             pendf[q, Q_Y] = sy + frac * seg_y
@@ -733,9 +733,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
             while q >= 0 and alive and rootf[pr, R_LEN] >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    yield _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
-                    return
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
