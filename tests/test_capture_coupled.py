@@ -237,6 +237,8 @@ def test_cli_grow_writes_one_committed_folder(tmp_path, capsys):
                                       "capture_traits.json"}
     traits = json.loads((out / "capture_traits.json").read_text())
     assert traits["coupled"] is True and traits["growth_days"] == 8.0
+    daily_evaporation = pd.read_csv(out / "capture_daily.csv")["soil_evaporation_mm"].sum()
+    assert traits["seasonal_soil_evaporation_mm"] == pytest.approx(daily_evaporation, rel=1e-6)
     daily = pd.read_csv(out / "capture_daily.csv")
     assert len(daily) == 121 and "soil_evaporation_mm" in daily
 
@@ -246,6 +248,10 @@ def test_cli_grow_writes_one_committed_folder(tmp_path, capsys):
     (["somewhere", "--grow", SPEC, "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"], "not both"),
     (["--soil-water", SOIL, "--weather", WEATHER], "RESULT_DIR is missing"),
     (["--grow", "nothing.toml", "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"], "nothing.toml"),
+    (["--grow", ROOT / "params" / "field_plough_pan.toml", "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"],
+     "development.clock"),
+    (["--grow", SPEC, "--soil-water", SOIL, "--weather", ROOT / "params" / "capture" / "weather_drying_season.csv",
+      "--out", "x", "--no-coupling", "--days", "-3"], "duration_days"),
 ])
 def test_cli_bad_input_one_line_exit_2(tmp_path, args, expected, capsys):
     code, err = _capture(*args, cwd=tmp_path, capsys=capsys)

@@ -323,6 +323,8 @@ def capture_traits(daily: pd.DataFrame, layers: pd.DataFrame, *, setup: SoilWate
         "drainage_mm": float(daily["drainage_mm"].sum()),
         "largest_daily_water_balance_error_mm": float(np.abs(daily["water_balance_error_mm"]).max()),
     }
+    if "soil_evaporation_mm" in daily:
+        traits["seasonal_soil_evaporation_mm"] = float(daily["soil_evaporation_mm"].sum())
     if "nitrate_uptake_kg_n_per_ha" in daily:
         applied = float(daily["nitrate_fertilizer_kg_n_per_ha"].sum())
         taken = float(daily["nitrate_uptake_kg_n_per_ha"].sum())
