@@ -96,7 +96,8 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     CaptureError
         A thermal-clock spec (not supported here), or bad soil-water / weather input.
     SegmentBudgetError
-        The stand would pass ``run.max_segments``.
+        The stand would pass ``run.max_segments``: the plants' segments together are checked at every day (each
+        plant alone never passes the budget; within a day the plants together may hold more before the check).
     """
     from ..growth.engine import growth_inputs, plant_result, plant_steps, root_system
     from ..growth.step import STATUS_CHECKPOINT
@@ -108,10 +109,10 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     days = season_days(weather, last_day=last_day)
     n_cells, cell = setup.n_cells, setup.cell_cm
     centres = (np.arange(n_cells) + 0.5) * cell
-    season_probe = setup.soil.water_content(setup.initial_head_cm.astype(np.float64))
+    initial_water_content = setup.soil.water_content(setup.initial_head_cm.astype(np.float64))
     replace = None
     if couple:
-        replace = {"volumetric_water_content": [depth_table_source(centres, season_probe)],
+        replace = {"volumetric_water_content": [depth_table_source(centres, initial_water_content)],
                    "matric_potential_kpa": [depth_table_source(centres, KPA_PER_CM_OF_WATER
                                                                * setup.initial_head_cm.astype(np.float64))]}
     inputs = growth_inputs(spec, replace_fields=replace)
