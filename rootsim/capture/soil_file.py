@@ -23,6 +23,10 @@ Example (``params/capture/soil_water_loam.toml``)::
     [nitrate]                        # see rootsim.capture.nitrate (initial_nitrate_n_mg_per_l, dispersivity_cm,
                                      # diffusion_in_water_cm2_per_day, max_uptake_mg_n_per_cm_root_per_day,
                                      # half_saturation_mg_n_per_l)
+    [evaporation]                    # optional: soil evaporation by FAO-56's two stages (rootsim.capture.evaporation):
+                                     # readily_evaporable_water_mm, total_evaporable_water_mm,
+                                     # evaporating_layer_cm, crop_cover_fraction, maximum_crop_coefficient,
+                                     # initial_depletion_mm
     [traits]
     deep_water_below_cm = 60.0       # "water taken from below" this depth
     stress_ratio_below = 0.9         # a stress day: actual / potential transpiration below this
@@ -41,6 +45,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import CaptureError
+from .evaporation import SoilEvaporationParameters
 from .hydraulics import TEXTURE_CLASSES, VanGenuchtenMualem, check_van_genuchten
 from .richards import BOTTOM_CONDITIONS
 from .nitrate import NitrateParameters
@@ -73,6 +78,7 @@ class SoilWaterSetup:
     nitrate: NitrateParameters = NitrateParameters()
     latitude_deg: float | None = None
     first_day_of_year: int | None = None
+    evaporation: SoilEvaporationParameters | None = None  # [evaporation]: FAO-56 two-stage; None: none
 
     @property
     def n_cells(self) -> int:
@@ -100,7 +106,8 @@ def _unknown(table: dict, allowed: set, where: str) -> None:
 
 def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterSetup:
     """Validate a parsed soil-water file (see the module docstring); one-line errors naming file and key."""
-    _unknown(data, {"name", "column", "horizons", "uptake", "transpiration", "traits", "nitrate"}, source)
+    _unknown(data, {"name", "column", "horizons", "uptake", "transpiration", "traits", "nitrate", "evaporation"},
+             source)
     column = data.get("column", {})
     if not isinstance(column, dict):
         raise CaptureError(f"{source}: column: must be a table (allowed: [column] with depth_cm, cell_cm, ...)")
@@ -183,9 +190,19 @@ def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterS
     _unknown(nitrate_table, nitrate_keys, f"{source}: nitrate")
     nitrate = NitrateParameters(**{k: _number(nitrate_table, k, f"{source}: nitrate", low=0.0, high=1e6)
                                    for k in nitrate_table})
+    evaporation = None
+    if "evaporation" in data:
+        table = data["evaporation"]
+        where = f"{source}: evaporation"
+        if not isinstance(table, dict):
+            raise CaptureError(f"{where}: must be a table (allowed: [evaporation] with readily_evaporable_water_mm, "
+                               "total_evaporable_water_mm, ...)")
+        _unknown(table, {f.name for f in fields(SoilEvaporationParameters)}, where)
+        evaporation = SoilEvaporationParameters(**{k: _number(table, k, where, low=0.0, high=1000.0)
+                                                   for k in table}).check(where)
     name = str(data.get("name", Path(source).stem))
     return SoilWaterSetup(source, name, depth, cell, bottom, soil, arrays["h0"], feddes, coefficient, deep, stress,
-                          nitrate, latitude, first_day_of_year)
+                          nitrate, latitude, first_day_of_year, evaporation)
 
 
 def read_soil_water_file(path: str | os.PathLike) -> SoilWaterSetup:

@@ -15,6 +15,7 @@ the store.
 from __future__ import annotations
 
 import math
+from typing import NamedTuple
 
 import numpy as np
 
@@ -84,7 +85,7 @@ def _emergence_events(spec: Spec, classes: ClassTable):
             np.asarray(columns[6], dtype=np.float64))
 
 
-def _soil_inputs(spec: Spec, classes: ClassTable):
+def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
     """Arguments of the compiled step for 3D soil fields and biopores, and whether the spec has biopores.
 
     The layer arrays (:func:`~rootsim.growth.soil.soil_arrays`) serve specs that only have ``[[soil.layers]]``
@@ -94,7 +95,8 @@ def _soil_inputs(spec: Spec, classes: ClassTable):
     sensitivity of ``[soil]`` (:mod:`rootsim.soil.strength`); biopores come from
     :func:`rootsim.soil.build.biopores_from_spec` (seeded by ``run.seed``). Per class: the field index and
     strength of ``field_tropism`` and the field index, half-saturation value and maximum factor of
-    ``proliferation`` (-1: none).
+    ``proliferation`` (-1: none). ``replace_fields`` (name -> sources) replaces or adds fields before compiling
+    (:func:`rootsim.soil.build.soil_fields_from_spec`); the compiled fields are returned last.
     """
     from ..soil.biopores import biopores_from_list
     from ..soil.build import biopores_from_spec, soil_fields_from_spec
@@ -105,7 +107,7 @@ def _soil_inputs(spec: Spec, classes: ClassTable):
     responds = any(c.field_tropism is not None or c.proliferation is not None for c in classes.classes)
     use = bool(soil.fields) or soil.biopores is not None or soil.elongation_response != "exponential" \
         or soil.resistance_radius_exponent != 0 or responds
-    fields = soil_fields_from_spec(spec) if use else compile_fields({})
+    fields = soil_fields_from_spec(spec, replace=replace_fields) if use else compile_fields({})
     pores = biopores_from_spec(spec) if soil.biopores is not None else None
     empty = np.zeros((0, 3))
     compiled_pores = (pores if pores is not None else biopores_from_list(empty, empty, np.zeros(0))).compiled
@@ -131,7 +133,7 @@ def _soil_inputs(spec: Spec, classes: ClassTable):
             proliferation_half[c] = root_class.proliferation.half_saturation_value
             proliferation_max[c] = root_class.proliferation.maximum_factor
     arguments += (tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max)
-    return arguments, pores is not None
+    return arguments, pores is not None, fields
 
 
 def _metadata(spec: Spec, positions: np.ndarray, class_names: list[str]) -> dict:
@@ -337,49 +339,107 @@ def grow(spec: Spec, *, seed: int | None = None, days: float | None = None, step
     from ..progress import progress_bar
 
     spec = spec.with_overrides(seed=seed, duration_days=days, time_step_days=step_days, max_segments=max_segments)
-    classes = ClassTable(spec)
-    positions = plant_positions(spec)
-    n_plants = len(positions)
-    events = _emergence_events(spec, classes)
-    bottoms, factor, tops, sin_max = soil_arrays(spec.soil)
-    soil = (bottoms, factor, tops, float(sin_max))
-    box = container_box(spec.container)
-    soil_3d, has_pores = _soil_inputs(spec, classes)
-    log_x, ratio = tangent_variance_table()
+    inputs = growth_inputs(spec)
     duration = spec.run.duration_days
-    dt = spec.run.time_step_days
-    n_steps = max(1, math.ceil(duration / dt - 1e-9))
     budget = spec.run.max_segments
-    tables = (classes.parameter_kind, classes.parameter_values, classes.law_negexp, classes.spiral,
-              np.asarray(classes.spiral_divergence_rad, dtype=np.float64), classes.branch_cumulative_probability,
-              classes.branch_class)
-    seeds = np.random.SeedSequence(spec.run.seed).spawn(n_plants)
     plants: list[_PlantResult] = []
     n_segments = 0
     n_roots = 0
-    with progress_bar(total=duration * n_plants, desc="growing", enabled=progress) as bar:
-        for k in range(n_plants):
-            rng = np.random.default_rng(seeds[k])
-            x, y, z = positions[k]
-            # Plain Python scalars of fixed types: one compiled (and cached) version serves every spec.
-            out = grow_plant(rng, float(x), float(y), float(z), *events, *tables, *soil, box, log_x, ratio,
-                             float(duration), float(dt), int(n_steps), bool(classes.has_lifespan),
-                             int(budget - n_segments), int(budget - n_roots), int(budget), *soil_3d,
-                             classes.development)
-            status, count, day = out[8:11]
-            if status != STATUS_OK:
-                before = {STATUS_SEGMENTS: n_segments, STATUS_ROOTS: n_roots}.get(status, 0)  # earlier plants
-                reached = count + before
-                raise SegmentBudgetError(budget, reached, day, store=_STORE_NAMES[status], plant=k)
-            plant = _PlantResult(out)
+    with progress_bar(total=duration * inputs.n_plants, desc="growing", enabled=progress) as bar:
+        for k in range(inputs.n_plants):
+            stop_out = np.zeros(3)
+            out = next(plant_steps(inputs, k, segment_limit=budget - n_segments, root_limit=budget - n_roots,
+                                   stop_out=stop_out), None)
+            plant = plant_result(out, k, stop_out=stop_out, budget=budget, segments_before=n_segments,
+                                 roots_before=n_roots)
             del out
             n_segments += plant.n_segments
             n_roots += plant.n_roots
             plants.append(plant)
             bar.update(duration)
-    columns = _assemble(plants, classes.names, in_biopore=has_pores)
+    return root_system(inputs, plants, keep_dead_roots=keep_dead_roots)
+
+
+class GrowthInputs(NamedTuple):
+    """Everything the compiled step needs for a spec's plants (:func:`growth_inputs`)."""
+
+    spec: Spec
+    classes: ClassTable
+    positions: np.ndarray
+    seeds: list
+    leading: tuple     # arguments of grow_plant before the seed position ... up to the store limits
+    soil_3d: tuple     # arguments of grow_plant after the store limits (fields, biopores, responses)
+    has_pores: bool
+    fields: object     # the compiled SoilFields the step reads (shared arrays)
+
+    @property
+    def n_plants(self) -> int:
+        return len(self.positions)
+
+
+_NO_CHECKPOINTS = np.zeros(0)
+_NO_CELLS = np.zeros(0)
+
+
+def growth_inputs(spec: Spec, *, replace_fields=None) -> GrowthInputs:
+    """Arguments of the compiled step for every plant of ``spec`` (``replace_fields``: see :func:`_soil_inputs`)."""
+    classes = ClassTable(spec)
+    positions = plant_positions(spec)
+    events = _emergence_events(spec, classes)
+    bottoms, factor, tops, sin_max = soil_arrays(spec.soil)
+    box = container_box(spec.container)
+    soil_3d, has_pores, fields = _soil_inputs(spec, classes, replace_fields=replace_fields)
+    log_x, ratio = tangent_variance_table()
+    duration = spec.run.duration_days
+    dt = spec.run.time_step_days
+    n_steps = max(1, math.ceil(duration / dt - 1e-9))
+    tables = (classes.parameter_kind, classes.parameter_values, classes.law_negexp, classes.spiral,
+              np.asarray(classes.spiral_divergence_rad, dtype=np.float64), classes.branch_cumulative_probability,
+              classes.branch_class)
+    # Plain Python scalars of fixed types: one compiled (and cached) version serves every spec.
+    leading = (*events, *tables, bottoms, factor, tops, float(sin_max), box, log_x, ratio, float(duration),
+               float(dt), int(n_steps), bool(classes.has_lifespan))
+    seeds = np.random.SeedSequence(spec.run.seed).spawn(len(positions))
+    return GrowthInputs(spec, classes, positions, seeds, leading, soil_3d, has_pores, fields)
+
+
+def plant_steps(inputs: GrowthInputs, k: int, *, segment_limit: int, root_limit: int,
+                stop_out: np.ndarray, checkpoint_days: np.ndarray = _NO_CHECKPOINTS, length_cell_cm: float = 1.0,
+                length_per_cell: np.ndarray = _NO_CELLS):
+    """The compiled generator growing plant ``k`` (:func:`rootsim.growth.step.grow_plant`): each ``next()``
+    runs to the next of ``checkpoint_days`` or to the end (the final item, status ``STATUS_OK``); a plant that
+    stops at a store's limit ends without a final item and writes status, count and day into ``stop_out``
+    (float64, shape (3,))."""
+    rng = np.random.default_rng(inputs.seeds[k])
+    x, y, z = inputs.positions[k]
+    return grow_plant(rng, float(x), float(y), float(z), *inputs.leading, int(segment_limit), int(root_limit),
+                      int(inputs.spec.run.max_segments), *inputs.soil_3d, inputs.classes.development,
+                      np.ascontiguousarray(checkpoint_days, dtype=np.float64), float(length_cell_cm), length_per_cell,
+                      stop_out)
+
+
+def plant_result(out, k: int, *, stop_out: np.ndarray, budget: int, segments_before: int = 0,
+                 roots_before: int = 0) -> _PlantResult:
+    """The final item of a plant's generator as a :class:`_PlantResult`; ``out`` None (the generator ended
+    without one) raises a :class:`SegmentBudgetError` from ``stop_out`` (``*_before``: what earlier plants
+    hold, for the message)."""
+    if out is None:
+        status, count, day = int(stop_out[0]), int(stop_out[1]), float(stop_out[2])
+    else:
+        status, count, day = out[8:11]
+    if status != STATUS_OK:
+        before = {STATUS_SEGMENTS: segments_before, STATUS_ROOTS: roots_before}.get(status, 0)
+        raise SegmentBudgetError(budget, count + before, day, store=_STORE_NAMES[status], plant=k)
+    return _PlantResult(out)
+
+
+def root_system(inputs: GrowthInputs, plants: list, *, keep_dead_roots: bool = False) -> RootSystem:
+    """The segment table of the plants' results (in plant order) as a :class:`RootSystem` (``keep_dead_roots``:
+    see :func:`grow`)."""
+    classes = inputs.classes
+    columns = _assemble(plants, classes.names, in_biopore=inputs.has_pores)
     if keep_dead_roots:
         columns = _with_death_day(columns, plants)
     elif classes.has_lifespan:
         columns = _drop_dead(columns, plants)
-    return RootSystem(columns, _metadata(spec, positions, classes.names), validate=False)
+    return RootSystem(columns, _metadata(inputs.spec, inputs.positions, classes.names), validate=False)

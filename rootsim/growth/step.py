@@ -1,6 +1,7 @@
 """The compiled growth of one plant: every time step of a run in one call (numba ``njit``).
 
-One call of :func:`grow_plant` grows a plant from sowing to the end of the run with the plant's own
+:func:`grow_plant` (a compiled generator: one ``next()`` without checkpoints, or one per checkpoint day when a
+driver pauses it, e.g. the coupled soil-water season) grows a plant from sowing to the end of the run with the plant's own
 :class:`numpy.random.Generator`: emergence events, elongation under soil impedance, headings (exact
 tropism maps and the exact Brownian step, :mod:`rootsim.growth.tropisms`), soil look-ups
 (:mod:`rootsim.growth.soil`), branch points, lateral activation, per-root parameter draws
@@ -48,11 +49,13 @@ from .tropisms import (
 
 __all__ = ["grow_plant", "chunk_item", "copy_root_columns", "copy_parent_column", "SEGMENT_FLOAT_FIELDS",
            "SEGMENT_INT_FIELDS", "ROOT_FLOAT_FIELDS", "ROOT_INT_FIELDS",
-           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM"]
+           "STATUS_OK", "STATUS_SEGMENTS", "STATUS_ROOTS", "STATUS_PENDING", "BYTES_PER_ITEM", "STATUS_CHECKPOINT"]
 
 SEGMENT_FLOAT_FIELDS = ("x0", "y0", "z0", "x1", "y1", "z1", "length_cm", "birth_day")
 SEGMENT_INT_FIELDS = ("parent_local", "root_local")  # int64, int32
 STATUS_OK, STATUS_SEGMENTS, STATUS_ROOTS, STATUS_PENDING = 0, 1, 2, 3
+#: Status of a checkpoint yield of :func:`grow_plant` (growth paused; resume with ``next``).
+STATUS_CHECKPOINT = 4
 
 # Per-root parameter columns.
 P_RADIUS = PARAM_NAMES.index("radius_cm")
@@ -109,9 +112,13 @@ _FIRST_CHUNK = 4096
 
 
 @njit(**JIT)
-def _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status, count,
-             day, pore_chunks):
-    """The return value of a plant whose growth stopped at a store's limit."""
+def _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg, rootf, rooti, n_roots, status,
+             count, day, pore_chunks):
+    """The return value of a plant whose growth stopped at a store's limit; status, count and day are also
+    written into ``stop_out`` (a generator's return value does not reach its caller)."""
+    stop_out[0] = status
+    stop_out[1] = count
+    stop_out[2] = day
     return (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:n_roots].copy(),
             rooti[:n_roots].copy(), np.zeros(n_roots, dtype=np.bool_), status, count, day, pore_chunks)
 
@@ -262,6 +269,28 @@ def _passing_time(dev, cls, law_negexp_class, length, position, max_len, rate, g
     return time_at_growth_time(dev, cls, growth_time(dev, cls, start) + after)
 
 
+@njit(**JIT_BORROW)
+def _add_length_by_depth(length_per_cell, cell_cm, depth0, depth1, length):
+    """Add a straight segment's ``length`` to the cells of thickness ``cell_cm`` (cell k: depth
+    ``[k, k + 1) * cell_cm``) in proportion to the part of its depth span in each (exact for a straight
+    segment); a level segment goes to the cell holding it. Length below the last cell is not counted."""
+    n = length_per_cell.size
+    low = min(depth0, depth1)
+    high = max(depth0, depth1)
+    span = high - low
+    if not span > 0:
+        cell = int(math.floor(low / cell_cm))
+        if 0 <= cell < n:
+            length_per_cell[cell] += length
+        return
+    first = max(int(math.floor(low / cell_cm)), 0)
+    last = min(int(math.floor(high / cell_cm)), n - 1)
+    for cell in range(first, last + 1):
+        part = min(high, (cell + 1) * cell_cm) - max(low, cell * cell_cm)
+        if part > 0:
+            length_per_cell[cell] += length * part / span
+
+
 @njit(**JIT)
 def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count, event_depth, event_jitter_rad,
                kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
@@ -270,8 +299,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
                tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
-               dev):
-    """Grow one plant over the whole run.
+               dev, checkpoint_days, length_cell_cm, length_per_cell, stop_out):
+    """Grow one plant over the whole run, pausing at checkpoints (a numba generator).
+
+    A generator: each ``next()`` runs until the next checkpoint or the end. Arrays passed in are shared with
+    the caller, so values changed in place between two ``next()`` calls (e.g. the ``data`` of ``fields``
+    updated by a soil-water model) are what the following steps read. ``grow`` passes no checkpoints and
+    takes the single (final) item.
 
     Parameters
     ----------
@@ -317,9 +351,22 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     dev : rootsim.growth.plant_age.DevelopmentTables
         Per class: apical zone as a time, and the elongation-rate multiplier by plant age (the laws are
         integrated exactly over it, in growth time).
+    checkpoint_days : ndarray, shape (n_checkpoints,)
+        Increasing times (days): before the first step that starts at or after a checkpoint (steps of
+        ``step_days`` from day 0), the generator yields a checkpoint item (status ``STATUS_CHECKPOINT``,
+        ``status_count`` the checkpoint's number, ``status_day`` the time reached, empty root tables);
+        checkpoints after the start of the last step are not yielded (the final item comes instead).
+    length_cell_cm : float
+        Thickness of the cells of ``length_per_cell`` (depth ``[k, k + 1) * length_cell_cm``).
+    length_per_cell : ndarray, shape (n_cells,)
+        Accumulator (size 0: none): every new segment adds its length to the cells its depth span crosses,
+        split exactly (:func:`_add_length_by_depth`); length below the last cell is not counted.
+    stop_out : ndarray of float64, shape (3,)
+        Written when growth stops at a store's limit: status, the count reached, the day. The generator then
+        ends without a final item (``next`` raises ``StopIteration``).
 
-    Returns
-    -------
+    Yields
+    ------
     float_chunks, parent_chunks, root_chunks : list of ndarray
         Segment columns in chunks: ``SEGMENT_FLOAT_FIELDS`` of chunk 0, then of chunk 1, ...; parents
         (segment numbers within the plant, -1 none) and roots (root numbers within the plant) per chunk.
@@ -387,6 +434,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         row = 0 if kind[c, P_INTERBRANCH] == FIXED else 4
         min_interbranch[c] = values[c, P_INTERBRANCH, row] / proliferation_max[c]
     ev = 0
+    checkpoint = 0
+    counting_length = length_per_cell.size > 0
     status = STATUS_OK
     status_count = 0
     status_day = 0.0
@@ -408,6 +457,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 break
             t0 = duration
             t1 = duration
+        while k < n_steps and checkpoint < checkpoint_days.size and checkpoint_days[checkpoint] <= t0 + 1e-9:
+            yield (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:0].copy(),
+                   rooti[:0].copy(), np.zeros(0, dtype=np.bool_), STATUS_CHECKPOINT, checkpoint, t0, pore_chunks)
+            checkpoint += 1
         k += 1
         if 4 * n_done > n_tips:  # drop finished tips once they are a quarter of the table (order kept)
             kept = 0
@@ -429,7 +482,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             whorl_turn = 2 * math.pi * rng.random()
             for slot in range(count):
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
                 jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
@@ -593,7 +646,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 stepped[j] = root
                 if ds > _MIN_STEP_CM and seg_len > 0:
                     if n_seg >= segment_limit:
-                        return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                        return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                         rootf, rooti, n_roots, STATUS_SEGMENTS, n_seg, t0, pore_chunks)
                     c = chunk_used
                     c_x0[c] = sx
@@ -607,6 +660,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     c_parent[c] = tipi[j, T_LAST]
                     c_root[c] = root
                     c_pore[c] = 1 if pore >= 0 else 0
+                    if counting_length:
+                        _add_length_by_depth(length_per_cell, length_cell_cm, -sz, -ez, seg_len)
                     seg_id = n_seg
                     chunk_used += 1
                     n_seg += 1
@@ -623,7 +678,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         child = branch_class[cls, pick] if pick < n_branch_options else -1
                         if child >= 0:
                             if n_pend >= pending_limit:
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
                             if free_row >= 0:
                                 q = free_row
@@ -632,7 +687,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                 q = n_pend_rows
                                 n_pend_rows += 1
                             else:  # not reached: room was made above
-                                return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                                return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                                 rootf, rooti, n_roots, STATUS_PENDING, n_pend, t0, pore_chunks)
                             frac = min(max((nxt - length) / seg_len, 0.0), 1.0)
                             pendf[q, Q_X] = sx + frac * seg_x
@@ -714,7 +769,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             reached = t1 if by_time else rootf[pr, R_LEN]
             while q >= 0 and alive and reached >= pendf[q, Q_THRESHOLD]:
                 if n_roots >= root_limit:
-                    return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
+                    return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
                 parent_cls = rooti[pr, R_CLASS]
                 if by_time:
@@ -766,7 +821,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     counts = np.empty(len(chunk_counts), dtype=np.int64)
     for c in range(counts.size):
         counts[c] = chunk_counts[c]
-    return (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
+    yield (float_chunks, parent_chunks, root_chunks, counts, n_seg, rootf[:n_roots].copy(),
                             rooti[:n_roots].copy(),
             dead_at_end, STATUS_OK, 0, duration, pore_chunks)
 

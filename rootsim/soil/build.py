@@ -239,7 +239,7 @@ def _field_sources(spec, name: str, field_spec) -> list:
     return sources
 
 
-def _fields(spec) -> SoilFields:
+def _fields(spec, replace=None) -> SoilFields:
     soil = spec.soil
     for name in soil.fields:
         if not FIELD_NAME.match(name):
@@ -255,6 +255,7 @@ def _fields(spec) -> SoilFields:
             [l.penetration_resistance_mpa for l in soil.layers])]
     for name, field_spec in soil.fields.items():
         sources[name] = _field_sources(spec, name, field_spec)
+    sources.update(replace or {})
     return compile_fields(sources)
 
 
@@ -303,8 +304,11 @@ def _biopores(spec, *, seed: int | None = None) -> Biopores | None:
                               np.asarray(radii, float), resistance_mpa=bp.resistance_mpa)
 
 
-def soil_fields_from_spec(spec) -> SoilFields:
+def soil_fields_from_spec(spec, *, replace=None) -> SoilFields:
     """Compile a spec's soil fields (``[[soil.layers]]`` become ``penetration_resistance_mpa``).
+
+    ``replace`` (field name -> list of :class:`~rootsim.soil.fields.FieldSource`) replaces those fields' sources
+    or adds the fields (a coupled soil-water season supplies ``volumetric_water_content`` this way).
 
     Raises
     ------
@@ -312,7 +316,7 @@ def soil_fields_from_spec(spec) -> SoilFields:
         A file is missing or malformed, a value out of range, a referenced field undefined.
     """
     try:
-        return _fields(spec)
+        return _fields(spec, replace)
     except _Problem as exc:
         raise SpecError(spec.source, exc.key, exc.problem, exc.allowed) from None
 
