@@ -25,13 +25,18 @@ ROOT = Path(__file__).resolve().parents[1]
 SPEC = ROOT / "params" / "capture" / "cereal_drying_topsoil.toml"
 SOIL = ROOT / "params" / "capture" / "soil_water_loam_evaporating.toml"
 WEATHER = ROOT / "params" / "capture" / "weather_dry_spell_120_days.csv"
-DAYS = 30
+DAYS = 50  # on the example's thermal clock: the first three showery weeks are slow (cool) growth
 
 
-def _spec(days: int = DAYS, *, edit=None):
+def _spec(days: int = DAYS, *, edit=None, clock: str = "thermal"):
+    """The shipped example, one plant, ``days`` long; on its own (the cereal file's) thermal clock, or with
+    ``clock="calendar"`` on calendar days (then the season's days and the growth steps line up, which the exact
+    day-by-day comparisons with the one-way path need)."""
     data = copy.deepcopy(load_spec_layers(SPEC)[0])
     data["run"]["duration_days"] = days
     data["stand"]["plants_per_row"] = 1
+    if clock == "calendar":
+        data["development"] = {"clock": "calendar"}
     if edit is not None:
         edit(data)
     return parse_spec(data, source=str(SPEC))
@@ -82,8 +87,8 @@ def wet_coupled(setup):
 
 
 def test_uncoupled_run_grows_the_same_bytes_as_grow_and_the_same_season_as_the_one_way_path(setup, dry_weather):
-    spec = _spec()
-    result = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=DAYS, progress=False)
+    spec = _spec(days=20, clock="calendar")
+    result = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=20, progress=False)
     grown = grow(spec, progress=False)
     # the resumable (paused every day) growth gives grow()'s table byte for byte
     assert _table_bytes(result["system"]) == _table_bytes(grown)
@@ -91,7 +96,7 @@ def test_uncoupled_run_grows_the_same_bytes_as_grow_and_the_same_season_as_the_o
     # the root length per cell counted inside the compiled step as segments are made equals the exact clipping
     # of the final table by birth day (rootsim.analysis.profile.depth_layer_lengths, an independent path), so the
     # one-way season on the grown table is the same season
-    one_way = run_water_season(grown, setup, dry_weather, last_day=DAYS)
+    one_way = run_water_season(grown, setup, dry_weather, last_day=20)
     np.testing.assert_allclose(result["layers"]["root_length_cm"], one_way["layers"]["root_length_cm"],
                                rtol=1e-10, atol=1e-8)
     for column in ("actual_transpiration_mm", "soil_evaporation_mm", "drainage_mm", "soil_water_storage_mm"):
@@ -194,6 +199,28 @@ def test_hydrotropism_follows_the_column_water_toward_depth(setup, dry_weather):
     assert _depth_centre(toward["system"]) > _depth_centre(without["system"]) + 0.5
 
 
+def test_thermal_clock_pauses_at_each_calendar_day(setup, dry_weather):
+    # On the thermal clock the plants grow on effective days from the spec's weather and pause at the effective
+    # time each calendar day has reached. Uncoupled, the table is grow()'s byte for byte (birth days in calendar
+    # days), the root length counted inside the step never falls, and once growth has ended it equals the exact
+    # clipping of the final table by depth (depth_layer_lengths, an independent path).
+    from rootsim.analysis.profile import depth_layer_lengths
+
+    spec = _spec(days=12, clock="thermal")
+    result = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=15, progress=False)
+    grown = grow(spec, progress=False)
+    assert grown.metadata["development"]["clock"] == "thermal"
+    assert _table_bytes(result["system"]) == _table_bytes(grown)
+    roots = result["layers"]["root_length_cm"].to_numpy().reshape(-1, setup.n_cells)
+    assert np.all(np.diff(roots.sum(axis=1)) >= 0)
+    expected = depth_layer_lengths(-np.asarray(grown["z0"]), -np.asarray(grown["z1"]), np.asarray(grown["length_cm"]),
+                                   layer_cm=setup.cell_cm, n_layers=setup.n_cells)[:, 0]
+    np.testing.assert_allclose(roots[-1], expected, rtol=1e-10, atol=1e-8)
+    # on a cool start (effective days < calendar days) the first days hold less root than the calendar run's
+    calendar = run_coupled_season(_spec(days=12, clock="calendar"), setup, dry_weather, couple=False, last_day=15, progress=False)
+    assert roots[5].sum() < calendar["layers"]["root_length_cm"].to_numpy().reshape(-1, setup.n_cells)[5].sum()
+
+
 def test_same_inputs_give_the_same_bytes(dry_coupled, setup, dry_weather):
     again = run_coupled_season(_spec(), setup, dry_weather, couple=True, last_day=DAYS, progress=False)
     assert _table_bytes(again["system"]) == _table_bytes(dry_coupled["system"])
@@ -203,7 +230,7 @@ def test_same_inputs_give_the_same_bytes(dry_coupled, setup, dry_weather):
 def test_growth_longer_than_the_season_and_season_longer_than_growth(setup, dry_weather):
     # growth continues after the last day of the season, and the season continues after growth ends: both end
     # with the same roots grow() makes when the soil is not coupled
-    spec = _spec(days=12)
+    spec = _spec(days=12, clock="calendar")
     short_season = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=5, progress=False)
     long_season = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=20, progress=False)
     grown = _table_bytes(grow(spec, progress=False))
@@ -248,8 +275,6 @@ def test_cli_grow_writes_one_committed_folder(tmp_path, capsys):
     (["somewhere", "--grow", SPEC, "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"], "not both"),
     (["--soil-water", SOIL, "--weather", WEATHER], "RESULT_DIR is missing"),
     (["--grow", "nothing.toml", "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"], "nothing.toml"),
-    (["--grow", ROOT / "params" / "field_plough_pan.toml", "--soil-water", SOIL, "--weather", WEATHER, "--out", "x"],
-     "development.clock"),
     (["--grow", SPEC, "--soil-water", SOIL, "--weather", ROOT / "params" / "capture" / "weather_drying_season.csv",
       "--out", "x", "--no-coupling", "--days", "-3"], "duration_days"),
 ])

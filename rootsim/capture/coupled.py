@@ -72,8 +72,10 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     Parameters
     ----------
     spec : Spec
-        Growth parameters (calendar clock). ``run.duration_days`` sets how long the roots grow; the season runs
-        over the weather table's days (or up to ``last_day``).
+        Growth parameters. ``run.duration_days`` sets how long the roots grow (calendar days); the season runs
+        over the weather table's days (or up to ``last_day``). On a thermal clock (``[development]``) the
+        plants grow on effective days from the spec's own weather table and pause at the effective time each
+        calendar day of the season has reached; ``birth_day`` comes back in calendar days.
     setup : SoilWaterSetup
         The soil-water column (:func:`rootsim.capture.read_soil_water_file`).
     weather : WeatherTable
@@ -94,7 +96,7 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     Raises
     ------
     CaptureError
-        A thermal-clock spec (not supported here), or bad soil-water / weather input.
+        Bad soil-water / weather input.
     SegmentBudgetError
         The stand would pass ``run.max_segments``: the plants' segments together are checked at every day (each
         plant alone never passes the budget; within a day the plants together may hold more before the check).
@@ -103,10 +105,12 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     from ..growth.step import STATUS_CHECKPOINT
     from ..progress import progress_bar
 
-    if spec.development.clock != "calendar":
-        raise CaptureError(f"{spec.source}: development.clock: {spec.development.clock!r} is not supported in a "
-                           "coupled season (allowed: calendar)")
     days = season_days(weather, last_day=last_day)
+    calendar_spec, clock = spec, None
+    if spec.development.clock != "calendar":  # grow on effective days; pause at each calendar day's start
+        from ..soil.thermal import cumulative_effective_days, on_calendar, thermal_run, weather_table_for_spec
+
+        spec, clock = thermal_run(calendar_spec, weather_table_for_spec(calendar_spec))
     n_cells, cell = setup.n_cells, setup.cell_cm
     centres = (np.arange(n_cells) + 0.5) * cell
     initial_water_content = setup.soil.water_content(setup.initial_head_cm.astype(np.float64))
@@ -121,9 +125,11 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         views = {name: _field_values_view(inputs.fields, name, n_cells) for name in COUPLED_FIELDS
                  if name in inputs.fields.names}
     area = _ground_area(inputs)
-    duration = float(spec.run.duration_days)
+    duration = float(calendar_spec.run.duration_days)  # calendar days
     budget = int(spec.run.max_segments)
     checkpoints = np.asarray([d for d in days if d <= duration + 1e-9], dtype=np.float64)
+    if clock is not None:  # the same days in the growth's time unit (nondecreasing; equal on days too cold to grow)
+        checkpoints = clock["unit"] * cumulative_effective_days(clock["daily"], checkpoints)
     length_per_cell = np.zeros(n_cells)
     stops = [np.zeros(3) for _ in range(inputs.n_plants)]
     plants_running = [plant_steps(inputs, k, segment_limit=budget, root_limit=budget, stop_out=stops[k],
@@ -168,6 +174,7 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         while plants_running[k] is not None:
             advance(k, duration)
     result = season.result()
-    result["system"] = root_system(inputs, finished)
+    system = root_system(inputs, finished)
+    result["system"] = system if clock is None else on_calendar(system, calendar_spec, clock)
     result["traits"].update({"coupled": bool(couple), "growth_days": duration})
     return result

@@ -38,7 +38,8 @@ from .weather import WeatherTable, read_weather_table
 
 __all__ = ["beta_temperature_response", "broken_linear_temperature_response", "temperature_response",
            "daily_effective_days", "cumulative_effective_days", "calendar_days_from_effective_days",
-           "degree_days", "grow_on_thermal_clock", "grow_for_spec", "weather_table_for_spec"]
+           "degree_days", "thermal_run", "on_calendar", "grow_on_thermal_clock", "grow_for_spec",
+           "weather_table_for_spec"]
 
 
 def _check_cardinal(base_c: float, optimum_c: float, maximum_c: float) -> None:
@@ -150,25 +151,19 @@ def resolve_input_path(spec_source: str, name: str | os.PathLike) -> Path:
     return Path(spec_source).parent / path
 
 
-def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None = None):
-    """Grow ``spec`` on effective days from ``weather`` and give ``birth_day`` in calendar days.
-
-    Parameters
-    ----------
-    spec : Spec
-        ``run.duration_days`` is the calendar length of the run; every other time in the spec is in effective
-        days (days at the optimum temperature). ``spec.development`` holds the cardinal temperatures.
-    weather : WeatherTable
-        Must cover days 0 .. ceil(duration) - 1 after sowing.
+def thermal_run(spec, weather: WeatherTable):
+    """The spec that grows ``spec`` on effective days from ``weather``, with what maps it back to the calendar.
 
     Returns
     -------
-    RootSystem
-        ``birth_day`` in calendar days since sowing; ``metadata["development"]`` records the clock, the
-        effective days and degree-days of the run.
+    thermal_spec : Spec
+        ``spec`` with ``run.duration_days`` (and the step, if longer) in the file's time unit: effective days, or
+        degree-days when ``development.time_unit = "degree_day"``.
+    clock : dict
+        ``daily`` (effective days accrued on each calendar day from day 0, ndarray), ``unit`` (the file's time
+        unit in effective days: 1, or optimum - base for degree-days), ``effective_days`` of the run and its
+        ``time_step`` (for :func:`thermal_metadata`).
     """
-    from ..growth import grow
-    from ..rootsystem import RootSystem
     from pydantic import ValidationError
 
     from ..errors import SpecError
@@ -190,29 +185,72 @@ def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None 
     thermal_duration = effective * unit  # in the file's time unit
     step = min(spec.run.time_step_days, thermal_duration)
     try:
-        thermal_run = Run(**{**spec.run.model_dump(), "duration_days": thermal_duration, "time_step_days": step})
+        run = Run(**{**spec.run.model_dump(), "duration_days": thermal_duration, "time_step_days": step})
     except ValidationError:
         raise SpecError(spec.source, "run.duration_days", f"the season gives {thermal_duration:.4g} "
                         f"{dev.time_unit.replace('_', ' ')}s of development", "at most 3650 in the file's time unit") \
             from None
-    _check_run(thermal_run, spec.source)
-    system = grow(spec.model_copy(update={"run": thermal_run}), progress=progress)
+    _check_run(run, spec.source)
+    return spec.model_copy(update={"run": run}), {"daily": daily, "unit": unit, "effective_days": effective,
+                                                  "time_step": step, "weather_source": weather.source}
+
+
+def on_calendar(system, spec, clock: dict):
+    """A system grown on the thermal clock (:func:`thermal_run`) with ``birth_day`` (and ``death_day``) in
+    calendar days since sowing and ``metadata["development"]`` recording the clock."""
+    from ..rootsystem import RootSystem
+
+    dev = spec.development
+    daily, unit = clock["daily"], clock["unit"]
     columns = {name: system[name] for name in system.columns}
-    columns["birth_day"] = calendar_days_from_effective_days(daily, columns["birth_day"] / unit)
+    for name in ("birth_day", "death_day"):
+        if name in columns:
+            values = np.asarray(columns[name], dtype=np.float64)
+            finite = np.isfinite(values)
+            converted = values.copy()
+            converted[finite] = calendar_days_from_effective_days(daily, values[finite] / unit)
+            columns[name] = converted
     metadata = dict(system.metadata)
-    metadata["run"] = {**metadata.get("run", {}), "duration_days": duration}
+    metadata["run"] = {**metadata.get("run", {}), "duration_days": spec.run.duration_days}
     metadata["development"] = {
-        "clock": "thermal", "weather_file": weather.source, "temperature_response": dev.temperature_response,
+        "clock": "thermal", "weather_file": clock["weather_source"], "temperature_response": dev.temperature_response,
         "base_temperature_c": dev.base_temperature_c, "optimum_temperature_c": dev.optimum_temperature_c,
-        "maximum_temperature_c": dev.maximum_temperature_c, "effective_days": effective,
-        "time_unit": dev.time_unit, "time_step": step,
-        "degree_days": effective * (dev.optimum_temperature_c - dev.base_temperature_c),
+        "maximum_temperature_c": dev.maximum_temperature_c, "effective_days": clock["effective_days"],
+        "time_unit": dev.time_unit, "time_step": clock["time_step"],
+        "degree_days": clock["effective_days"] * (dev.optimum_temperature_c - dev.base_temperature_c),
     }
     return RootSystem(columns, metadata, validate=False)
 
 
+def grow_on_thermal_clock(spec, weather: WeatherTable, *, progress: bool | None = None,
+                          keep_dead_roots: bool = False):
+    """Grow ``spec`` on effective days from ``weather`` and give ``birth_day`` in calendar days.
+
+    Parameters
+    ----------
+    spec : Spec
+        ``run.duration_days`` is the calendar length of the run; every other time in the spec is in effective
+        days (days at the optimum temperature). ``spec.development`` holds the cardinal temperatures.
+    weather : WeatherTable
+        Must cover days 0 .. ceil(duration) - 1 after sowing.
+    keep_dead_roots : bool
+        As :func:`rootsim.growth.engine.grow` (``death_day`` also in calendar days).
+
+    Returns
+    -------
+    RootSystem
+        ``birth_day`` in calendar days since sowing; ``metadata["development"]`` records the clock, the
+        effective days and degree-days of the run.
+    """
+    from ..growth import grow
+
+    thermal_spec, clock = thermal_run(spec, weather)
+    system = grow(thermal_spec, progress=progress, keep_dead_roots=keep_dead_roots)
+    return on_calendar(system, spec, clock)
+
+
 def grow_for_spec(spec, *, seed: int | None = None, days: float | None = None, step_days: float | None = None,
-                  max_segments: int | None = None, progress: bool | None = None):
+                  max_segments: int | None = None, progress: bool | None = None, keep_dead_roots: bool = False):
     """Grow ``spec`` on the clock its ``[development]`` section names (calendar by default).
 
     The one entry point for growing a parameter file (``rootsim.grow``, ``rootsim grow``, studies, batches and
@@ -225,5 +263,6 @@ def grow_for_spec(spec, *, seed: int | None = None, days: float | None = None, s
         spec = spec.with_overrides(duration_days=days, time_step_days=step_days, seed=seed, max_segments=max_segments)
     dev = getattr(spec, "development", None)
     if dev is None or dev.clock == "calendar":
-        return grow(spec, progress=progress)
-    return grow_on_thermal_clock(spec, weather_table_for_spec(spec), progress=progress)
+        return grow(spec, progress=progress, keep_dead_roots=keep_dead_roots)
+    return grow_on_thermal_clock(spec, weather_table_for_spec(spec), progress=progress,
+                                 keep_dead_roots=keep_dead_roots)

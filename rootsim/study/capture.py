@@ -115,17 +115,17 @@ def load_study_capture(capture, root: Path, source: str) -> StudyCapture:
 def grow_for_capture(spec, *, seed: int):
     """Grow one run for the capture season: (system for the season, system for every other measurement).
 
-    With root lifespans on the calendar clock the season's system keeps the roots that died, with their
-    ``death_day`` (:func:`rootsim.growth.engine.grow` with ``keep_dead_roots``), and the other is the same
-    table without them (exactly what growing without keeping them gives); otherwise both are the same system.
+    With root lifespans the season's system keeps the roots that died, with their ``death_day`` (calendar
+    days, on either clock: :func:`rootsim.soil.thermal.grow_for_spec` with ``keep_dead_roots``), and the other
+    is the same table without them (exactly what growing without keeping them gives); otherwise both are the
+    same system.
     """
     from ..growth.classes import ClassTable
-    from ..growth.engine import drop_dead_roots, grow
+    from ..growth.engine import drop_dead_roots
     from ..soil.thermal import grow_for_spec
 
-    dev = getattr(spec, "development", None)
-    if ClassTable(spec).has_lifespan and (dev is None or dev.clock == "calendar"):
-        full = grow(spec, seed=seed, progress=False, keep_dead_roots=True)
+    if ClassTable(spec).has_lifespan:
+        full = grow_for_spec(spec, seed=seed, progress=False, keep_dead_roots=True)
         return full, drop_dead_roots(full)
     system = grow_for_spec(spec, seed=seed, progress=False)
     return system, system
