@@ -63,18 +63,39 @@ class StudyPlan:
         return list(seen)
 
     def fingerprint(self) -> str:
-        """SHA-256 of everything that determines the results (specs, seeds, measurements, rootsim version)."""
+        """SHA-256 of everything that determines the results (specs, seeds, measurements, rootsim version).
+
+        Input files a spec names (weather tables, soil-field tables and grids: absolute paths once laid under a
+        study) count by their content, not their path, so a study folder still resumes after the project is
+        moved, and a changed input file makes a different study.
+        """
         from .. import __version__
 
+        digests: dict = {}
         payload = {"version": __version__, "kind": self.kind, "measure": self.measure.model_dump(mode="json"),
                    "tasks": [{"run_id": t.run_id, "variant": t.variant, "replicate": t.replicate, "seed": t.seed,
                               "factors": t.factors, "error": t.error,
-                              "spec": None if t.spec is None else t.spec.model_dump(mode="json")}
+                              "spec": None if t.spec is None else _files_by_content(t.spec.model_dump(mode="json"),
+                                                                                    digests)}
                              for t in self.tasks]}
         if self.capture is not None:  # the soil-water and weather files' contents
             payload["capture_inputs"] = self.capture.digest
         text = json.dumps(payload, sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()
+
+
+def _files_by_content(value, digests: dict):
+    """``value`` (a spec's JSON dump) with every absolute path of an existing file replaced by the SHA-256 of the
+    file's bytes (``digests``: a cache by path)."""
+    if isinstance(value, dict):
+        return {key: _files_by_content(item, digests) for key, item in value.items()}
+    if isinstance(value, list):
+        return [_files_by_content(item, digests) for item in value]
+    if isinstance(value, str) and os.path.isabs(value) and os.path.isfile(value):
+        if value not in digests:
+            digests[value] = "sha256:" + hashlib.sha256(Path(value).read_bytes()).hexdigest()
+        return digests[value]
+    return value
 
 
 def run_seed(master_seed: int, variant: str, replicate: int, *, common_random_numbers: bool = False) -> int:
