@@ -38,3 +38,29 @@ def test_a_fresh_process_writes_the_cache_where_it_was_told(tmp_path):
            "HOME": str(tmp_path)}
     subprocess.run([sys.executable, "-c", code], env=env, check=True, capture_output=True, timeout=300)
     assert list((tmp_path / "cache").rglob("*.nbi"))
+
+
+def test_compiled_code_is_dropped_when_another_source_file_of_the_package_changes(tmp_path):
+    # numba checks a cached function against its own file only; a kernel it calls may live in another file
+    # (rootsim/soil/fields.py for the growth step), so the package drops its cached code when any source changed.
+    import shutil
+
+    root = Path(__file__).resolve().parents[1]
+    copy = tmp_path / "src"
+    shutil.copytree(root / "rootsim", copy / "rootsim", ignore=shutil.ignore_patterns("__pycache__"))
+    env = {"PATH": "/usr/bin:/bin", "PYTHONPATH": str(copy), "NUMBA_CACHE_DIR": str(tmp_path / "cache"),
+           "HOME": str(tmp_path)}
+    code = ("from rootsim.growth.tropisms import tangent_variance\n"
+            "import numpy as np\n"
+            "print(tangent_variance(np.array([0.01, 1.0]))[0])\n")
+    subprocess.run([sys.executable, "-c", code], env=env, check=True, capture_output=True, timeout=300, cwd=tmp_path)
+    cached = list((tmp_path / "cache").rglob("tropisms.tangent_variance*.nbi"))
+    assert cached
+    subprocess.run([sys.executable, "-c", "import rootsim.growth"], env=env, check=True, capture_output=True,
+                   timeout=300, cwd=tmp_path)
+    assert all(p.exists() for p in cached)  # nothing changed: the cache stays
+    with open(copy / "rootsim" / "soil" / "fields.py", "a", encoding="utf-8") as handle:
+        handle.write("\n# edited\n")
+    subprocess.run([sys.executable, "-c", "import rootsim.growth"], env=env, check=True, capture_output=True,
+                   timeout=300, cwd=tmp_path)
+    assert not any(p.exists() for p in cached)
