@@ -98,7 +98,7 @@ def _soil_inputs(spec: Spec, classes: ClassTable):
     """
     from ..soil.biopores import biopores_from_list
     from ..soil.build import biopores_from_spec, soil_fields_from_spec
-    from ..soil.fields import compile_fields
+    from ..soil.fields import compile_fields, field_value_range
     from ..soil.strength import EXPONENTIAL, LINEAR_TO_LIMIT
 
     soil = spec.soil
@@ -131,6 +131,11 @@ def _soil_inputs(spec: Spec, classes: ClassTable):
             proliferation_half[c] = root_class.proliferation.half_saturation_value
             proliferation_max[c] = root_class.proliferation.maximum_factor
     arguments += (tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max)
+    # 3D deflection: strong regions of a [soil.fields] resistance (layers deflect by their tops), only where the
+    # field can reach the threshold at all (else every look-ahead would be wasted)
+    field_deflection = bool(use) and "penetration_resistance_mpa" in soil.fields and resistance_field >= 0 \
+        and field_value_range(fields.compiled, resistance_field)[1] >= soil.deflection_threshold_mpa
+    arguments += (field_deflection, float(soil.deflection_threshold_mpa))
     return arguments, pores is not None
 
 

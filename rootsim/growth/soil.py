@@ -20,10 +20,17 @@ import math
 import numpy as np
 from numba import njit
 
+from ..soil.fields import planned_value_and_gradient
 from ..spec import Container, Soil
 from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
-__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "constrain", "clamp", "contains"]
+__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "deflect_by_field", "constrain", "clamp",
+           "contains"]
+
+#: Bisection steps that locate where a step enters strong soil (to 2**-24 of the step).
+_BOUNDARY_BISECTIONS = 24
+#: Half-width (cm) of the central differences that give the normal of a strong region's boundary.
+_NORMAL_DELTA_CM = 1e-4
 
 #: Container kinds in :func:`container_box` (its element 0).
 FIELD, POT, RHIZOBOX = 0, 1, 2
@@ -107,6 +114,79 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
                 return dx / horiz, dy / horiz, 0.0
             return 1.0, 0.0, 0.0
     return dx, dy, dz
+
+
+@njit(**JIT_BORROW)
+def deflect_by_field(fields, resistance_field, threshold_mpa, sin_max_incidence, resistance_here_mpa, x, y, z,
+                     dx, dy, dz, step_cm):
+    """Turn a direction that would enter strong soil of a 3D resistance field at a shallow angle to slide along
+    the strong region's boundary (the rule of :func:`deflect`, for any shape of strong region).
+
+    A tip in soil weaker than ``threshold_mpa`` whose step of ``step_cm`` along d would end in soil at or above
+    it is deflected when it meets the boundary at less than the largest incidence: the boundary point is found
+    by bisection along the step, its normal n (toward stronger soil) by central differences of the field there
+    (so it serves smooth fields, cell grids, layers and sharp patches alike), and a direction with
+    ``d · n < sin_max_incidence`` is projected onto the boundary's tangent plane and normalized. For a
+    horizontal strong layer this is exactly :func:`deflect`'s horizontal slide; for a convex obstacle (a stone)
+    the slid step stays outside it. Steeper tips enter the strong soil, slowed by the impedance.
+
+    Parameters
+    ----------
+    fields : rootsim.soil.fields.CompiledFields
+    resistance_field : int
+        Index of ``penetration_resistance_mpa``.
+    threshold_mpa, sin_max_incidence : float
+        ``[soil] deflection_threshold_mpa`` and the sine of ``deflection_max_incidence_deg``.
+    resistance_here_mpa : float
+        The field's value at the tip (already read by the step).
+    x, y, z, dx, dy, dz, step_cm : float
+        Tip (cm), unit direction and step length (cm).
+
+    Returns
+    -------
+    dx, dy, dz : float
+        The direction, unchanged or slid along the boundary.
+    """
+    if resistance_here_mpa >= threshold_mpa or not step_cm > 0:
+        return dx, dy, dz
+    if planned_value_and_gradient(fields, resistance_field, x + dx * step_cm, y + dy * step_cm,
+                                  z + dz * step_cm)[0] < threshold_mpa:
+        return dx, dy, dz
+    low = 0.0
+    high = step_cm
+    for _ in range(_BOUNDARY_BISECTIONS):
+        mid = 0.5 * (low + high)
+        if planned_value_and_gradient(fields, resistance_field, x + dx * mid, y + dy * mid, z + dz * mid)[0] \
+                >= threshold_mpa:
+            high = mid
+        else:
+            low = mid
+    bx, by, bz = x + dx * high, y + dy * high, z + dz * high
+    h = _NORMAL_DELTA_CM
+    nx = planned_value_and_gradient(fields, resistance_field, bx + h, by, bz)[0] \
+        - planned_value_and_gradient(fields, resistance_field, bx - h, by, bz)[0]
+    ny = planned_value_and_gradient(fields, resistance_field, bx, by + h, bz)[0] \
+        - planned_value_and_gradient(fields, resistance_field, bx, by - h, bz)[0]
+    nz = planned_value_and_gradient(fields, resistance_field, bx, by, bz + h)[0] \
+        - planned_value_and_gradient(fields, resistance_field, bx, by, bz - h)[0]
+    norm = math.sqrt(nx * nx + ny * ny + nz * nz)
+    if not (norm > 0 and math.isfinite(norm)):
+        return dx, dy, dz
+    nx, ny, nz = nx / norm, ny / norm, nz / norm
+    into = dx * nx + dy * ny + dz * nz
+    if not (into < sin_max_incidence):
+        return dx, dy, dz
+    px, py, pz = dx - into * nx, dy - into * ny, dz - into * nz
+    along = math.sqrt(px * px + py * py + pz * pz)
+    if along > 1e-12:
+        return px / along, py / along, pz / along
+    # head-on: any direction in the tangent plane (the one nearest the horizontal x axis, else y)
+    px, py, pz = 1.0 - nx * nx, -nx * ny, -nx * nz
+    along = math.sqrt(px * px + py * py + pz * pz)
+    if along < 1e-6:
+        px, py, pz = -ny * nx, 1.0 - ny * ny, -ny * nz
+        along = math.sqrt(px * px + py * py + pz * pz)
+    return px / along, py / along, pz / along
 
 
 @njit(**JIT_INLINE)

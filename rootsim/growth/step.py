@@ -31,7 +31,7 @@ from .draws import FIXED, draw_parameter
 from ..soil.biopores import biopore_at
 from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
-from .soil import clamp, constrain, contains, deflect, elongation_factor
+from .soil import clamp, constrain, contains, deflect, deflect_by_field, elongation_factor
 from .tropisms import (
     JIT,
     JIT_BORROW,
@@ -247,7 +247,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
-               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max):
+               tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
+               field_deflection, deflection_threshold_mpa):
     """Grow one plant over the whole run.
 
     Parameters
@@ -291,6 +292,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
         Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
         density by ``1 + (max - 1) * v / (v + half)``.
+    field_deflection : bool
+        Deflect tips by strong regions of the 3D resistance field (:func:`rootsim.growth.soil.deflect_by_field`;
+        ``[[soil.layers]]`` deflect through ``soil_tops`` instead).
+    deflection_threshold_mpa : float
+        Resistance at and above which soil deflects a tip meeting it at a shallow angle.
 
     Returns
     -------
@@ -548,6 +554,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     hx, hy, hz = pores.axis[pore, 0], pores.axis[pore, 1], pores.axis[pore, 2]
                 else:
                     hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+                    if field_deflection:  # strong regions of a 3D resistance field (layers deflect above)
+                        hx, hy, hz = deflect_by_field(fields, resistance_field, deflection_threshold_mpa,
+                                                      soil_sin_max, resistance, sx, sy, sz, hx, hy, hz, ds)
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:
