@@ -29,8 +29,12 @@ __all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "defl
 
 #: Bisection steps that locate where a step enters strong soil (to 2**-24 of the step).
 _BOUNDARY_BISECTIONS = 24
-#: Half-width (cm) of the central differences that give the normal of a strong region's boundary.
-_NORMAL_DELTA_CM = 1e-4
+#: How far short of the boundary (cm, at most) the normal is measured, and how far along each axis it looks (in
+#: multiples of that distance).
+_NORMAL_OFFSET_CM = 1e-3
+_AXIS_REACH = 64.0
+#: Most slides of one step (each along the boundary the previous one still crossed).
+_SLIDES = 4
 
 #: Container kinds in :func:`container_box` (its element 0).
 FIELD, POT, RHIZOBOX = 0, 1, 2
@@ -117,6 +121,35 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
 
 
 @njit(**JIT_BORROW)
+def _axis_normal(fields, resistance_field, threshold_mpa, x, y, z, axis, reach):
+    """Component ``axis`` of the (unnormalized) boundary normal seen from (x, y, z): ``±1 / t`` for the nearer
+    distance t along ∓axis at which the resistance reaches the threshold (0 if neither direction does within
+    ``reach``); positive toward stronger soil."""
+    best = 0.0
+    best_distance = math.inf
+    for sign in (1.0, -1.0):
+        ux = sign if axis == 0 else 0.0
+        uy = sign if axis == 1 else 0.0
+        uz = sign if axis == 2 else 0.0
+        if planned_value_and_gradient(fields, resistance_field, x + ux * reach, y + uy * reach,
+                                      z + uz * reach)[0] < threshold_mpa:
+            continue
+        low = 0.0
+        high = reach
+        for _ in range(_BOUNDARY_BISECTIONS):
+            mid = 0.5 * (low + high)
+            if planned_value_and_gradient(fields, resistance_field, x + ux * mid, y + uy * mid, z + uz * mid)[0] \
+                    >= threshold_mpa:
+                high = mid
+            else:
+                low = mid
+        if high < best_distance:
+            best_distance = high
+            best = sign / high
+    return best
+
+
+@njit(**JIT_BORROW)
 def deflect_by_field(fields, resistance_field, threshold_mpa, sin_max_incidence, resistance_here_mpa, x, y, z,
                      dx, dy, dz, step_cm):
     """Turn a direction that would enter strong soil of a 3D resistance field at a shallow angle to slide along
@@ -124,11 +157,13 @@ def deflect_by_field(fields, resistance_field, threshold_mpa, sin_max_incidence,
 
     A tip in soil weaker than ``threshold_mpa`` whose step of ``step_cm`` along d would end in soil at or above
     it is deflected when it meets the boundary at less than the largest incidence: the boundary point is found
-    by bisection along the step, its normal n (toward stronger soil) by central differences of the field there
-    (so it serves smooth fields, cell grids, layers and sharp patches alike), and a direction with
+    by bisection along the step, its normal n (toward stronger soil) from the distances at which the axes
+    through a point just short of it meet the boundary (so it serves smooth fields, cell grids, layers and sharp
+    patches alike; a level boundary gives an exactly vertical normal), and a direction with
     ``d · n < sin_max_incidence`` is projected onto the boundary's tangent plane and normalized. For a
     horizontal strong layer this is exactly :func:`deflect`'s horizontal slide; for a convex obstacle (a stone)
-    the slid step stays outside it. Steeper tips enter the strong soil, slowed by the impedance.
+    the slid step stays outside it (a step that still ends inside a curved boundary slides again, up to
+    ``_SLIDES`` times). Steeper tips enter the strong soil, slowed by the impedance.
 
     Parameters
     ----------
@@ -149,44 +184,46 @@ def deflect_by_field(fields, resistance_field, threshold_mpa, sin_max_incidence,
     """
     if resistance_here_mpa >= threshold_mpa or not step_cm > 0:
         return dx, dy, dz
-    if planned_value_and_gradient(fields, resistance_field, x + dx * step_cm, y + dy * step_cm,
-                                  z + dz * step_cm)[0] < threshold_mpa:
-        return dx, dy, dz
-    low = 0.0
-    high = step_cm
-    for _ in range(_BOUNDARY_BISECTIONS):
-        mid = 0.5 * (low + high)
-        if planned_value_and_gradient(fields, resistance_field, x + dx * mid, y + dy * mid, z + dz * mid)[0] \
-                >= threshold_mpa:
-            high = mid
-        else:
-            low = mid
-    bx, by, bz = x + dx * high, y + dy * high, z + dz * high
-    h = _NORMAL_DELTA_CM
-    nx = planned_value_and_gradient(fields, resistance_field, bx + h, by, bz)[0] \
-        - planned_value_and_gradient(fields, resistance_field, bx - h, by, bz)[0]
-    ny = planned_value_and_gradient(fields, resistance_field, bx, by + h, bz)[0] \
-        - planned_value_and_gradient(fields, resistance_field, bx, by - h, bz)[0]
-    nz = planned_value_and_gradient(fields, resistance_field, bx, by, bz + h)[0] \
-        - planned_value_and_gradient(fields, resistance_field, bx, by, bz - h)[0]
-    norm = math.sqrt(nx * nx + ny * ny + nz * nz)
-    if not (norm > 0 and math.isfinite(norm)):
-        return dx, dy, dz
-    nx, ny, nz = nx / norm, ny / norm, nz / norm
-    into = dx * nx + dy * ny + dz * nz
-    if not (into < sin_max_incidence):
-        return dx, dy, dz
-    px, py, pz = dx - into * nx, dy - into * ny, dz - into * nz
-    along = math.sqrt(px * px + py * py + pz * pz)
-    if along > 1e-12:
-        return px / along, py / along, pz / along
-    # head-on: any direction in the tangent plane (the one nearest the horizontal x axis, else y)
-    px, py, pz = 1.0 - nx * nx, -nx * ny, -nx * nz
-    along = math.sqrt(px * px + py * py + pz * pz)
-    if along < 1e-6:
-        px, py, pz = -ny * nx, 1.0 - ny * ny, -ny * nz
+    for _ in range(_SLIDES):  # a slid step that still ends in strong soil (a curved boundary) slides again
+        if planned_value_and_gradient(fields, resistance_field, x + dx * step_cm, y + dy * step_cm,
+                                      z + dz * step_cm)[0] < threshold_mpa:
+            return dx, dy, dz
+        low = 0.0
+        high = step_cm
+        for _ in range(_BOUNDARY_BISECTIONS):
+            mid = 0.5 * (low + high)
+            if planned_value_and_gradient(fields, resistance_field, x + dx * mid, y + dy * mid, z + dz * mid)[0] \
+                    >= threshold_mpa:
+                high = mid
+            else:
+                low = mid
+        # the normal, from a point q just short of the boundary: along each axis the surface (locally a plane at
+        # distance d from q) is met at d / |n_a|, so n_a is the signed inverse of that distance (an axis that
+        # meets no surface within _AXIS_REACH times the distance has n_a = 0); exact for planes, sharp steps
+        # (cell grids, layers, patches without an edge) and smooth fields alike
+        back = min(_NORMAL_OFFSET_CM, high)
+        qx, qy, qz = x + dx * (high - back), y + dy * (high - back), z + dz * (high - back)
+        reach = _AXIS_REACH * back
+        nx = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 0, reach)
+        ny = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 1, reach)
+        nz = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 2, reach)
+        norm = math.sqrt(nx * nx + ny * ny + nz * nz)
+        if not (norm > 0 and math.isfinite(norm)):
+            return dx, dy, dz
+        nx, ny, nz = nx / norm, ny / norm, nz / norm
+        into = dx * nx + dy * ny + dz * nz
+        if not (into < sin_max_incidence):
+            return dx, dy, dz
+        px, py, pz = dx - into * nx, dy - into * ny, dz - into * nz
         along = math.sqrt(px * px + py * py + pz * pz)
-    return px / along, py / along, pz / along
+        if along <= 1e-12:  # head-on: the direction of the tangent plane nearest the x axis (else the y axis)
+            px, py, pz = 1.0 - nx * nx, -nx * ny, -nx * nz
+            along = math.sqrt(px * px + py * py + pz * pz)
+            if along < 1e-6:
+                px, py, pz = -ny * nx, 1.0 - ny * ny, -ny * nz
+                along = math.sqrt(px * px + py * py + pz * pz)
+        dx, dy, dz = px / along, py / along, pz / along
+    return dx, dy, dz
 
 
 @njit(**JIT_INLINE)
