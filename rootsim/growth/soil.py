@@ -8,9 +8,10 @@ arrays built once per run by :func:`soil_arrays` and :func:`container_box`:
 * :func:`constrain` – keep a step inside the soil and the container (slide along the boundary),
 * :func:`clamp` – move a point into the soil volume.
 
-These serve soils given as depth layers alone; 3D fields, biopores and field responses are read by the
-step through the kernels of :mod:`rootsim.soil` (see :func:`rootsim.growth.step.grow_plant`). Positions
-are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
+These serve soils given as depth layers alone. 3D fields are read by the step through :func:`soil_at_tip`
+(every field look-up of a tip and step in one call) and strong regions of a 3D resistance field deflect tips
+through :func:`deflect_by_field`; biopores are read through :mod:`rootsim.soil.biopores` (see
+:func:`rootsim.growth.step.grow_plant`). Positions are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
 """
 
 from __future__ import annotations
@@ -24,8 +25,8 @@ from ..soil.fields import planned_value_and_gradient
 from ..spec import Container, Soil
 from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
-__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "deflect_by_field", "constrain", "clamp",
-           "contains"]
+__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "deflect_by_field", "soil_at_tip",
+           "constrain", "clamp", "contains"]
 
 #: Bisection steps that locate where a step enters strong soil (to 2**-24 of the step).
 _BOUNDARY_BISECTIONS = 24
@@ -118,6 +119,46 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
                 return dx / horiz, dy / horiz, 0.0
             return 1.0, 0.0, 0.0
     return dx, dy, dz
+
+
+@njit(**JIT_BORROW)
+def soil_at_tip(fields, resistance_field, proliferation_field, tropism_field, x, y, z):
+    """Every field look-up of one tip and step, in one call.
+
+    One call rather than one per look-up: each call out of the large compiled step saves and restores
+    registers and passes the arrays of ``fields``; inside this function (compiled without reference counting)
+    the look-ups are inlined, and a field that the class both proliferates in and turns toward is read once for
+    its value and gradient. Biopores are looked up by the step itself (only tips in the pores' depth range).
+
+    Parameters
+    ----------
+    fields : rootsim.soil.fields.CompiledFields
+    resistance_field, proliferation_field, tropism_field : int
+        Field indices (-1: none) of the penetration resistance, the class's proliferation field and its tropism
+        field.
+    x, y, z : float
+        The tip, cm.
+
+    Returns
+    -------
+    resistance_mpa, level : float
+        Values of the resistance and proliferation fields (0 where none).
+    gx, gy, gz : float
+        Gradient of the tropism field (zeros where none), field units per cm.
+    """
+    resistance = 0.0
+    if resistance_field >= 0:
+        resistance = planned_value_and_gradient(fields, resistance_field, x, y, z)[0]
+    level = 0.0
+    gx, gy, gz = 0.0, 0.0, 0.0
+    if tropism_field >= 0 and tropism_field == proliferation_field:  # value and gradient in one pass
+        level, gx, gy, gz = planned_value_and_gradient(fields, tropism_field, x, y, z)
+    else:
+        if proliferation_field >= 0:
+            level = planned_value_and_gradient(fields, proliferation_field, x, y, z)[0]
+        if tropism_field >= 0:
+            unused, gx, gy, gz = planned_value_and_gradient(fields, tropism_field, x, y, z)
+    return resistance, level, gx, gy, gz
 
 
 @njit(**JIT_BORROW)

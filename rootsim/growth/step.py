@@ -29,9 +29,8 @@ from numba.typed import List
 from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
 from ..soil.biopores import biopore_at
-from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
-from .soil import clamp, constrain, contains, deflect, deflect_by_field, elongation_factor
+from .soil import clamp, constrain, contains, deflect, deflect_by_field, elongation_factor, soil_at_tip
 from .tropisms import (
     JIT,
     JIT_BORROW,
@@ -477,7 +476,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 max_len = tipf[j, T_MAXLEN]
                 pore = -1
                 proliferation = 1.0
+                field_gx, field_gy, field_gz = 0.0, 0.0, 0.0  # gradient of the class's tropism field at the tip
                 if use_fields:
+                    field_resistance, level, field_gx, field_gy, field_gz = soil_at_tip(  # every field look-up
+                        fields, resistance_field, proliferation_field[cls], tropism_field[cls], sx, sy, sz)
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
                         if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
@@ -491,13 +493,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     if pore >= 0:
                         resistance = pore_resistance_mpa
                     elif resistance_field >= 0:
-                        resistance = value_at(fields, resistance_field, sx, sy, sz)
+                        resistance = field_resistance
                     else:
                         resistance = 0.0
                     rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
                                                                       response_parameter_mpa, tipf[j, T_FELT])
                     if proliferation_field[cls] >= 0:
-                        level = max(value_at(fields, proliferation_field[cls], sx, sy, sz), 0.0)
+                        level = max(level, 0.0)
                         proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level \
                             / (level + proliferation_half[cls])
                         rate *= proliferation
@@ -529,7 +531,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 field_shrink = 1.0
                 gx, gy, gz = 0.0, 0.0, 0.0
                 if use_fields and tropism_field[cls] >= 0 and pore < 0:
-                    gx, gy, gz = gradient_at(fields, tropism_field[cls], sx, sy, sz)
+                    gx, gy, gz = field_gx, field_gy, field_gz
                     gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
                     if gnorm > 0 and math.isfinite(gnorm):
                         gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
