@@ -100,7 +100,7 @@ def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
     """
     from ..soil.biopores import biopores_from_list
     from ..soil.build import biopores_from_spec, soil_fields_from_spec
-    from ..soil.fields import compile_fields
+    from ..soil.fields import compile_fields, field_value_range
     from ..soil.strength import EXPONENTIAL, LINEAR_TO_LIMIT
 
     soil = spec.soil
@@ -133,6 +133,13 @@ def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
             proliferation_half[c] = root_class.proliferation.half_saturation_value
             proliferation_max[c] = root_class.proliferation.maximum_factor
     arguments += (tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max)
+    # 3D deflection: strong regions of a [soil.fields] resistance (layers deflect by their tops), only where the
+    # field can reach the threshold at all (else every look-ahead would be wasted); fields replaced for a coupled
+    # season change during the run, so there it is always on
+    field_deflection = bool(use) and "penetration_resistance_mpa" in soil.fields and resistance_field >= 0 \
+        and (replace_fields is not None
+             or field_value_range(fields.compiled, resistance_field)[1] >= soil.deflection_threshold_mpa)
+    arguments += (field_deflection, float(soil.deflection_threshold_mpa))
     return arguments, pores is not None, fields
 
 

@@ -8,9 +8,10 @@ arrays built once per run by :func:`soil_arrays` and :func:`container_box`:
 * :func:`constrain` – keep a step inside the soil and the container (slide along the boundary),
 * :func:`clamp` – move a point into the soil volume.
 
-These serve soils given as depth layers alone; 3D fields, biopores and field responses are read by the
-step through the kernels of :mod:`rootsim.soil` (see :func:`rootsim.growth.step.grow_plant`). Positions
-are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
+These serve soils given as depth layers alone. 3D fields are read by the step through :func:`soil_at_tip`
+(every field look-up of a tip and step in one call) and strong regions of a 3D resistance field deflect tips
+through :func:`deflect_by_field`; biopores are read through :mod:`rootsim.soil.biopores` (see
+:func:`rootsim.growth.step.grow_plant`). Positions are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
 """
 
 from __future__ import annotations
@@ -20,10 +21,21 @@ import math
 import numpy as np
 from numba import njit
 
+from ..soil.fields import planned_value_and_gradient
 from ..spec import Container, Soil
 from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
-__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "constrain", "clamp", "contains"]
+__all__ = ["soil_arrays", "container_box", "elongation_factor", "deflect", "deflect_by_field", "soil_at_tip",
+           "constrain", "clamp", "contains"]
+
+#: Bisection steps that locate where a step enters strong soil (to 2**-24 of the step).
+_BOUNDARY_BISECTIONS = 24
+#: How far short of the boundary (cm, at most) the normal is measured, and how far along each axis it looks (in
+#: multiples of that distance).
+_NORMAL_OFFSET_CM = 1e-3
+_AXIS_REACH = 64.0
+#: Most slides of one step (each along the boundary the previous one still crossed).
+_SLIDES = 4
 
 #: Container kinds in :func:`container_box` (its element 0).
 FIELD, POT, RHIZOBOX = 0, 1, 2
@@ -106,6 +118,152 @@ def deflect(deflecting_tops_cm, sin_max_incidence, x, y, z, dx, dy, dz, step_cm)
             if horiz > 1e-12:
                 return dx / horiz, dy / horiz, 0.0
             return 1.0, 0.0, 0.0
+    return dx, dy, dz
+
+
+@njit(**JIT_BORROW)
+def soil_at_tip(fields, resistance_field, proliferation_field, tropism_field, x, y, z):
+    """Every field look-up of one tip and step, in one call.
+
+    One call rather than one per look-up: each call out of the large compiled step saves and restores
+    registers and passes the arrays of ``fields``; inside this function (compiled without reference counting)
+    the look-ups are inlined, and a field that the class both proliferates in and turns toward is read once for
+    its value and gradient. Biopores are looked up by the step itself (only tips in the pores' depth range).
+
+    Parameters
+    ----------
+    fields : rootsim.soil.fields.CompiledFields
+    resistance_field, proliferation_field, tropism_field : int
+        Field indices (-1: none) of the penetration resistance, the class's proliferation field and its tropism
+        field.
+    x, y, z : float
+        The tip, cm.
+
+    Returns
+    -------
+    resistance_mpa, level : float
+        Values of the resistance and proliferation fields (0 where none).
+    gx, gy, gz : float
+        Gradient of the tropism field (zeros where none), field units per cm.
+    """
+    resistance = 0.0
+    if resistance_field >= 0:
+        resistance = planned_value_and_gradient(fields, resistance_field, x, y, z)[0]
+    level = 0.0
+    gx, gy, gz = 0.0, 0.0, 0.0
+    if tropism_field >= 0 and tropism_field == proliferation_field:  # value and gradient in one pass
+        level, gx, gy, gz = planned_value_and_gradient(fields, tropism_field, x, y, z)
+    else:
+        if proliferation_field >= 0:
+            level = planned_value_and_gradient(fields, proliferation_field, x, y, z)[0]
+        if tropism_field >= 0:
+            unused, gx, gy, gz = planned_value_and_gradient(fields, tropism_field, x, y, z)
+    return resistance, level, gx, gy, gz
+
+
+@njit(**JIT_BORROW)
+def _axis_normal(fields, resistance_field, threshold_mpa, x, y, z, axis, reach):
+    """Component ``axis`` of the (unnormalized) boundary normal seen from (x, y, z): ``±1 / t`` for the nearer
+    distance t along ∓axis at which the resistance reaches the threshold (0 if neither direction does within
+    ``reach``); positive toward stronger soil."""
+    best = 0.0
+    best_distance = math.inf
+    for sign in (1.0, -1.0):
+        ux = sign if axis == 0 else 0.0
+        uy = sign if axis == 1 else 0.0
+        uz = sign if axis == 2 else 0.0
+        if planned_value_and_gradient(fields, resistance_field, x + ux * reach, y + uy * reach,
+                                      z + uz * reach)[0] < threshold_mpa:
+            continue
+        low = 0.0
+        high = reach
+        for _ in range(_BOUNDARY_BISECTIONS):
+            mid = 0.5 * (low + high)
+            if planned_value_and_gradient(fields, resistance_field, x + ux * mid, y + uy * mid, z + uz * mid)[0] \
+                    >= threshold_mpa:
+                high = mid
+            else:
+                low = mid
+        if high < best_distance:
+            best_distance = high
+            best = sign / high
+    return best
+
+
+@njit(**JIT_BORROW)
+def deflect_by_field(fields, resistance_field, threshold_mpa, sin_max_incidence, resistance_here_mpa, x, y, z,
+                     dx, dy, dz, step_cm):
+    """Turn a direction that would enter strong soil of a 3D resistance field at a shallow angle to slide along
+    the strong region's boundary (the rule of :func:`deflect`, for any shape of strong region).
+
+    A tip in soil weaker than ``threshold_mpa`` whose step of ``step_cm`` along d would end in soil at or above
+    it is deflected when it meets the boundary at less than the largest incidence: the boundary point is found
+    by bisection along the step, its normal n (toward stronger soil) from the distances at which the axes
+    through a point just short of it meet the boundary (so it serves smooth fields, cell grids, layers and sharp
+    patches alike; a level boundary gives an exactly vertical normal), and a direction with
+    ``d · n < sin_max_incidence`` is projected onto the boundary's tangent plane and normalized. For a
+    horizontal strong layer this is exactly :func:`deflect`'s horizontal slide; for a convex obstacle (a stone)
+    the slid step stays outside it (a step that still ends inside a curved boundary slides again, up to
+    ``_SLIDES`` times). Steeper tips enter the strong soil, slowed by the impedance.
+
+    Parameters
+    ----------
+    fields : rootsim.soil.fields.CompiledFields
+    resistance_field : int
+        Index of ``penetration_resistance_mpa``.
+    threshold_mpa, sin_max_incidence : float
+        ``[soil] deflection_threshold_mpa`` and the sine of ``deflection_max_incidence_deg``.
+    resistance_here_mpa : float
+        The field's value at the tip (already read by the step).
+    x, y, z, dx, dy, dz, step_cm : float
+        Tip (cm), unit direction and step length (cm).
+
+    Returns
+    -------
+    dx, dy, dz : float
+        The direction, unchanged or slid along the boundary.
+    """
+    if resistance_here_mpa >= threshold_mpa or not step_cm > 0:
+        return dx, dy, dz
+    for _ in range(_SLIDES):  # a slid step that still ends in strong soil (a curved boundary) slides again
+        if planned_value_and_gradient(fields, resistance_field, x + dx * step_cm, y + dy * step_cm,
+                                      z + dz * step_cm)[0] < threshold_mpa:
+            return dx, dy, dz
+        low = 0.0
+        high = step_cm
+        for _ in range(_BOUNDARY_BISECTIONS):
+            mid = 0.5 * (low + high)
+            if planned_value_and_gradient(fields, resistance_field, x + dx * mid, y + dy * mid, z + dz * mid)[0] \
+                    >= threshold_mpa:
+                high = mid
+            else:
+                low = mid
+        # the normal, from a point q just short of the boundary: along each axis the surface (locally a plane at
+        # distance d from q) is met at d / |n_a|, so n_a is the signed inverse of that distance (an axis that
+        # meets no surface within _AXIS_REACH times the distance has n_a = 0); exact for planes, sharp steps
+        # (cell grids, layers, patches without an edge) and smooth fields alike
+        back = min(_NORMAL_OFFSET_CM, high)
+        qx, qy, qz = x + dx * (high - back), y + dy * (high - back), z + dz * (high - back)
+        reach = _AXIS_REACH * back
+        nx = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 0, reach)
+        ny = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 1, reach)
+        nz = _axis_normal(fields, resistance_field, threshold_mpa, qx, qy, qz, 2, reach)
+        norm = math.sqrt(nx * nx + ny * ny + nz * nz)
+        if not (norm > 0 and math.isfinite(norm)):
+            return dx, dy, dz
+        nx, ny, nz = nx / norm, ny / norm, nz / norm
+        into = dx * nx + dy * ny + dz * nz
+        if not (into < sin_max_incidence):
+            return dx, dy, dz
+        px, py, pz = dx - into * nx, dy - into * ny, dz - into * nz
+        along = math.sqrt(px * px + py * py + pz * pz)
+        if along <= 1e-12:  # head-on: the direction of the tangent plane nearest the x axis (else the y axis)
+            px, py, pz = 1.0 - nx * nx, -nx * ny, -nx * nz
+            along = math.sqrt(px * px + py * py + pz * pz)
+            if along < 1e-6:
+                px, py, pz = -ny * nx, 1.0 - ny * ny, -ny * nz
+                along = math.sqrt(px * px + py * py + pz * pz)
+        dx, dy, dz = px / along, py / along, pz / along
     return dx, dy, dz
 
 

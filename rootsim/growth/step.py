@@ -31,9 +31,8 @@ from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter
 from .plant_age import growth_time, time_at_growth_time
 from ..soil.biopores import biopore_at
-from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
-from .soil import clamp, constrain, contains, deflect, elongation_factor
+from .soil import clamp, constrain, contains, deflect, deflect_by_field, elongation_factor, soil_at_tip
 from .tropisms import (
     JIT,
     JIT_BORROW,
@@ -299,7 +298,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                use_fields, fields, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
                tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
-               dev, checkpoint_days, length_cell_cm, length_per_cell, stop_out):
+               field_deflection, deflection_threshold_mpa, dev, checkpoint_days, length_cell_cm, length_per_cell,
+               stop_out):
     """Grow one plant over the whole run, pausing at checkpoints (a numba generator).
 
     A generator: each ``next()`` runs until the next checkpoint or the end. Arrays passed in are shared with
@@ -348,6 +348,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     proliferation_field, proliferation_half, proliferation_max : ndarray, shape (n_classes,)
         Per class: the field (-1: none) whose value v at the tip multiplies elongation and branch-point
         density by ``1 + (max - 1) * v / (v + half)``.
+    field_deflection : bool
+        Deflect tips by strong regions of the 3D resistance field (:func:`rootsim.growth.soil.deflect_by_field`;
+        ``[[soil.layers]]`` deflect through ``soil_tops`` instead).
+    deflection_threshold_mpa : float
+        Resistance at and above which soil deflects a tip meeting it at a shallow angle.
     dev : rootsim.growth.plant_age.DevelopmentTables
         Per class: apical zone as a time, and the elongation-rate multiplier by plant age (the laws are
         integrated exactly over it, in growth time).
@@ -554,7 +559,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 max_len = tipf[j, T_MAXLEN]
                 pore = -1
                 proliferation = 1.0
+                field_gx, field_gy, field_gz = 0.0, 0.0, 0.0  # gradient of the class's tropism field at the tip
                 if use_fields:
+                    field_resistance, level, field_gx, field_gy, field_gz = soil_at_tip(  # every field look-up
+                        fields, resistance_field, proliferation_field[cls], tropism_field[cls], sx, sy, sz)
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
                         if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
@@ -568,13 +576,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     if pore >= 0:
                         resistance = pore_resistance_mpa
                     elif resistance_field >= 0:
-                        resistance = value_at(fields, resistance_field, sx, sy, sz)
+                        resistance = field_resistance
                     else:
                         resistance = 0.0
                     rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
                                                                       response_parameter_mpa, tipf[j, T_FELT])
                     if proliferation_field[cls] >= 0:
-                        level = max(value_at(fields, proliferation_field[cls], sx, sy, sz), 0.0)
+                        level = max(level, 0.0)
                         proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level \
                             / (level + proliferation_half[cls])
                         rate *= proliferation
@@ -606,7 +614,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 field_shrink = 1.0
                 gx, gy, gz = 0.0, 0.0, 0.0
                 if use_fields and tropism_field[cls] >= 0 and pore < 0:
-                    gx, gy, gz = gradient_at(fields, tropism_field[cls], sx, sy, sz)
+                    gx, gy, gz = field_gx, field_gy, field_gz
                     gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
                     if gnorm > 0 and math.isfinite(gnorm):
                         gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
@@ -631,6 +639,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     hx, hy, hz = pores.axis[pore, 0], pores.axis[pore, 1], pores.axis[pore, 2]
                 else:
                     hx, hy, hz = deflect(soil_tops, soil_sin_max, sx, sy, sz, hx, hy, hz, ds)
+                    if field_deflection:  # strong regions of a 3D resistance field (layers deflect above)
+                        hx, hy, hz = deflect_by_field(fields, resistance_field, deflection_threshold_mpa,
+                                                      soil_sin_max, resistance, sx, sy, sz, hx, hy, hz, ds)
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:

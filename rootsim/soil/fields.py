@@ -49,7 +49,8 @@ __all__ = [
     "KNOWN_FIELDS", "FieldSource", "CompiledFields", "SoilFields",
     "constant_source", "layered_source", "depth_table_source", "grid_source", "box_patch", "sphere_patch",
     "cylinder_patch", "power_law_source", "compile_fields", "value_at", "gradient_at", "values_at",
-    "gradients_at",
+    "gradients_at", "value_and_gradient_at", "planned_value_and_gradient", "field_plan", "PLAN_GENERIC",
+    "field_value_range",
 ]
 
 #: Fields with a meaning rootsim knows: name -> (lowest, highest) plausible value of an input.
@@ -78,6 +79,11 @@ _NI = 7   # int parameters per source: data offset, n0, n1, n2, field a, field b
 #: Smallest water content used by the power law (avoids 0 ** negative).
 MIN_WATER_CONTENT = 1e-3
 
+#: Plan of a field evaluated by the generic per-source dispatch (:attr:`CompiledFields.plan`).
+PLAN_GENERIC = -1
+_BASE_KINDS = (CONSTANT, LAYERS, DEPTH_TABLE, GRID_NODES, GRID_CELLS)
+_PATCH_KINDS = (BOX, SPHERE, CYLINDER)
+
 
 class FieldSource(NamedTuple):
     """One source of a field before compilation (build it with the ``*_source`` / ``*_patch`` functions)."""
@@ -102,6 +108,10 @@ class CompiledFields(NamedTuple):
     ints : ndarray of int64, shape (n_sources, 7)
     data : ndarray of float64, shape (n_data,)
         Layer edges and values, table rows and grid values (C order, axes x, y, z) of every source.
+    plan : ndarray of int64, shape (n_fields,)
+        How the kernels evaluate field ``f``: :data:`PLAN_GENERIC` (every source in turn through the generic
+        source dispatch), or the kind of its first source, evaluated by that kind's own code, followed by its
+        patches (see :func:`field_plan`).
     """
 
     field_first: np.ndarray
@@ -110,6 +120,7 @@ class CompiledFields(NamedTuple):
     params: np.ndarray
     ints: np.ndarray
     data: np.ndarray
+    plan: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -325,18 +336,133 @@ def compile_fields(fields: Mapping[str, Sequence[FieldSource]]) -> SoilFields:
             chunks.append(np.asarray(src.data, np.float64))
             offset += src.data.size
         first.append(len(kinds))
+    kind_arr = np.asarray(kinds, np.int64).reshape(-1)
+    mode_arr = np.asarray(modes, np.int64).reshape(-1)
+    ints_arr = np.asarray(ints, np.int64).reshape(-1, _NI)
+    first_arr = np.asarray(first, np.int64)
+    params_arr = np.asarray(params, np.float64).reshape(-1, _NP)
+    data = np.concatenate(chunks) if chunks else np.zeros(0)
+    plan = field_plan(first_arr, kind_arr, mode_arr, ints_arr)
     compiled = CompiledFields(
-        field_first=np.asarray(first, np.int64),
-        kind=np.asarray(kinds, np.int64).reshape(-1),
-        mode=np.asarray(modes, np.int64).reshape(-1),
-        params=np.ascontiguousarray(np.asarray(params, np.float64).reshape(-1, _NP)),
-        ints=np.ascontiguousarray(np.asarray(ints, np.int64).reshape(-1, _NI)),
-        data=np.ascontiguousarray(np.concatenate(chunks) if chunks else np.zeros(0)),
-    )
+        field_first=first_arr, kind=kind_arr, mode=mode_arr, params=np.ascontiguousarray(params_arr),
+        ints=np.ascontiguousarray(ints_arr), data=np.ascontiguousarray(data, np.float64), plan=plan)
     return SoilFields(names=names, compiled=compiled)
 
 
+def field_plan(field_first: np.ndarray, kind: np.ndarray, mode: np.ndarray, ints: np.ndarray) -> np.ndarray:
+    """How the kernels evaluate each field (:attr:`CompiledFields.plan`).
+
+    A field whose first source is a base source (constant, layers, depth table, grid) or a power law, applied
+    with mode ``replace`` or ``add``, and whose other sources are patches, is evaluated by its first source's
+    own code (a grid is a direct trilinear or cell look-up) followed by the patches; a power law's two fields
+    must have that form themselves. Its plan is the first source's kind. Every other field (a patch or a
+    ``multiply`` first, a power law after the first source, ...) has :data:`PLAN_GENERIC`: each source through
+    the generic dispatch. Both give the same numbers (the same operations in the same order), which
+    ``tests/test_soil_fields.py`` checks on random points for every source kind.
+
+    Returns
+    -------
+    ndarray of int64, shape (n_fields,)
+    """
+    n_fields = field_first.size - 1
+
+    def simple(f, allow_power):
+        lo, hi = int(field_first[f]), int(field_first[f + 1])
+        if hi == lo or mode[lo] not in (REPLACE, ADD):
+            return False
+        if not (kind[lo] in _BASE_KINDS or (allow_power and kind[lo] == POWER_LAW)):
+            return False
+        return all(kind[s] in _PATCH_KINDS for s in range(lo + 1, hi))
+
+    plan = np.full(n_fields, PLAN_GENERIC, np.int64)
+    for f in range(n_fields):
+        if not simple(f, True):
+            continue
+        s = int(field_first[f])
+        if kind[s] == POWER_LAW and not (simple(int(ints[s, 4]), False) and simple(int(ints[s, 5]), False)):
+            continue
+        plan[f] = kind[s]
+    return plan
+
+
+def field_value_range(compiled: CompiledFields, field_index: int) -> tuple:
+    """Bounds ``(low, high)`` that every value of a field lies within, by interval arithmetic over its sources.
+
+    A base source spans its values (a grid also its ``outside_value``; one that may not apply keeps what came
+    before), a patch weighs its value between 0 and 1 into the running value by its mode, and a power law takes
+    its extremes at the corners of its two fields' ranges (it is monotone in each). The bounds may be wider than
+    the values a field takes, never narrower; ``inf`` where they cannot be bounded. The growth engine uses the
+    upper bound to skip the look-ahead of :func:`rootsim.growth.soil.deflect_by_field` in soils that are never
+    strong enough to deflect.
+    """
+    c = compiled
+
+    def span(f, allow_power=True):
+        low = high = 0.0
+        for s in range(int(c.field_first[f]), int(c.field_first[f + 1])):
+            kind, mode = int(c.kind[s]), int(c.mode[s])
+            off = int(c.ints[s, 0])
+            weight_one = True  # False: the weight lies anywhere in [0, 1] (or is 0 or 1)
+            if kind == CONSTANT:
+                values = [c.params[s, 0]]
+            elif kind == LAYERS:
+                n = int(c.ints[s, 1])
+                values = c.data[off + n: off + 2 * n + 1]
+            elif kind == DEPTH_TABLE:
+                n = int(c.ints[s, 1])
+                values = c.data[off + n: off + 2 * n]
+            elif kind in (GRID_NODES, GRID_CELLS):
+                n = int(c.ints[s, 1] * c.ints[s, 2] * c.ints[s, 3])
+                values = list(c.data[off: off + n]) if n <= 16 else [c.data[off: off + n].min(),
+                                                                      c.data[off: off + n].max()]
+                if c.ints[s, 6] == OUTSIDE_VALUE:
+                    values.append(c.params[s, 6])
+                elif c.ints[s, 6] == OUTSIDE_NONE:
+                    weight_one = False
+            elif kind == POWER_LAW:
+                if not allow_power:
+                    return -math.inf, math.inf
+                theta_low, theta_high = span(int(c.ints[s, 4]), False)
+                rho_low, rho_high = span(int(c.ints[s, 5]), False)
+                thetas = [max(theta_low, MIN_WATER_CONTENT), max(theta_high, MIN_WATER_CONTENT)]
+                values = [0.0] if rho_low <= 0 else []
+                if rho_high > 0:
+                    rhos = [max(rho_low, 0.0), rho_high]
+                    with np.errstate(all="ignore"):
+                        values += [c.params[s, 0] * t ** c.params[s, 1] * r ** c.params[s, 2]
+                                   for t in thetas for r in rhos]
+            else:  # a patch
+                values = [c.params[s, 6]]
+                weight_one = False
+            source_low, source_high = float(np.min(values)), float(np.max(values))
+            if not (np.isfinite(source_low) and np.isfinite(source_high)):
+                return -math.inf, math.inf
+            if mode == ADD:
+                if weight_one:
+                    low, high = low + source_low, high + source_high
+                else:
+                    low, high = low + min(source_low, 0.0), high + max(source_high, 0.0)
+            elif mode == MULTIPLY:
+                factors = (source_low, source_high) if weight_one else (min(source_low, 1.0), max(source_high, 1.0))
+                products = [a * b for a in (low, high) for b in factors]
+                low, high = min(products), max(products)
+            elif weight_one:
+                low, high = source_low, source_high
+            else:
+                low, high = min(low, source_low), max(high, source_high)
+        return low, high
+
+    low, high = span(int(field_index))
+    return float(low), float(high)
+
+
 # -- kernels ---------------------------------------------------------------------------------------
+
+#: Options of the per-point kernels the growth step calls: not inlined (inlined, their array arguments would be
+#: reference-counted at every call, which costs more than the look-up), no reference counting of the arrays they
+#: read, IEEE division (no divisor here can be zero: spacings, table steps and edge widths are > 0).
+_POINT_KERNEL = {"cache": True, "error_model": "numpy", "_nrt": False}
+
 
 @njit(cache=True, inline="always")
 def _edge_weight(dist, edge):
@@ -375,7 +501,7 @@ def _axis_cell(u, n, at_cells, clamp):
     return k, u - k, inside
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, outside_value, x, y, z):
     """(weight, value, gx, gy, gz) of a grid source (scalar arguments: cheap to call per point)."""
     clamp = rule == CLAMP
@@ -418,7 +544,7 @@ def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, outside_va
     return 1.0, value, gx, gy, gz
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _layers(data, off, n, depth):
     """Value of a layered source at ``depth`` (interval i is (edges[i-1], edges[i]])."""
     lo = 0
@@ -432,7 +558,7 @@ def _layers(data, off, n, depth):
     return data[off + n + lo]
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _depth_table(data, off, n, depth):
     """Value and d(value)/dz of a depth table."""
     if depth <= data[off]:
@@ -516,32 +642,47 @@ def _cylinder(x, y, z, sx, sy, sz, ux, uy, uz, length, radius, edge):
 
 
 @njit(cache=True, inline="always")
+def _patch(kinds, params, s, x, y, z):
+    """(w, wgx, wgy, wgz): weight of patch source ``s`` and its gradient at one point (0 for other kinds)."""
+    kind = kinds[s]
+    if kind == BOX:
+        return _box(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4], params[s, 5],
+                    params[s, 7])
+    if kind == SPHERE:
+        return _sphere(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 7])
+    if kind == CYLINDER:
+        return _cylinder(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4],
+                         params[s, 5], params[s, 8], params[s, 9], params[s, 7])
+    return 0.0, 0.0, 0.0, 0.0
+
+
+@njit(cache=True, inline="always")
+def _base(kinds, params, ints, data, s, x, y, z):
+    """(w, value, gx, gy, gz) of base source ``s`` (constant, layers, depth table, grid) at one point."""
+    kind = kinds[s]
+    if kind == GRID_NODES or kind == GRID_CELLS:
+        return _grid(data, ints[s, 0], ints[s, 1], ints[s, 2], ints[s, 3], ints[s, 6], kind == GRID_CELLS,
+                     params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4], params[s, 5],
+                     params[s, 6], x, y, z)
+    if kind == LAYERS:
+        return 1.0, _layers(data, ints[s, 0], ints[s, 1], -z), 0.0, 0.0, 0.0
+    if kind == DEPTH_TABLE:
+        v, gz = _depth_table(data, ints[s, 0], ints[s, 1], -z)
+        return 1.0, v, 0.0, 0.0, gz
+    return 1.0, params[s, 0], 0.0, 0.0, 0.0
+
+
+@njit(cache=True, inline="always")
 def _source(kinds, params, ints, data, s, x, y, z):
     """(w, value, gx, gy, gz, wgx, wgy, wgz) of source ``s`` at one point (power laws excluded)."""
     kind = kinds[s]
-    if kind == CONSTANT:
-        return 1.0, params[s, 0], 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-    if kind == LAYERS:
-        return 1.0, _layers(data, ints[s, 0], ints[s, 1], -z), 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-    if kind == DEPTH_TABLE:
-        v, gz = _depth_table(data, ints[s, 0], ints[s, 1], -z)
-        return 1.0, v, 0.0, 0.0, gz, 0.0, 0.0, 0.0
-    if kind == GRID_NODES or kind == GRID_CELLS:
-        w, v, gx, gy, gz = _grid(data, ints[s, 0], ints[s, 1], ints[s, 2], ints[s, 3], ints[s, 6],
-                                 kind == GRID_CELLS, params[s, 0], params[s, 1], params[s, 2], params[s, 3],
-                                 params[s, 4], params[s, 5], params[s, 6], x, y, z)
-        return w, v, gx, gy, gz, 0.0, 0.0, 0.0
-    if kind == BOX:
-        w, wgx, wgy, wgz = _box(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4],
-                                params[s, 5], params[s, 7])
-    elif kind == SPHERE:
-        w, wgx, wgy, wgz = _sphere(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 7])
-    elif kind == CYLINDER:
-        w, wgx, wgy, wgz = _cylinder(x, y, z, params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4],
-                                     params[s, 5], params[s, 8], params[s, 9], params[s, 7])
-    else:
+    if kind == BOX or kind == SPHERE or kind == CYLINDER:
+        w, wgx, wgy, wgz = _patch(kinds, params, s, x, y, z)
+        return w, params[s, 6], 0.0, 0.0, 0.0, wgx, wgy, wgz
+    if kind == POWER_LAW:
         return 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0
-    return w, params[s, 6], 0.0, 0.0, 0.0, wgx, wgy, wgz
+    w, v, gx, gy, gz = _base(kinds, params, ints, data, s, x, y, z)
+    return w, v, gx, gy, gz, 0.0, 0.0, 0.0
 
 
 @njit(cache=True, inline="always")
@@ -557,7 +698,23 @@ def _apply(mode, v, gx, gy, gz, w, s, sgx, sgy, sgz, wgx, wgy, wgz):
             (1.0 - w) * gy + w * sgy + (s - v) * wgy, (1.0 - w) * gz + w * sgz + (s - v) * wgz)
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
+def _power_law(params, s, theta, tx, ty, tz, rho, rx, ry, rz):
+    """Value and gradient of power-law source ``s`` from its two fields' values and gradients."""
+    if theta < MIN_WATER_CONTENT:
+        theta = MIN_WATER_CONTENT
+        tx = 0.0
+        ty = 0.0
+        tz = 0.0
+    if rho <= 0.0:
+        return 0.0, 0.0, 0.0, 0.0
+    sv = params[s, 0] * theta ** params[s, 1] * rho ** params[s, 2]
+    return (sv, sv * (params[s, 1] * tx / theta + params[s, 2] * rx / rho),
+            sv * (params[s, 1] * ty / theta + params[s, 2] * ry / rho),
+            sv * (params[s, 1] * tz / theta + params[s, 2] * rz / rho))
+
+
+@njit(**_POINT_KERNEL)
 def _plain(field_first, kinds, modes, params, ints, data, f, x, y, z):
     """Value and gradient of a field without power-law sources."""
     v = 0.0
@@ -572,9 +729,10 @@ def _plain(field_first, kinds, modes, params, ints, data, f, x, y, z):
     return v, gx, gy, gz
 
 
-@njit(cache=True, inline="always")
+@njit(**_POINT_KERNEL)
 def _evaluate(field_first, kinds, modes, params, ints, data, f, x, y, z):
-    """Value and gradient (d/dx, d/dy, d/dz per cm) of field ``f`` at one point."""
+    """Value and gradient (d/dx, d/dy, d/dz per cm) of field ``f`` at one point: every source in turn through
+    the generic dispatch (the reference of the planned evaluation, and its fallback)."""
     v = 0.0
     gx = 0.0
     gy = 0.0
@@ -583,21 +741,7 @@ def _evaluate(field_first, kinds, modes, params, ints, data, f, x, y, z):
         if kinds[s] == POWER_LAW:
             theta, tx, ty, tz = _plain(field_first, kinds, modes, params, ints, data, ints[s, 4], x, y, z)
             rho, rx, ry, rz = _plain(field_first, kinds, modes, params, ints, data, ints[s, 5], x, y, z)
-            if theta < MIN_WATER_CONTENT:
-                theta = MIN_WATER_CONTENT
-                tx = 0.0
-                ty = 0.0
-                tz = 0.0
-            if rho <= 0.0:
-                sv = 0.0
-                sgx = 0.0
-                sgy = 0.0
-                sgz = 0.0
-            else:
-                sv = params[s, 0] * theta ** params[s, 1] * rho ** params[s, 2]
-                sgx = sv * (params[s, 1] * tx / theta + params[s, 2] * rx / rho)
-                sgy = sv * (params[s, 1] * ty / theta + params[s, 2] * ry / rho)
-                sgz = sv * (params[s, 1] * tz / theta + params[s, 2] * rz / rho)
+            sv, sgx, sgy, sgz = _power_law(params, s, theta, tx, ty, tz, rho, rx, ry, rz)
             v, gx, gy, gz = _apply(modes[s], v, gx, gy, gz, 1.0, sv, sgx, sgy, sgz, 0.0, 0.0, 0.0)
         else:
             w, sv, sgx, sgy, sgz, wgx, wgy, wgz = _source(kinds, params, ints, data, s, x, y, z)
@@ -606,13 +750,55 @@ def _evaluate(field_first, kinds, modes, params, ints, data, f, x, y, z):
 
 
 @njit(cache=True, inline="always")
-def value_at(compiled, field_index, x, y, z):
-    """Value of field ``field_index`` at the point (x, y, z) cm (scalar numba kernel)."""
-    c = compiled
-    return _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, field_index, x, y, z)[0]
+def _base_and_patches(field_first, kinds, modes, params, ints, data, f, x, y, z):
+    """Value and gradient of a field planned as one base source followed by patches (:func:`field_plan`)."""
+    s = field_first[f]
+    w, sv, sgx, sgy, sgz = _base(kinds, params, ints, data, s, x, y, z)
+    v, gx, gy, gz = _apply(modes[s], 0.0, 0.0, 0.0, 0.0, w, sv, sgx, sgy, sgz, 0.0, 0.0, 0.0)
+    for p in range(s + 1, field_first[f + 1]):
+        w, wgx, wgy, wgz = _patch(kinds, params, p, x, y, z)
+        v, gx, gy, gz = _apply(modes[p], v, gx, gy, gz, w, params[p, 6], 0.0, 0.0, 0.0, wgx, wgy, wgz)
+    return v, gx, gy, gz
+
+
+@njit(**_POINT_KERNEL)
+def _planned_power_law(field_first, kinds, modes, params, ints, data, f, x, y, z):
+    """Value and gradient of a field planned as a power law of two base-and-patches fields, then patches."""
+    s = field_first[f]
+    theta, tx, ty, tz = _base_and_patches(field_first, kinds, modes, params, ints, data, ints[s, 4], x, y, z)
+    rho, rx, ry, rz = _base_and_patches(field_first, kinds, modes, params, ints, data, ints[s, 5], x, y, z)
+    sv, sgx, sgy, sgz = _power_law(params, s, theta, tx, ty, tz, rho, rx, ry, rz)
+    v, gx, gy, gz = _apply(modes[s], 0.0, 0.0, 0.0, 0.0, 1.0, sv, sgx, sgy, sgz, 0.0, 0.0, 0.0)
+    for p in range(s + 1, field_first[f + 1]):
+        w, wgx, wgy, wgz = _patch(kinds, params, p, x, y, z)
+        v, gx, gy, gz = _apply(modes[p], v, gx, gy, gz, w, params[p, 6], 0.0, 0.0, 0.0, wgx, wgy, wgz)
+    return v, gx, gy, gz
 
 
 @njit(cache=True, inline="always")
+def planned_value_and_gradient(c, f, x, y, z):
+    """``(value, d/dx, d/dy, d/dz)`` of field ``f`` by its plan (:func:`field_plan`): the same numbers as the
+    generic evaluation, with the common base-source fields read by their own code.
+
+    Inlined into its caller: meant for kernels compiled without reference counting (``_nrt=False``), such as
+    :func:`value_at` or :func:`rootsim.growth.soil.soil_at_tip`; inlined into a reference-counted function its
+    array reads would be counted at every call.
+    """
+    plan = c.plan[f]
+    if plan == PLAN_GENERIC:
+        return _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x, y, z)
+    if plan == POWER_LAW:
+        return _planned_power_law(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x, y, z)
+    return _base_and_patches(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x, y, z)
+
+
+@njit(**_POINT_KERNEL)
+def value_at(compiled, field_index, x, y, z):
+    """Value of field ``field_index`` at the point (x, y, z) cm (scalar numba kernel)."""
+    return planned_value_and_gradient(compiled, field_index, x, y, z)[0]
+
+
+@njit(**_POINT_KERNEL)
 def gradient_at(compiled, field_index, x, y, z):
     """Gradient ``(d/dx, d/dy, d/dz)`` per cm of field ``field_index`` at (x, y, z) (scalar numba kernel).
 
@@ -620,23 +806,32 @@ def gradient_at(compiled, field_index, x, y, z):
     patch edges of width ``edge_width_cm``; zero inside piecewise-constant parts (layers, cell grids,
     patch interiors) and outside clamped grid axes.
     """
-    c = compiled
-    v, gx, gy, gz = _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, field_index, x, y, z)
+    v, gx, gy, gz = planned_value_and_gradient(compiled, field_index, x, y, z)
     return gx, gy, gz
 
 
-@njit(cache=True)
-def _values_loop(c, f, x, y, z, out):
-    field_first, kinds, modes, params, ints, data = c.field_first, c.kind, c.mode, c.params, c.ints, c.data
-    for i in range(x.size):
-        out[i] = _evaluate(field_first, kinds, modes, params, ints, data, f, x[i], y[i], z[i])[0]
+@njit(**_POINT_KERNEL)
+def value_and_gradient_at(compiled, field_index, x, y, z):
+    """``(value, d/dx, d/dy, d/dz)`` of field ``field_index`` at (x, y, z) in one pass (scalar numba kernel)."""
+    return planned_value_and_gradient(compiled, field_index, x, y, z)
 
 
 @njit(cache=True)
-def _gradients_loop(c, f, x, y, z, out):
-    field_first, kinds, modes, params, ints, data = c.field_first, c.kind, c.mode, c.params, c.ints, c.data
+def _values_loop(c, f, x, y, z, out, reference):
     for i in range(x.size):
-        v, gx, gy, gz = _evaluate(field_first, kinds, modes, params, ints, data, f, x[i], y[i], z[i])
+        if reference:
+            out[i] = _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x[i], y[i], z[i])[0]
+        else:
+            out[i] = value_at(c, f, x[i], y[i], z[i])
+
+
+@njit(cache=True)
+def _gradients_loop(c, f, x, y, z, out, reference):
+    for i in range(x.size):
+        if reference:
+            v, gx, gy, gz = _evaluate(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x[i], y[i], z[i])
+        else:
+            gx, gy, gz = gradient_at(c, f, x[i], y[i], z[i])
         out[i, 0] = gx
         out[i, 1] = gy
         out[i, 2] = gz
@@ -648,7 +843,7 @@ def _points(x, y, z):
     return shape, [np.ascontiguousarray(a.ravel()) for a in (bx, by, bz)]
 
 
-def values_at(compiled: CompiledFields, field_index: int, x, y, z) -> np.ndarray:
+def values_at(compiled: CompiledFields, field_index: int, x, y, z, *, reference: bool = False) -> np.ndarray:
     """Values of one field at many points.
 
     Parameters
@@ -657,6 +852,9 @@ def values_at(compiled: CompiledFields, field_index: int, x, y, z) -> np.ndarray
     field_index : int
     x, y, z : array_like
         Coordinates in cm (broadcast together).
+    reference : bool, keyword-only
+        Evaluate every source in turn through the generic dispatch instead of the field's plan (the same
+        numbers, slower; the reference the plans are tested against).
 
     Returns
     -------
@@ -664,13 +862,14 @@ def values_at(compiled: CompiledFields, field_index: int, x, y, z) -> np.ndarray
     """
     shape, (px, py, pz) = _points(x, y, z)
     out = np.empty(px.size)
-    _values_loop(compiled, int(field_index), px, py, pz, out)
+    _values_loop(compiled, int(field_index), px, py, pz, out, bool(reference))
     return out.reshape(shape)
 
 
-def gradients_at(compiled: CompiledFields, field_index: int, x, y, z) -> np.ndarray:
-    """Gradients of one field at many points: shape (*broadcast shape, 3), units of the field per cm."""
+def gradients_at(compiled: CompiledFields, field_index: int, x, y, z, *, reference: bool = False) -> np.ndarray:
+    """Gradients of one field at many points: shape (*broadcast shape, 3), units of the field per cm
+    (``reference``: as in :func:`values_at`)."""
     shape, (px, py, pz) = _points(x, y, z)
     out = np.empty((px.size, 3))
-    _gradients_loop(compiled, int(field_index), px, py, pz, out)
+    _gradients_loop(compiled, int(field_index), px, py, pz, out, bool(reference))
     return out.reshape(shape + (3,))
