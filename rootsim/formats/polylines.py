@@ -18,6 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["Polylines", "polylines_from_segments", "polyline_segments", "polyline_subset", "polyline_chunks",
+           "polyline_points", "sorted_positions",
            "run_duration_days", "root_class_codes"]
 
 #: Largest gap (cm) between a segment's start and its predecessor's end still treated as shared.
@@ -159,6 +160,53 @@ def polyline_subset(system, segment_order: np.ndarray, segment_offsets: np.ndarr
     point_segment[end_point] = order
     point_segment[first_point] = first_rows
     return Polylines(order, offsets, point_offsets, points, point_segment)
+
+
+def polyline_points(system, segment_order: np.ndarray, segment_offsets: np.ndarray,
+                    polylines: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Points of some polylines of a :func:`polyline_segments` grouping, one polyline after the other.
+
+    Parameters
+    ----------
+    system : RootSystem or mapping of str to ndarray
+    segment_order, segment_offsets : ndarray of int64
+        From :func:`polyline_segments`.
+    polylines : ndarray of int, shape (q,)
+        Polylines to gather, in any order.
+
+    Returns
+    -------
+    points : ndarray of float64, shape (m, 3)
+        For each listed polyline its ``k + 1`` points (start of its first segment, then the end of
+        each segment), cm: the same numbers as its rows of :attr:`Polylines.points`.
+    point_segment : ndarray of int64, shape (m,)
+        Segment row whose data each point carries.
+    """
+    polylines = np.asarray(polylines, dtype=np.int64)
+    begin = segment_offsets[polylines]
+    counts = segment_offsets[polylines + 1] - begin + 1  # points per polyline
+    starts = np.cumsum(counts) - counts
+    m = int(counts.sum())
+    # point j of a polyline takes the end of its segment j - 1, point 0 the start of segment 0
+    position = np.arange(m, dtype=np.int64) + np.repeat(begin - starts - 1, counts)
+    position[starts] = begin
+    point_segment = segment_order[position]
+    del position
+    points = np.empty((m, 3), dtype=np.float64)
+    for axis, (a, b) in enumerate(_ENDS):
+        points[:, axis] = np.asarray(system[b], dtype=np.float64)[point_segment]
+        points[starts, axis] = np.asarray(system[a], dtype=np.float64)[point_segment[starts]]
+    return points, point_segment
+
+
+def sorted_positions(segment_order: np.ndarray, *, block: int = 1 << 20) -> np.ndarray:
+    """Inverse of ``segment_order``: the position of every segment row in polyline order, shape (n,)."""
+    n = len(segment_order)
+    out = np.empty(n, dtype=np.int64)
+    for start in range(0, n, block):  # no arange of the whole table beside the result
+        stop = min(start + block, n)
+        out[segment_order[start:stop]] = np.arange(start, stop, dtype=np.int64)
+    return out
 
 
 def polyline_chunks(segment_offsets: np.ndarray, chunk_segments: int) -> list[tuple[int, int]]:
