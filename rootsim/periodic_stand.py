@@ -28,6 +28,8 @@ __all__ = ["PeriodicCell", "stand_cell", "segment_images", "segment_images_of_co
 BOUNDARY_PERIODIC = "periodic"
 BOUNDARY_BORDERED = "bordered"
 _MAX_IMAGES = 50_000_000
+#: Rows whose periodic images :func:`segment_images_of_columns` builds at a time.
+IMAGE_CHUNK_ROWS = 1 << 17
 
 
 @dataclass(frozen=True)
@@ -207,7 +209,7 @@ def _check_image_total(total_f: float, box) -> None:
 
 
 def segment_images_of_columns(columns, cell: PeriodicCell | None, box, *,
-                              chunk_rows: int = 1 << 18) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                              chunk_rows: int | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """:func:`segment_images` of the segments in the columns ``x0 y0 z0 x1 y1 z1``, built a chunk at a time.
 
     The same arrays as ``segment_images(p0, p1, cell, box)`` with ``p0``, ``p1`` the stacked columns,
@@ -220,9 +222,10 @@ def segment_images_of_columns(columns, cell: PeriodicCell | None, box, *,
         End point coordinates, cm.
     cell, box
         As for :func:`segment_images`.
-    chunk_rows : int
-        Rows per chunk.
+    chunk_rows : int, optional
+        Rows per chunk (default :data:`IMAGE_CHUNK_ROWS`).
     """
+    chunk_rows = IMAGE_CHUNK_ROWS if chunk_rows is None else max(int(chunk_rows), 1)
     names = ("x0", "y0", "z0", "x1", "y1", "z1")
     cols = [np.asarray(columns[name], dtype=np.float64) for name in names]
     n = len(cols[0])
@@ -233,6 +236,9 @@ def segment_images_of_columns(columns, cell: PeriodicCell | None, box, *,
     if cell is None or n == 0:
         p0, p1 = stacked(0, n)
         return p0, p1, np.arange(n, dtype=np.int64)
+    if n <= chunk_rows:  # one chunk: the images need no copying
+        p0, p1 = stacked(0, n)
+        return segment_images(p0, p1, cell, box)
     chunks = [(lo, min(lo + chunk_rows, n)) for lo in range(0, n, chunk_rows)]
     counts, total_f, plain = [], 0.0, True
     for lo, hi in chunks:

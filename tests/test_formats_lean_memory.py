@@ -65,3 +65,19 @@ def test_chunked_ply_holds_the_whole_system_arrays(systems, tmp_path, kind):
     loaded = trimesh.load(path, force="mesh", process=False)
     np.testing.assert_array_equal(np.asarray(loaded.vertices, dtype=np.float32), arrays.vertices.astype(np.float32))
     np.testing.assert_array_equal(np.asarray(loaded.faces), arrays.faces)
+
+
+@pytest.mark.parametrize("kind", ["grouped", "interleaved"])
+def test_polyline_points_of_any_polylines_are_the_whole_system_points(systems, kind):
+    # RSML batches gather their points from the table: the same numbers as the whole-system polylines.
+    from rootsim.formats.polylines import polyline_points, polyline_segments, polylines_from_segments
+
+    system = systems[kind]
+    whole = polylines_from_segments(system)
+    order, offsets = polyline_segments(system)
+    np.testing.assert_array_equal(order, whole.segment_order)
+    picked = np.random.default_rng(2).permutation(whole.n_polylines)[:25]
+    points, point_segment = polyline_points(system, order, offsets, picked)
+    rows = np.concatenate([np.arange(whole.point_offsets[p], whole.point_offsets[p + 1]) for p in picked])
+    np.testing.assert_array_equal(points, whole.points[rows])
+    np.testing.assert_array_equal(point_segment, whole.point_segment[rows])

@@ -23,7 +23,7 @@ from .columns import point_columns, segment_endpoints
 __all__ = ["stand_rld", "bias_table", "BIAS_COLUMNS", "DEFAULT_TUBE_BAND_CM"]
 
 DEFAULT_TUBE_BAND_CM = 10.0
-_BLOCK = 1 << 18  # segments whose lengths are computed at a time
+_BLOCK = 1 << 16  # segments whose lengths are computed at a time
 BIAS_COLUMNS = ("method", "group", "depth_top_cm", "depth_bottom_cm", "units", "rld_estimate_mean_cm_per_cm3",
                 "rld_estimate_sd_cm_per_cm3", "rld_stand_cm_per_cm3", "ratio_mean", "ratio_sd")
 
