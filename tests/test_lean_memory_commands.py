@@ -102,3 +102,20 @@ def test_a_render_scene_holds_no_column_of_the_table(stand):
     np.testing.assert_array_equal(render_image(scene, size=(320, 240), view="side", color_by="age"), direct)
     with pytest.raises(Exception, match="color_by"):
         render_image(scene, size=(320, 240), color_by="order")
+
+
+def test_command_memory_bench_stage_reports_every_command(stand, tmp_path, monkeypatch):
+    # The bench stage on 3,000 rows of the stand (no fresh processes here: the resident figure is left out).
+    from rootsim.bench import command_memory
+    from rootsim.rootsystem import RootSystem
+
+    monkeypatch.setattr(command_memory, "_resident_run", lambda warm, argv: None)
+    folder, _ = stand
+    whole = RootSystem.read(folder)
+    system = RootSystem.from_dataframe(whole.to_dataframe().iloc[:3_000], whole.metadata)
+    results = command_memory.run(system, workdir=tmp_path, commands=("sample", "export_mesh"))
+    assert set(results) == {"memory_sample", "memory_export_mesh"}
+    for entry in results.values():
+        assert entry["segments"] == len(system) and entry["seconds"] > 0 and entry["floor_seconds"] > 0
+        assert entry["bytes_per_segment"] > 0 and entry["peak_resident_bytes_per_segment"] is None
+        assert entry["target_bytes_per_segment"] == 250

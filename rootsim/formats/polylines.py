@@ -143,8 +143,8 @@ def polyline_subset(system, segment_order: np.ndarray, segment_offsets: np.ndarr
     order = segment_order[lo:hi]
     offsets = segment_offsets[first:stop + 1] - lo
     n, n_poly = hi - lo, stop - first
-    begins = np.zeros(n, dtype=np.int64)
-    begins[offsets[:-1]] = 1
+    begins = np.zeros(n, dtype=bool)
+    begins[offsets[:-1]] = True
     point_offsets = offsets + np.arange(n_poly + 1, dtype=np.int64)
     # Segment k (in polyline order) ends at point k + (number of polylines begun at or before k).
     end_point = np.arange(n, dtype=np.int64) + np.cumsum(begins)
