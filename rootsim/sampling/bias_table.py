@@ -53,9 +53,13 @@ def stand_rld(system: Any, tops: np.ndarray, bottoms: np.ndarray) -> np.ndarray:
         length[start:start + _BLOCK] = np.linalg.norm(p1 - p0, axis=1)
         del p0, p1
     out = np.empty(len(tops))
+    inside = np.empty(len(s0))
     for i, (top, bottom) in enumerate(zip(tops, bottoms)):
-        t_in, t_out = linear_parameters(s0, ds, float(top), float(bottom))
-        out[i] = interval_length(t_in, t_out, length).sum() / (area * (float(bottom) - float(top)))
+        for start in range(0, len(s0), _BLOCK):  # clipped a block at a time, summed over the whole array
+            block = slice(start, start + _BLOCK)
+            t_in, t_out = linear_parameters(s0[block], ds[block], float(top), float(bottom))
+            inside[block] = interval_length(t_in, t_out, length[block])
+        out[i] = inside.sum() / (area * (float(bottom) - float(top)))
     return out
 
 
