@@ -74,7 +74,7 @@ DEFAULT_RADIUS_CM = 0.025
 _POINT = '<point x="%s" y="%s" z="%s"/>'
 _SAMPLE = '<sample value="%s"/>'
 #: Points whose numbers are turned into text at once while writing (bounds the memory of the strings).
-_BATCH_POINTS = 65_536
+_BATCH_POINTS = 16_384
 
 
 # --------------------------------------------------------------------------------------------
