@@ -23,11 +23,13 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["PeriodicCell", "stand_cell", "segment_images", "rows_along_y", "BOUNDARY_PERIODIC", "BOUNDARY_BORDERED"]
+__all__ = ["PeriodicCell", "stand_cell", "segment_images", "segment_images_of_columns", "rows_along_y", "BOUNDARY_PERIODIC", "BOUNDARY_BORDERED"]
 
 BOUNDARY_PERIODIC = "periodic"
 BOUNDARY_BORDERED = "bordered"
 _MAX_IMAGES = 50_000_000
+#: Rows whose periodic images :func:`segment_images_of_columns` builds at a time.
+IMAGE_CHUNK_ROWS = 1 << 17
 
 
 @dataclass(frozen=True)
@@ -156,22 +158,9 @@ def segment_images(p0: np.ndarray, p1: np.ndarray, cell: PeriodicCell | None,
     n = len(p0)
     if cell is None:
         return p0, p1, np.arange(n, dtype=np.int64)
-    xmin, xmax, ymin, ymax = (float(v) for v in box)
     lx, ly = cell.period_x_cm, cell.period_y_cm
-    sx0 = np.minimum(p0[:, 0], p1[:, 0])
-    sx1 = np.maximum(p0[:, 0], p1[:, 0])
-    sy0 = np.minimum(p0[:, 1], p1[:, 1])
-    sy1 = np.maximum(p0[:, 1], p1[:, 1])
-    with np.errstate(over="ignore", invalid="ignore"):
-        bounds_f = (np.ceil((xmin - sx1) / lx), np.floor((xmax - sx0) / lx),
-                    np.ceil((ymin - sy1) / ly), np.floor((ymax - sy0) / ly))
-        total_f = float(np.sum(np.maximum(bounds_f[1] - bounds_f[0] + 1, 0) * np.maximum(bounds_f[3] - bounds_f[2] + 1, 0)))
-    del sx0, sx1, sy0, sy1  # temporaries are freed as soon as they are used (memory per segment)
-    if not (np.isfinite(total_f) and total_f <= _MAX_IMAGES):
-        from .errors import SamplingError
-
-        raise SamplingError(f"sampling region x {xmin:g} to {xmax:g}, y {ymin:g} to {ymax:g} cm needs more than "
-                            f"{_MAX_IMAGES} periodic root images; sample a smaller region")
+    bounds_f, total_f = _shift_bounds(p0[:, 0], p1[:, 0], p0[:, 1], p1[:, 1], cell, box)
+    _check_image_total(total_f, box)
     i_lo, i_hi, j_lo, j_hi = (b.astype(np.int64) for b in bounds_f)
     del bounds_f
     ni = np.maximum(i_hi - i_lo + 1, 0)
@@ -196,4 +185,84 @@ def segment_images(p0: np.ndarray, p1: np.ndarray, cell: PeriodicCell | None,
     for q in (q0, q1):
         q[:, 0] += shift_x
         q[:, 1] += shift_y
+    return q0, q1, source
+
+
+def _shift_bounds(x0, x1, y0, y1, cell: PeriodicCell, box) -> tuple[tuple, float]:
+    """Lowest and highest image shift along x and y per segment (as floats) and the number of images."""
+    xmin, xmax, ymin, ymax = (float(v) for v in box)
+    lx, ly = cell.period_x_cm, cell.period_y_cm
+    with np.errstate(over="ignore", invalid="ignore"):
+        bounds_f = (np.ceil((xmin - np.maximum(x0, x1)) / lx), np.floor((xmax - np.minimum(x0, x1)) / lx),
+                    np.ceil((ymin - np.maximum(y0, y1)) / ly), np.floor((ymax - np.minimum(y0, y1)) / ly))
+        total_f = float(np.sum(np.maximum(bounds_f[1] - bounds_f[0] + 1, 0) * np.maximum(bounds_f[3] - bounds_f[2] + 1, 0)))
+    return bounds_f, total_f
+
+
+def _check_image_total(total_f: float, box) -> None:
+    if not (np.isfinite(total_f) and total_f <= _MAX_IMAGES):
+        from .errors import SamplingError
+
+        xmin, xmax, ymin, ymax = (float(v) for v in box)
+        raise SamplingError(f"sampling region x {xmin:g} to {xmax:g}, y {ymin:g} to {ymax:g} cm needs more than "
+                            f"{_MAX_IMAGES} periodic root images; sample a smaller region")
+
+
+def segment_images_of_columns(columns, cell: PeriodicCell | None, box, *,
+                              chunk_rows: int | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`segment_images` of the segments in the columns ``x0 y0 z0 x1 y1 z1``, built a chunk at a time.
+
+    The same arrays as ``segment_images(p0, p1, cell, box)`` with ``p0``, ``p1`` the stacked columns,
+    without that stacked copy of the whole table beside the images: a first pass counts the images of
+    each chunk of rows, a second fills them in.
+
+    Parameters
+    ----------
+    columns : mapping of str to ndarray, shape (n,)
+        End point coordinates, cm.
+    cell, box
+        As for :func:`segment_images`.
+    chunk_rows : int, optional
+        Rows per chunk (default :data:`IMAGE_CHUNK_ROWS`).
+    """
+    chunk_rows = IMAGE_CHUNK_ROWS if chunk_rows is None else max(int(chunk_rows), 1)
+    names = ("x0", "y0", "z0", "x1", "y1", "z1")
+    cols = [np.asarray(columns[name], dtype=np.float64) for name in names]
+    n = len(cols[0])
+
+    def stacked(lo: int, hi: int) -> tuple[np.ndarray, np.ndarray]:
+        return np.column_stack([c[lo:hi] for c in cols[:3]]), np.column_stack([c[lo:hi] for c in cols[3:]])
+
+    if cell is None or n == 0:
+        p0, p1 = stacked(0, n)
+        return p0, p1, np.arange(n, dtype=np.int64)
+    if n <= chunk_rows:  # one chunk: the images need no copying
+        p0, p1 = stacked(0, n)
+        return segment_images(p0, p1, cell, box)
+    chunks = [(lo, min(lo + chunk_rows, n)) for lo in range(0, n, chunk_rows)]
+    counts, total_f, plain = [], 0.0, True
+    for lo, hi in chunks:
+        bounds_f, chunk_total = _shift_bounds(cols[0][lo:hi], cols[3][lo:hi], cols[1][lo:hi], cols[4][lo:hi], cell, box)
+        total_f += chunk_total
+        if np.isfinite(chunk_total):
+            counts.append(int(chunk_total))
+            plain = plain and chunk_total == hi - lo and not (np.any(bounds_f[0]) or np.any(bounds_f[1])
+                                                              or np.any(bounds_f[2]) or np.any(bounds_f[3]))
+        del bounds_f
+    _check_image_total(total_f, box)
+    if plain:  # every segment is its own only image: the table's segments
+        p0, p1 = stacked(0, n)
+        return p0, p1, np.arange(n, dtype=np.int64)
+    total = sum(counts)
+    q0, q1 = np.empty((total, 3)), np.empty((total, 3))
+    source = np.empty(total, dtype=np.int64)
+    at = 0
+    for (lo, hi), count in zip(chunks, counts):
+        p0, p1 = stacked(lo, hi)
+        c0, c1, c_source = segment_images(p0, p1, cell, box)
+        del p0, p1
+        q0[at:at + count], q1[at:at + count] = c0, c1
+        source[at:at + count] = c_source + lo
+        at += count
+        del c0, c1, c_source
     return q0, q1, source

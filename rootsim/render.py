@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import math
 import os
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -24,7 +25,7 @@ import numpy as np
 from .atomic import atomic_path
 from .errors import RootsimError
 
-__all__ = ["COLOR_BY", "STYLES", "VIEWS", "render_image", "render_png", "parse_size"]
+__all__ = ["COLOR_BY", "STYLES", "VIEWS", "RootScene", "root_scene", "render_image", "render_png", "parse_size"]
 
 #: Allowed ``color_by`` values.
 COLOR_BY = ("order", "age", "root_class", "plant")
@@ -85,7 +86,14 @@ def _prepare_offscreen() -> None:
 
     VTK otherwise tries X first and warns before falling back. EGL needs libEGL (Mesa provides a
     software one); without it VTK's own fallback is kept.
+
+    Mesa's software rasterizer (llvmpipe) is asked to rasterize in the drawing thread
+    (``LP_NUM_THREADS=0``, unless the user set it): with its worker threads it queues binned scenes
+    of every line segment, about 80 bytes per segment more at the peak, and on the 2-core machine
+    it was no slower without them (same picture). GPU drivers ignore the variable; it takes effect
+    when the first rendering context of the process is made.
     """
+    os.environ.setdefault("LP_NUM_THREADS", "0")
     if os.environ.get("DISPLAY") or os.environ.get("VTK_DEFAULT_OPENGL_WINDOW"):
         return
     import ctypes.util
@@ -168,6 +176,46 @@ def _scene_bounds(system) -> np.ndarray:
     return np.array(box)
 
 
+@dataclass(frozen=True)
+class RootScene:
+    """What a picture needs from a segment table (see :func:`root_scene`): the roots' polylines with only
+    the arrays drawn, their bounding box and the stand layout. Once it is made the table may be freed, so
+    a large system is drawn without its table in memory (``rootsim render`` does so)."""
+
+    arrays: dict | None
+    box: np.ndarray
+    layout: dict | None
+    color_by: str
+    style: str
+    n_segments: int
+
+
+def root_scene(system, *, color_by: str = "order", style: str = "lines") -> RootScene:
+    """The roots of ``system`` prepared for :func:`render_image` with that ``color_by`` and ``style``.
+
+    Parameters
+    ----------
+    system : RootSystem
+    color_by, style : str
+        As for :func:`render_image` (they decide which arrays are kept).
+
+    Returns
+    -------
+    RootScene
+    """
+    from .formats.vtk import polyline_arrays
+    from .stand_layout import layout_from_metadata
+
+    if color_by not in COLOR_BY:
+        raise RootsimError(f"unknown color_by {color_by!r} (allowed: {', '.join(COLOR_BY)})")
+    if style not in STYLES:
+        raise RootsimError(f"unknown style {style!r} (allowed: {', '.join(STYLES)})")
+    drawn = (("age_days",) if color_by == "age" else ()) + (("tube_radius_cm",) if style == "tubes" else ())
+    arrays = polyline_arrays(system, point_arrays=drawn) if len(system) else None  # only the point arrays drawn
+    return RootScene(arrays, _scene_bounds(system), layout_from_metadata(getattr(system, "metadata", None)),
+                     color_by, style, len(system))
+
+
 def render_image(system, *, color_by: str = "order", view: str = "iso", size=(1200, 900),
                  title: str | None = None, style: str = "lines", tube_scale: float = 1.0,
                  soil_fields=None, soil_field: str | None = None) -> np.ndarray:
@@ -175,8 +223,9 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
 
     Parameters
     ----------
-    system : RootSystem
-        Segment table with metadata (``run.duration_days`` sets ages if present).
+    system : RootSystem or RootScene
+        Segment table with metadata (``run.duration_days`` sets ages if present), or its
+        :func:`root_scene` made with the same ``color_by`` and ``style``.
     color_by : {"order", "age", "root_class", "plant"}
         Categorical colours with a legend (order, root class, plant), or age in days
         (run duration minus birth day) with a scalar bar.
@@ -225,16 +274,21 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
         raise RootsimError(f"unknown style {style!r} (allowed: {', '.join(STYLES)})")
     if not (isinstance(tube_scale, (int, float)) and math.isfinite(tube_scale) and tube_scale > 0):
         raise RootsimError(f"tube scale {tube_scale!r} not allowed (need a number > 0)")
+    if isinstance(system, RootScene):
+        scene = system
+        if (scene.color_by, scene.style) != (color_by, style):
+            raise RootsimError(f"the scene was made for color_by {scene.color_by!r} and style {scene.style!r}, "
+                               f"not {color_by!r} and {style!r} (allowed: the same as in root_scene)")
+    else:
+        scene = root_scene(system, color_by=color_by, style=style)
+    del system
     _prepare_offscreen()
     import pyvista as pv
 
-    from .formats.vtk import polydata_from_segments
+    from .formats.vtk import polydata_from_arrays
 
-    from .stand_layout import layout_from_metadata
-
-    layout = layout_from_metadata(getattr(system, "metadata", None))
-    box = _scene_bounds(system)
-    box = _with_stand(box, layout, view=view)
+    layout = scene.layout
+    box = _with_stand(scene.box, layout, view=view)
     margin = 0.06 * float(np.max(box[1::2] - box[0::2]))
     x_lo, x_hi, y_lo, y_hi = box[0] - margin, box[1] + margin, box[2] - margin, box[3] + margin
     scale = math.sqrt(width * height / (1200 * 900))  # line widths follow the image size
@@ -243,8 +297,8 @@ def render_image(system, *, color_by: str = "order", view: str = "iso", size=(12
     try:
         plotter.set_background(BACKGROUND)
         legend_entries = 0
-        if len(system):
-            roots = polydata_from_segments(system, point_arrays=("age_days", "tube_radius_cm"))  # the ones drawn
+        if scene.arrays is not None:
+            roots = polydata_from_arrays(scene.arrays)
             legend_entries = _add_roots(plotter, roots, color_by=color_by, scale=scale,
                                         tube_scale=tube_scale if style == "tubes" else None,
                                         bar_low=soil_field is not None)
@@ -298,8 +352,8 @@ def _line_subset(poly, cells: np.ndarray, *, point_scalars: dict, cell_scalars: 
     from vtkmodules.util.numpy_support import vtk_to_numpy
 
     lines = poly.GetLines()
-    offsets = vtk_to_numpy(lines.GetOffsetsArray()).astype(np.int64)
-    connectivity = vtk_to_numpy(lines.GetConnectivityArray()).astype(np.int64)
+    offsets = np.asarray(vtk_to_numpy(lines.GetOffsetsArray()), dtype=np.int64)  # views when already int64
+    connectivity = np.asarray(vtk_to_numpy(lines.GetConnectivityArray()), dtype=np.int64)
     counts = offsets[cells + 1] - offsets[cells]
     new_offsets = np.concatenate([[0], np.cumsum(counts)])
     gather = np.repeat(offsets[cells] - new_offsets[:-1], counts) + np.arange(int(new_offsets[-1]))

@@ -68,7 +68,7 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..progress import stage
-    from ..render import parse_size, render_png
+    from ..render import parse_size, render_png, root_scene
     from ..rootsystem import RootSystem
 
     size = parse_size(args.size)
@@ -82,7 +82,9 @@ def run(args: argparse.Namespace) -> int:
     if len(system) == 0:
         print(f"warning: {args.dir}: no segments; the picture shows only the soil surface and the ruler", file=sys.stderr)
     with stage(f"rendering {len(system):,} segments to {args.png}"):
-        path = render_png(system, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
+        scene = root_scene(system, color_by=args.color_by, style=args.style)
+        del system  # the picture needs only the scene: the table's memory is freed before drawing
+        path = render_png(scene, args.png, color_by=args.color_by, view=args.view, size=size, title=args.title,
                           style=args.style, tube_scale=args.tube_scale, soil_fields=soil_fields,
                           soil_field=args.soil_field)
     from ..result_folder import record_derived

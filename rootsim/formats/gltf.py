@@ -22,7 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["glb_bytes_header", "write_glb", "srgb_to_linear", "CM_PER_METRE", "empty_glb_bytes"]
+__all__ = ["glb_bytes_header", "glb_document", "write_glb", "srgb_to_linear", "CM_PER_METRE", "empty_glb_bytes"]
 
 CM_PER_METRE = 100.0
 
@@ -78,6 +78,56 @@ def empty_glb_bytes() -> bytes:
     return glb_bytes_header({"asset": {"version": "2.0", "generator": "rootsim"}, "scene": 0, "scenes": [{}]}, 0)
 
 
+def glb_document(n_vertices: int, n_faces: int, low, high, groups: list, starts: list, counts: list,
+                 group_colours_rgb: np.ndarray, group_names: list[str] | None) -> tuple[dict, int]:
+    """The glTF JSON document of :func:`write_glb` and the length of its binary chunk.
+
+    Parameters
+    ----------
+    n_vertices, n_faces : int
+        Positions (float32 VEC3) and triangles (3 uint32 indices) in the binary chunk, in that order.
+    low, high : array_like, shape (3,)
+        Smallest and largest position per axis (float32 values, metres, glTF axes).
+    groups, starts, counts : list of int
+        Group ids in increasing order, the first triangle of each group (triangles are stored grouped)
+        and its triangle count.
+    group_colours_rgb : ndarray of uint8, shape (g, 3)
+    group_names : list of str, optional
+    """
+    position_bytes = 12 * int(n_vertices)  # a multiple of 4
+    index_bytes = 12 * int(n_faces)
+    binary_length = position_bytes + index_bytes
+    accessors = [{
+        "bufferView": 0, "componentType": _FLOAT, "count": int(n_vertices), "type": "VEC3",
+        "min": [float(v) for v in low], "max": [float(v) for v in high],
+    }]
+    primitives, materials = [], []
+    linear = srgb_to_linear(group_colours_rgb)
+    for k, (group, start, count) in enumerate(zip(groups, starts, counts)):
+        accessors.append({"bufferView": 1, "byteOffset": int(start) * 12, "componentType": _UNSIGNED_INT,
+                          "count": int(count) * 3, "type": "SCALAR"})
+        name = group_names[group] if group_names is not None else f"group {group}"
+        materials.append({"name": name, "pbrMetallicRoughness": {
+            "baseColorFactor": [*(round(float(c), 6) for c in linear[group]), 1.0],
+            "metallicFactor": 0.0, "roughnessFactor": 0.8}})
+        primitives.append({"attributes": {"POSITION": 0}, "indices": k + 1, "material": k, "mode": _TRIANGLES})
+    document = {
+        "asset": {"version": "2.0", "generator": "rootsim"},
+        "scene": 0,
+        "scenes": [{"nodes": [0]}],
+        "nodes": [{"mesh": 0, "name": "roots"}],
+        "meshes": [{"name": "roots", "primitives": primitives}],
+        "materials": materials,
+        "accessors": accessors,
+        "bufferViews": [
+            {"buffer": 0, "byteOffset": 0, "byteLength": position_bytes, "target": _ARRAY_BUFFER},
+            {"buffer": 0, "byteOffset": position_bytes, "byteLength": index_bytes, "target": _ELEMENT_ARRAY_BUFFER},
+        ],
+        "buffers": [{"byteLength": binary_length}],
+    }
+    return document, binary_length
+
+
 def write_glb(path: str | Path, vertices_cm: np.ndarray, faces: np.ndarray, face_group: np.ndarray,
               group_colours_rgb: np.ndarray, *, group_names: list[str] | None = None) -> None:
     """Write triangles as binary glTF 2.0 in metres with +Y up, one coloured primitive per group.
@@ -102,37 +152,9 @@ def write_glb(path: str | Path, vertices_cm: np.ndarray, faces: np.ndarray, face
     order = np.argsort(face_group, kind="stable")
     indices = np.asarray(faces, dtype=np.uint32)[order]
     groups, starts, counts = np.unique(face_group[order], return_index=True, return_counts=True)
-    position_bytes = positions.nbytes  # 12 per vertex: a multiple of 4
-    index_bytes = indices.nbytes
-    binary_length = position_bytes + index_bytes
-    accessors = [{
-        "bufferView": 0, "componentType": _FLOAT, "count": int(len(positions)), "type": "VEC3",
-        "min": [float(v) for v in positions.min(axis=0)], "max": [float(v) for v in positions.max(axis=0)],
-    }]
-    primitives, materials = [], []
-    linear = srgb_to_linear(group_colours_rgb)
-    for k, (group, start, count) in enumerate(zip(groups.tolist(), starts.tolist(), counts.tolist())):
-        accessors.append({"bufferView": 1, "byteOffset": int(start) * 12, "componentType": _UNSIGNED_INT,
-                          "count": int(count) * 3, "type": "SCALAR"})
-        name = group_names[group] if group_names is not None else f"group {group}"
-        materials.append({"name": name, "pbrMetallicRoughness": {
-            "baseColorFactor": [*(round(float(c), 6) for c in linear[group]), 1.0],
-            "metallicFactor": 0.0, "roughnessFactor": 0.8}})
-        primitives.append({"attributes": {"POSITION": 0}, "indices": k + 1, "material": k, "mode": _TRIANGLES})
-    document = {
-        "asset": {"version": "2.0", "generator": "rootsim"},
-        "scene": 0,
-        "scenes": [{"nodes": [0]}],
-        "nodes": [{"mesh": 0, "name": "roots"}],
-        "meshes": [{"name": "roots", "primitives": primitives}],
-        "materials": materials,
-        "accessors": accessors,
-        "bufferViews": [
-            {"buffer": 0, "byteOffset": 0, "byteLength": position_bytes, "target": _ARRAY_BUFFER},
-            {"buffer": 0, "byteOffset": position_bytes, "byteLength": index_bytes, "target": _ELEMENT_ARRAY_BUFFER},
-        ],
-        "buffers": [{"byteLength": binary_length}],
-    }
+    low, high = (positions.min(axis=0), positions.max(axis=0)) if len(positions) else (np.zeros(3), np.zeros(3))
+    document, binary_length = glb_document(len(positions), len(indices), low, high, groups.tolist(), starts.tolist(),
+                                           counts.tolist(), group_colours_rgb, group_names)
     with open(path, "wb") as fh:
         fh.write(glb_bytes_header(document, binary_length))
         positions.tofile(fh)

@@ -106,11 +106,13 @@ def check_mesh_options(sides, merge_short_cm, sharp_turn_deg) -> tuple[int, floa
     return n, merge, sharp
 
 
-def _simplify(points, point_offsets, edge_radius, merge_cm):
+def _simplify(points, point_offsets, edge_radius, merge_cm, carry: float = 0.0):
     """Drop interior polyline points (merging) and zero-length pieces.
 
     Returns kept points (m, 3), their polyline offsets (q + 1,), merged edge radii (m - q,),
-    and for each kept polyline the index of the source polyline (q,).
+    for each kept polyline the index of the source polyline (q,), and the running sum of edge
+    lengths after these points. ``carry`` is that sum before them: polylines handled in
+    consecutive chunks then get bit for bit the arc lengths of one pass over all of them.
     """
     n_points = len(points)
     n_poly = len(point_offsets) - 1
@@ -124,7 +126,8 @@ def _simplify(points, point_offsets, edge_radius, merge_cm):
     seg_len = np.zeros(n_points)
     seg_len[1:] = np.linalg.norm(np.diff(points, axis=0), axis=1)
     seg_len[is_first] = 0.0
-    cum = np.cumsum(seg_len)
+    cum = _running_sum(seg_len, carry)
+    carry = float(cum[-1]) if len(cum) else carry
     cum -= np.repeat(cum[point_offsets[:-1]], counts)  # arc length from the polyline start
     total = cum[point_offsets[1:] - 1]
     keep = seg_len > MIN_EDGE_CM
@@ -156,7 +159,15 @@ def _simplify(points, point_offsets, edge_radius, merge_cm):
     rsum = np.bincount(g, weights=w * src_radius, minlength=n_merged)
     rplain = np.bincount(g, weights=src_radius, minlength=n_merged) / np.maximum(np.bincount(g, minlength=n_merged), 1)
     radius = np.where(wsum > 0, rsum / np.where(wsum > 0, wsum, 1.0), rplain)
-    return points[kept], new_offsets, radius, np.flatnonzero(alive)
+    return points[kept], new_offsets, radius, np.flatnonzero(alive), carry
+
+
+def _running_sum(values: np.ndarray, carry: float) -> np.ndarray:
+    """``cumsum(values)`` continued from ``carry``: the same numbers as the cumulative sum of a longer
+    array whose earlier entries summed to ``carry`` (``cumsum`` adds in order, one value at a time)."""
+    if carry == 0.0:
+        return np.cumsum(values)
+    return np.cumsum(np.concatenate(([carry], values)))[1:]
 
 
 def _unit(v):
@@ -227,10 +238,23 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     TubeMesh
     """
     n_sides, merge, sharp = check_mesh_options(sides, merge_short_cm, sharp_turn_deg)
-    lines = polylines_from_segments(system)
+    mesh, _ = _tube_mesh_of_lines(system, polylines_from_segments(system), n_sides, merge, sharp, trim_junctions)
+    return mesh
+
+
+def _tube_mesh_of_lines(system, lines, n_sides: int, merge: float, sharp: float, trim_junctions: bool,
+                        carry: tuple[float, float] = (0.0, 0.0)) -> tuple[TubeMesh, tuple[float, float]]:
+    """:func:`tube_mesh_arrays` of some polylines (all, or a consecutive range of them).
+
+    ``carry`` holds the running sums (arc length, frame angle) of the polylines before ``lines``;
+    the new sums are returned with the mesh, so consecutive ranges meshed one after the other give
+    the vertices of one whole-system pass, bit for bit.
+    """
     radius_col = np.asarray(system["radius_cm"], dtype=np.float64)
     edge_radius = np.maximum(radius_col[lines.segment_order], MIN_RADIUS_CM)
-    pts, offsets, radius, src_poly = _simplify(lines.points, lines.point_offsets, edge_radius, merge)
+    pts, offsets, radius, src_poly, arc_carry = _simplify(lines.points, lines.point_offsets, edge_radius, merge,
+                                                          carry[0])
+    del edge_radius
     if trim_junctions and len(src_poly):
         _trim_at_parent_surface(system, lines, pts, offsets[:-1], src_poly)
     first_seg = lines.first_segment[src_poly]
@@ -240,7 +264,8 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     n_edges = len(pts) - n_poly
     if n_edges <= 0:
         empty_i = np.zeros(0, dtype=np.int64)
-        return TubeMesh(np.zeros((0, 3)), np.zeros((0, 3), dtype=np.int64), empty_i, empty_i, empty_i, 0, 0)
+        return TubeMesh(np.zeros((0, 3)), np.zeros((0, 3), dtype=np.int64), empty_i, empty_i, empty_i, 0, 0), \
+            (arc_carry, carry[1])
 
     edge_counts = np.diff(offsets) - 1
     edge_poly = np.repeat(np.arange(n_poly), edge_counts)
@@ -273,7 +298,8 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     delta = np.where(safe, np.arctan2(np.einsum("ij,ij->i", ru, v[joint]), np.einsum("ij,ij->i", ru, u[joint])), 0.0)
     inc = np.zeros(n_edges)
     inc[joint] = delta
-    theta = np.cumsum(inc)
+    theta = _running_sum(inc, carry[1])
+    angle_carry = float(theta[-1])
     theta -= np.repeat(theta[edge_offsets[:-1]], edge_counts)
 
     # Mitre or split at each joint.
@@ -378,7 +404,7 @@ def tube_mesh_arrays(system, *, sides: int = 8, merge_short_cm: float = 0.0, sha
     vertex_order = np.empty(len(vertices), dtype=np.int64)
     vertex_order[:n_rings * n_sides].reshape(n_rings, n_sides)[:] = edge_order[ring_edge][:, None]
     vertex_order[n_rings * n_sides:].reshape(2, n_pieces)[:] = poly_order[piece_poly][None, :]
-    return TubeMesh(vertices, faces, face_root, face_order, vertex_order, n_pieces, n_edges)
+    return TubeMesh(vertices, faces, face_root, face_order, vertex_order, n_pieces, n_edges), (arc_carry, angle_carry)
 
 
 # Vertex colours by root order: the one palette of rootsim (colour-blind safe, Okabe & Ito 2008).
@@ -407,9 +433,20 @@ def _empty_mesh_bytes(suffix: str) -> bytes:
     return empty_glb_bytes()  # glTF 2.0 binary: an asset with one empty scene
 
 
+#: Segments meshed at a time by :func:`write_mesh` (bounds its memory: about 450 bytes per segment
+#: of a chunk, against about 130 per segment of the system for the grouping and the table itself).
+MESH_CHUNK_SEGMENTS = 100_000
+
+
 def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_cm: float = 0.0,
-               sharp_turn_deg: float = 60.0, trim_junctions: bool = True) -> Path:
+               sharp_turn_deg: float = 60.0, trim_junctions: bool = True,
+               chunk_segments: int | None = None) -> Path:
     """Write tubes around every root as STL, PLY, OBJ or binary glTF (by suffix), atomically.
+
+    The roots are meshed ``chunk_segments`` segments at a time (whole polylines, consecutive in the
+    grouping of :func:`rootsim.formats.polylines.polyline_segments`) and streamed to the file through
+    :mod:`rootsim.formats.mesh_stream`, so memory does not grow with the mesh; the file is byte for
+    byte that of :func:`tube_mesh_arrays` of the whole system.
 
     Parameters
     ----------
@@ -419,99 +456,106 @@ def write_mesh(system, path: str | os.PathLike, *, sides: int = 8, merge_short_c
         in metres with +Y up as that standard requires (see :mod:`rootsim.formats.gltf`).
     sides, merge_short_cm, sharp_turn_deg, trim_junctions
         See :func:`tube_mesh_arrays`.
+    chunk_segments : int, optional
+        Segments per chunk (default :data:`MESH_CHUNK_SEGMENTS`).
 
     Returns
     -------
     pathlib.Path
     """
+    from .mesh_stream import sink_for_suffix
+    from .polylines import polyline_chunks, polyline_segments, polyline_subset
+
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
         raise FormatError(f"{path}: unknown mesh suffix {path.suffix!r} (allowed: {', '.join(SUFFIXES)})")
     try:
-        arrays = tube_mesh_arrays(system, sides=sides, merge_short_cm=merge_short_cm, sharp_turn_deg=sharp_turn_deg,
-                                  trim_junctions=trim_junctions)
+        n_sides, merge, sharp = check_mesh_options(sides, merge_short_cm, sharp_turn_deg)
     except FormatError as exc:
         raise FormatError(f"{path}: {exc}") from None
-    if len(arrays.faces) == 0:
-        with atomic_path(path) as tmp:
-            tmp.write_bytes(_empty_mesh_bytes(suffix))
-        return path
+    chunk = MESH_CHUNK_SEGMENTS if chunk_segments is None else int(chunk_segments)
+    order, segment_offsets = polyline_segments(system)
     with atomic_path(path) as tmp:
-        if suffix == ".obj":
-            _write_obj(tmp, arrays.vertices, arrays.faces)
-        elif suffix == ".stl":
-            _write_stl(tmp, arrays.vertices, arrays.faces)
-        elif suffix == ".ply":
-            _write_ply(tmp, arrays.vertices, arrays.faces, colours=order_colours(arrays.vertex_order))
-        else:
-            from .gltf import write_glb
-
-            orders = np.arange(int(arrays.face_order.max()) + 1)
-            write_glb(tmp, arrays.vertices, arrays.faces, arrays.face_order, order_colours(orders),
-                      group_names=[f"root order {k}" for k in orders.tolist()])
+        with sink_for_suffix(suffix, tmp.parent) as sink:
+            carry = (0.0, 0.0)
+            for first, stop in polyline_chunks(segment_offsets, chunk):
+                lines = polyline_subset(system, order, segment_offsets, first, stop)
+                mesh, carry = _tube_mesh_of_lines(system, lines, n_sides, merge, sharp, trim_junctions, carry)
+                del lines
+                sink.add(mesh, n_sides)
+                del mesh
+            del order, segment_offsets
+            if sink.faces == 0:
+                tmp.write_bytes(_empty_mesh_bytes(suffix))
+            elif suffix == ".obj":
+                sink.finish(tmp, writer=_write_obj)
+            elif suffix == ".glb":
+                orders = np.arange(sink.max_order + 1)
+                sink.finish(tmp, group_colours_rgb=order_colours(orders),
+                            group_names=[f"root order {k}" for k in orders.tolist()])
+            else:
+                sink.finish(tmp)
     return path
 
 
-#: Faces written per block by the STL writer (bounds the temporary memory).
+#: Faces turned into STL records per block (bounds the temporary memory).
 _STL_BLOCK = 1 << 21
-_STL_RECORD = np.dtype([("normal", "<f4", (3,)), ("vertices", "<f4", (3, 3)), ("attribute", "<u2")])
+STL_HEADER = b"rootsim tube mesh, units cm".ljust(80, b" ")
 
 
-def _write_stl(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
-    """Binary STL: 80-byte header, uint32 count, then per triangle its unit normal, 3 vertices
-    (float32) and a zero uint16 attribute, 50 bytes per record (the STL layout, common practice)."""
-    with open(path, "wb") as fh:
-        fh.write(b"rootsim tube mesh, units cm".ljust(80, b" "))
-        fh.write(np.uint32(len(faces)).tobytes())
-        vertices = vertices.astype(np.float32)
-        for start in range(0, len(faces), _STL_BLOCK):
-            block = faces[start:start + _STL_BLOCK]
-            tri = np.take(vertices, block.ravel(), axis=0).reshape(-1, 3, 3)  # contiguous (b, 3, 3)
-            e1 = tri[:, 1] - tri[:, 0]
-            e2 = tri[:, 2] - tri[:, 0]
-            normal = np.empty_like(e1)
-            normal[:, 0] = e1[:, 1] * e2[:, 2] - e1[:, 2] * e2[:, 1]
-            normal[:, 1] = e1[:, 2] * e2[:, 0] - e1[:, 0] * e2[:, 2]
-            normal[:, 2] = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
-            norm = np.sqrt(np.einsum("ij,ij->i", normal, normal))
-            normal /= np.where(norm > 0, norm, 1.0)[:, None]
-            record = np.empty(len(block), dtype=_STL_RECORD)
-            record["normal"] = normal
-            record["vertices"] = tri
-            record["attribute"] = 0
-            record.tofile(fh)
+def stl_records(vertices: np.ndarray, faces: np.ndarray):
+    """Binary STL records of ``faces``, a block at a time: per triangle its unit normal, 3 vertices
+    (float32) and a zero uint16 attribute, 50 bytes per record (the STL layout, common practice).
+
+    Parameters
+    ----------
+    vertices : ndarray of float32, shape (v, 3)
+    faces : ndarray of int, shape (f, 3)
+    """
+    from .mesh_stream import STL_RECORD
+
+    for start in range(0, len(faces), _STL_BLOCK):
+        block = faces[start:start + _STL_BLOCK]
+        tri = np.take(vertices, block.ravel(), axis=0).reshape(-1, 3, 3)  # contiguous (b, 3, 3)
+        e1 = tri[:, 1] - tri[:, 0]
+        e2 = tri[:, 2] - tri[:, 0]
+        normal = np.empty_like(e1)
+        normal[:, 0] = e1[:, 1] * e2[:, 2] - e1[:, 2] * e2[:, 1]
+        normal[:, 1] = e1[:, 2] * e2[:, 0] - e1[:, 0] * e2[:, 2]
+        normal[:, 2] = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
+        norm = np.sqrt(np.einsum("ij,ij->i", normal, normal))
+        normal /= np.where(norm > 0, norm, 1.0)[:, None]
+        record = np.empty(len(block), dtype=STL_RECORD)
+        record["normal"] = normal
+        record["vertices"] = tri
+        record["attribute"] = 0
+        yield record
 
 
-def _write_ply(path: Path, vertices: np.ndarray, faces: np.ndarray, *, colours: np.ndarray | None = None) -> None:
-    """Binary little-endian PLY: float32 vertices (with uchar RGB colours if given) and
-    triangles as (uchar 3, int32 x 3)."""
-    fields = [("xyz", "<f4", (3,))] + ([("rgb", "u1", (3,))] if colours is not None else [])
-    colour_props = "property uchar red\nproperty uchar green\nproperty uchar blue\n" if colours is not None else ""
-    header = ("ply\nformat binary_little_endian 1.0\ncomment rootsim tube mesh, units cm; colours by root order\n"
-              f"element vertex {len(vertices)}\nproperty float x\nproperty float y\nproperty float z\n{colour_props}"
-              f"element face {len(faces)}\nproperty list uchar int vertex_indices\nend_header\n")
-    vertex_record = np.empty(len(vertices), dtype=fields)
-    vertex_record["xyz"] = vertices
-    if colours is not None:
-        vertex_record["rgb"] = colours
-    record = np.empty(len(faces), dtype=[("count", "u1"), ("index", "<i4", (3,))])
-    record["count"] = 3
-    record["index"] = faces
-    with open(path, "wb") as fh:
-        fh.write(header.encode("ascii"))
-        vertex_record.tofile(fh)
-        record.tofile(fh)
+def ply_header(n_vertices: int, n_faces: int, *, colours: bool) -> bytes:
+    """Header of a binary little-endian PLY of float32 vertices (with uchar RGB colours if ``colours``)
+    and triangles as (uchar 3, int32 x 3)."""
+    colour_props = "property uchar red\nproperty uchar green\nproperty uchar blue\n" if colours else ""
+    return ("ply\nformat binary_little_endian 1.0\ncomment rootsim tube mesh, units cm; colours by root order\n"
+            f"element vertex {n_vertices}\nproperty float x\nproperty float y\nproperty float z\n{colour_props}"
+            f"element face {n_faces}\nproperty list uchar int vertex_indices\nend_header\n").encode("ascii")
 
 
-def _write_obj(path: Path, vertices: np.ndarray, faces: np.ndarray) -> None:
-    """Wavefront OBJ text (vertices ``v x y z``, faces ``f i j k`` 1-based), formatted in bulk."""
+def _write_obj(path: Path, vertices, faces) -> None:
+    """Wavefront OBJ text (vertices ``v x y z``, faces ``f i j k`` 1-based), formatted in bulk.
+
+    ``vertices`` and ``faces`` are arrays of shape (k, 3) or iterables of such blocks, in order.
+    """
+    def rows(blocks, chunk):
+        for block in [blocks] if isinstance(blocks, np.ndarray) else blocks:
+            for start in range(0, len(block), chunk):
+                yield block[start:start + chunk]
+
     with open(path, "w", encoding="ascii") as fh:
         fh.write("# rootsim tube mesh, units cm\n")
-        chunk = 200_000
-        for start in range(0, len(vertices), chunk):
-            block = vertices[start:start + chunk]
+        for block in rows(vertices, 200_000):
             fh.write(("v %.9g %.9g %.9g\n" * len(block)) % tuple(block.ravel()))
-        for start in range(0, len(faces), chunk):
-            block = faces[start:start + chunk] + 1
+        for block in rows(faces, 200_000):
+            block = block + 1
             fh.write(("f %d %d %d\n" * len(block)) % tuple(block.ravel()))

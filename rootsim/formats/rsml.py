@@ -48,7 +48,7 @@ import numpy as np
 
 from ..atomic import atomic_path
 from ..errors import FormatError
-from .polylines import polylines_from_segments
+from .polylines import polyline_points, polyline_segments
 
 __all__ = ["write_rsml", "read_rsml", "decimal_strings", "SUFFIXES", "UNIT_CM", "PIXEL_UNITS", "DEFAULT_RADIUS_CM"]
 
@@ -74,7 +74,7 @@ DEFAULT_RADIUS_CM = 0.025
 _POINT = '<point x="%s" y="%s" z="%s"/>'
 _SAMPLE = '<sample value="%s"/>'
 #: Points whose numbers are turned into text at once while writing (bounds the memory of the strings).
-_BATCH_POINTS = 65_536
+_BATCH_POINTS = 16_384
 
 
 # --------------------------------------------------------------------------------------------
@@ -109,19 +109,17 @@ def _xml_text(value) -> str:
     return "".join(ch for ch in text if ch >= " " or ch in "\t\n\r") if any(ch < " " for ch in text) else text
 
 
-def _root_tree(system, lines):
-    """Parent polyline of every polyline (-1 for roots starting at the plant) and the branch index."""
-    parent = np.asarray(system["parent_id"], dtype=np.int64)
-    first = lines.first_segment
-    poly_of_seg = lines.polyline_of_segment()
-    parent_seg = parent[first]
+def _root_tree(system, segment_order, segment_offsets):
+    """Parent polyline of every polyline (-1 for roots starting at the plant) and the branch index
+    (position of the parent segment along the parent polyline)."""
+    from .polylines import sorted_positions
+
+    parent_seg = np.asarray(system["parent_id"], dtype=np.int64)[segment_order[segment_offsets[:-1]]]
     has_parent = parent_seg >= 0
-    parent_poly = np.where(has_parent, poly_of_seg[np.maximum(parent_seg, 0)], -1)
-    # Position of the parent segment along the parent polyline.
-    position = np.empty(len(parent), dtype=np.int64)
-    position[lines.segment_order] = np.arange(len(parent)) - np.repeat(lines.segment_offsets[:-1], lines.segment_counts)
-    branch_index = np.where(has_parent, position[np.maximum(parent_seg, 0)], -1)
-    return parent_poly, branch_index
+    position = sorted_positions(segment_order)[np.maximum(parent_seg, 0)]  # only the parents' positions kept
+    parent_poly = np.searchsorted(segment_offsets, position, side="right") - 1
+    branch_index = np.where(has_parent, position - segment_offsets[parent_poly], -1)
+    return np.where(has_parent, parent_poly, -1), branch_index
 
 
 def _metadata_xml(path: Path, resolution: float, user: str) -> str:
@@ -178,20 +176,21 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
     if not np.isfinite(resolution) or resolution <= 0:
         raise FormatError(f"{path}: RSML resolution must be a number > 0")
     user = " ".join(_xml_text(user).split()) or "unknown"
-    lines = polylines_from_segments(system)
-    parent_poly, branch_index = _root_tree(system, lines)
-    first = lines.first_segment
+    segment_order, segment_offsets = polyline_segments(system)
+    parent_poly, branch_index = _root_tree(system, segment_order, segment_offsets)
+    first = segment_order[segment_offsets[:-1]]
     plant = np.asarray(system["plant_id"], dtype=np.int64)[first]
     root_id = np.asarray(system["root_id"], dtype=np.int64)[first]
     classes = system["root_class"]  # only the first segments' classes (a Categorical is not expanded)
     classes = classes.take(first) if hasattr(classes, "take") else np.asarray(classes)[first]
     labels = [_xml_text(label) for label in np.asarray(classes).astype(str).tolist()]
-    points = lines.points
-    if not np.all(np.isfinite(points * resolution if resolution != 1.0 else points)):
-        raise FormatError(f"{path}: coordinates times resolution {resolution!r} are not finite numbers")
+    if resolution != 1.0:
+        for name in ("x0", "y0", "z0", "x1", "y1", "z1"):
+            if not np.all(np.isfinite(np.asarray(system[name], dtype=np.float64) * resolution)):
+                raise FormatError(f"{path}: coordinates times resolution {resolution!r} are not finite numbers")
     radius = np.asarray(system["radius_cm"], dtype=np.float64)
     birth_day = np.asarray(system["birth_day"], dtype=np.float64)
-    offsets = lines.point_offsets
+    offsets = segment_offsets + np.arange(len(segment_offsets), dtype=np.int64)  # points of each polyline
     # Children of each polyline, in order along the parent.
     kids = np.flatnonzero(parent_poly >= 0)
     kids = kids[np.lexsort((branch_index[kids], parent_poly[kids]))]
@@ -242,10 +241,8 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
         opened = np.array([e[1] for e in batch if e[0] == "open"], dtype=np.int64)
         counts = offsets[opened + 1] - offsets[opened]
         local_start = np.r_[0, np.cumsum(counts)[:-1]] if opened.size else np.zeros(0, dtype=np.int64)
-        rows = np.arange(int(counts.sum()), dtype=np.int64) + np.repeat(offsets[opened] - local_start, counts)
-        picked = points[rows] * resolution if resolution != 1.0 else points[rows]
-        coords = decimal_strings(picked)
-        segment = lines.point_segment[rows]
+        picked, segment = polyline_points(system, segment_order, segment_offsets, opened)
+        coords = decimal_strings(picked * resolution if resolution != 1.0 else picked)
         diameter = decimal_strings(2.0 * radius[segment] * resolution)
         birth = decimal_strings(birth_day[segment])
         starts = iter(local_start.tolist())

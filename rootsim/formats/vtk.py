@@ -17,7 +17,7 @@ from ..atomic import atomic_path
 from ..errors import FormatError
 from .polylines import polylines_from_segments, root_class_codes, run_duration_days
 
-__all__ = ["polydata_from_segments", "polyline_arrays", "write_vtp", "imagedata_from_rld", "write_vti", "SUFFIXES"]
+__all__ = ["polydata_from_segments", "polydata_from_arrays", "polyline_arrays", "write_vtp", "imagedata_from_rld", "write_vti", "SUFFIXES"]
 
 SUFFIXES = (".vtp",)
 
@@ -63,7 +63,6 @@ def polyline_arrays(system, *, deferred: bool = False, point_arrays=None) -> dic
     classes = system["root_class"]  # only the first segments' classes (a Categorical is not expanded)
     classes = classes.take(first) if hasattr(classes, "take") else np.asarray(classes)[first]
     codes, names = root_class_codes({"root_class": np.asarray(classes)})
-    duration = run_duration_days(system)
     # Root attributes: one value per polyline (its first segment's), repeated over its points.
     per_root = {
         "order": np.asarray(system["order"])[first].astype(np.int32),
@@ -85,7 +84,7 @@ def polyline_arrays(system, *, deferred: bool = False, point_arrays=None) -> dic
     makers.update({name: (values.dtype, repeated(values)) for name, values in per_root.items()})
     makers["segment_id"] = (np.int64, gathered("segment_id", np.int64))
     makers["birth_day"] = (np.float64, gathered("birth_day", np.float64))
-    makers["age_days"] = (np.float64, lambda: duration - gathered("birth_day", np.float64)())
+    makers["age_days"] = (np.float64, lambda: run_duration_days(system) - gathered("birth_day", np.float64)())
     try:
         connector = system["is_connector"]
     except (KeyError, IndexError, TypeError):
@@ -142,9 +141,13 @@ def polydata_from_segments(system, *, point_arrays=None):
         Field data: ``root_class_names`` (string array indexed by ``root_class_code``) and
         ``rootsim_metadata`` (the table metadata as JSON).
     """
+    return polydata_from_arrays(polyline_arrays(system, point_arrays=point_arrays))
+
+
+def polydata_from_arrays(arrays: dict):
+    """The :class:`pyvista.PolyData` of :func:`polydata_from_segments` from :func:`polyline_arrays` output."""
     import pyvista as pv
 
-    arrays = polyline_arrays(system, point_arrays=point_arrays)
     points = arrays["points"]
     if len(points):
         cells = pv.CellArray.from_arrays(arrays["offsets"], np.arange(len(points), dtype=np.int64), deep=True)

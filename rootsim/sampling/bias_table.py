@@ -18,11 +18,12 @@ from typing import Any
 
 import numpy as np
 
-from .columns import segment_endpoints
+from .columns import point_columns, segment_endpoints
 
 __all__ = ["stand_rld", "bias_table", "BIAS_COLUMNS", "DEFAULT_TUBE_BAND_CM"]
 
 DEFAULT_TUBE_BAND_CM = 10.0
+_BLOCK = 1 << 16  # segments whose lengths are computed at a time
 BIAS_COLUMNS = ("method", "group", "depth_top_cm", "depth_bottom_cm", "units", "rld_estimate_mean_cm_per_cm3",
                 "rld_estimate_sd_cm_per_cm3", "rld_stand_cm_per_cm3", "ratio_mean", "ratio_sd")
 
@@ -44,13 +45,21 @@ def stand_rld(system: Any, tops: np.ndarray, bottoms: np.ndarray) -> np.ndarray:
         area = profile_area(system)
     except RootsimError:
         return np.full(len(tops), np.nan)
-    p0, p1 = segment_endpoints(system)
-    s0, ds = -p0[:, 2], p0[:, 2] - p1[:, 2]
-    length = np.linalg.norm(p1 - p0, axis=1)
+    cols = point_columns(system)
+    s0, ds = -cols["z0"], cols["z0"] - cols["z1"]
+    length = np.empty(len(s0))
+    for start in range(0, len(s0), _BLOCK):  # the end points stacked a block at a time, not the whole table
+        p0, p1 = segment_endpoints({name: values[start:start + _BLOCK] for name, values in cols.items()})
+        length[start:start + _BLOCK] = np.linalg.norm(p1 - p0, axis=1)
+        del p0, p1
     out = np.empty(len(tops))
+    inside = np.empty(len(s0))
     for i, (top, bottom) in enumerate(zip(tops, bottoms)):
-        t_in, t_out = linear_parameters(s0, ds, float(top), float(bottom))
-        out[i] = interval_length(t_in, t_out, length).sum() / (area * (float(bottom) - float(top)))
+        for start in range(0, len(s0), _BLOCK):  # clipped a block at a time, summed over the whole array
+            block = slice(start, start + _BLOCK)
+            t_in, t_out = linear_parameters(s0[block], ds[block], float(top), float(bottom))
+            inside[block] = interval_length(t_in, t_out, length[block])
+        out[i] = inside.sum() / (area * (float(bottom) - float(top)))
     return out
 
 

@@ -8,7 +8,7 @@ import numpy as np
 
 from ..errors import SamplingError
 
-__all__ = ["segment_endpoints", "table_metadata", "sampling_inputs", "optional_radius"]
+__all__ = ["segment_endpoints", "point_columns", "table_metadata", "sampling_inputs", "optional_radius"]
 
 _POINT_COLUMNS = ("x0", "y0", "z0", "x1", "y1", "z1")
 
@@ -26,16 +26,22 @@ def segment_endpoints(system: Any) -> tuple[np.ndarray, np.ndarray]:
     p0, p1 : ndarray, shape (n, 3)
         End points, cm (z up, soil surface at z = 0).
     """
-    cols = []
+    cols = list(point_columns(system).values())
+    p0 = np.column_stack(cols[:3]) if cols[0].size else np.zeros((0, 3))
+    p1 = np.column_stack(cols[3:]) if cols[0].size else np.zeros((0, 3))
+    return p0, p1
+
+
+def point_columns(system: Any) -> dict[str, np.ndarray]:
+    """The end point columns ``x0 y0 z0 x1 y1 z1`` as float64 arrays (views where they already are), cm."""
+    cols = {}
     for name in _POINT_COLUMNS:
         try:
             values = system[name]
         except (KeyError, IndexError):
             raise SamplingError(f"root system has no column {name} (required: {', '.join(_POINT_COLUMNS)})") from None
-        cols.append(np.asarray(values.to_numpy() if hasattr(values, "to_numpy") else values, dtype=np.float64))
-    p0 = np.column_stack(cols[:3]) if cols[0].size else np.zeros((0, 3))
-    p1 = np.column_stack(cols[3:]) if cols[0].size else np.zeros((0, 3))
-    return p0, p1
+        cols[name] = np.asarray(values.to_numpy() if hasattr(values, "to_numpy") else values, dtype=np.float64)
+    return cols
 
 
 def table_metadata(system: Any) -> dict:
@@ -93,7 +99,7 @@ def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str,
     radius : ndarray, shape (n,), or None
         Radius of each returned segment, cm (None if the table has no ``radius_cm``).
     """
-    from ..periodic_stand import segment_images, stand_cell
+    from ..periodic_stand import segment_images_of_columns, stand_cell
 
     out = []
     for i, item in enumerate(items):
@@ -108,13 +114,17 @@ def sampling_inputs(system: Any, items: Iterable[Any], *, kind: type, noun: str,
     out = [item.resolve(meta, label=f"{noun} {i}") for i, item in enumerate(out)]
     for i, item in enumerate(out):
         validate(item, label=f"{noun} {i} at {describe(item)}", metadata=meta if check_container else None)
-    p0, p1 = segment_endpoints(system)
+    columns = point_columns(system)
     radius = optional_radius(system)
     cell = stand_cell(meta) if periodic else None
-    if cell is not None and len(p0):
-        boxes = np.array([item.footprint() for item in out], dtype=np.float64)
-        box = (boxes[:, 0].min(), boxes[:, 1].max(), boxes[:, 2].min(), boxes[:, 3].max())
-        p0, p1, source = segment_images(p0, p1, cell, box)
-        if radius is not None:
-            radius = radius[source]
+    if cell is None or not len(columns["x0"]):
+        p0, p1 = segment_endpoints(columns)
+        return out, p0, p1, radius
+    boxes = np.array([item.footprint() for item in out], dtype=np.float64)
+    box = (boxes[:, 0].min(), boxes[:, 1].max(), boxes[:, 2].min(), boxes[:, 3].max())
+    # images built from the columns a chunk at a time: no stacked copy of the table beside them
+    p0, p1, source = segment_images_of_columns(columns, cell, box)
+    del columns
+    if radius is not None:
+        radius = radius[source]
     return out, p0, p1, radius

@@ -17,6 +17,7 @@ import numpy as np
 __all__ = ["MidpointGrid"]
 
 _MAX_CELLS = 4_000_000
+_KEY_BLOCK = 1 << 18  # midpoints turned into cell keys at a time
 _SHORT_QUANTILE = 0.999  # segments longer than this quantile of horizontal extent are checked directly
 
 
@@ -54,10 +55,16 @@ class MidpointGrid:
             cell = math.sqrt(span[0] * span[1] / _MAX_CELLS) + max(span) / _MAX_CELLS
         self.cell = cell
         self.shape = (int(span[0] // cell) + 1, int(span[1] // cell) + 1)
-        ij = np.minimum(((self.mid[short] - self.lo) // cell).astype(np.int64), np.array(self.shape) - 1)
-        keys = ij[:, 0] * self.shape[1] + ij[:, 1]
+        # cell keys of the short segments, a block at a time (int32: the grid has at most a few million cells)
+        keys = np.empty(len(short), dtype=np.int32 if self.shape[0] * self.shape[1] < 2**31 else np.int64)
+        for start in range(0, len(short), _KEY_BLOCK):
+            mid = self.mid[short[start:start + _KEY_BLOCK]]
+            ij = np.minimum(((mid - self.lo) // cell).astype(np.int64), np.array(self.shape) - 1)
+            keys[start:start + _KEY_BLOCK] = ij[:, 0] * self.shape[1] + ij[:, 1]
+            del mid, ij
         order = np.argsort(keys, kind="stable")
         self.order = short[order]
+        del short
         self.keys = keys[order]
 
     def candidates(self, x_cm: float, y_cm: float, radius_cm: float) -> np.ndarray:

@@ -276,6 +276,10 @@ def sample_wall(system: Any, *, walls: Iterable[Any], check_container: bool = Tr
     return pd.concat(frames, ignore_index=True)
 
 
+#: Segments whose bounding boxes are tested against a wall's slab at a time.
+_NEAR_BLOCK = 1 << 16
+
+
 def _slab_lengths(p0: np.ndarray, p1: np.ndarray, wall: Wall, x_edges: np.ndarray, d_edges: np.ndarray) -> np.ndarray:
     """Exact root length in each slab box behind the wall cells, shape (n_depth_cells, n_x_cells), cm.
 
@@ -283,11 +287,14 @@ def _slab_lengths(p0: np.ndarray, p1: np.ndarray, wall: Wall, x_edges: np.ndarra
     """
     half = wall.slab_cm / 2
     ylo, yhi = wall.y_cm - half, wall.y_cm + half
-    ymin = np.minimum(p0[:, 1], p1[:, 1])
-    ymax = np.maximum(p0[:, 1], p1[:, 1])
-    xmin = np.minimum(p0[:, 0], p1[:, 0])
-    xmax = np.maximum(p0[:, 0], p1[:, 0])
-    near = np.flatnonzero((ymax >= ylo) & (ymin <= yhi) & (xmax >= x_edges[0]) & (xmin <= x_edges[-1]))
+    parts = []
+    for start in range(0, len(p0), _NEAR_BLOCK):  # bounding boxes a block at a time (memory per segment)
+        a, b = p0[start:start + _NEAR_BLOCK], p1[start:start + _NEAR_BLOCK]
+        near = ((np.maximum(a[:, 1], b[:, 1]) >= ylo) & (np.minimum(a[:, 1], b[:, 1]) <= yhi)
+                & (np.maximum(a[:, 0], b[:, 0]) >= x_edges[0]) & (np.minimum(a[:, 0], b[:, 0]) <= x_edges[-1]))
+        parts.append(np.flatnonzero(near) + start)
+    near = np.concatenate(parts) if parts else np.zeros(0, dtype=np.int64)
+    del parts
     a, b = p0[near], p1[near]
     zmin = np.minimum(a[:, 2], b[:, 2])
     zmax = np.maximum(a[:, 2], b[:, 2])
