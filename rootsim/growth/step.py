@@ -27,7 +27,7 @@ from numba import njit
 from numba.typed import List
 
 from .classes import PARAM_NAMES
-from .draws import FIXED, draw_parameter
+from .draws import FIXED, draw_parameter, normal_draw, uniform_draw
 from ..soil.biopores import biopore_at
 from ..soil.fields import gradient_at, value_at
 from ..soil.strength import elongation_factor_kernel
@@ -41,6 +41,7 @@ from .tropisms import (
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
+    tangent_variance_scalar,
     toward_by_factor,
     toward_direction_turn,
 )
@@ -139,17 +140,17 @@ def _room(arr, n, limit):
     return new
 
 
-@njit(**JIT)
-def _draw_root_parameters(rng, kind, values, cls, out):
+@njit(**JIT_BORROW)
+def _draw_root_parameters(bits, kind, values, cls, out):
     """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
     for p in range(N_PARAMS):
         if kind[cls, p] == FIXED:
             out[p] = values[cls, p, 0]
         else:
-            out[p] = draw_parameter(kind, values, cls, p, rng.random())
+            out[p] = draw_parameter(kind, values, cls, p, uniform_draw(bits))
 
 
-@njit(**JIT)
+@njit(**JIT_BORROW)
 def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
               params, birth, carry, felt_reference_radius_cm, felt_radius_exponent):
     """Write root ``r`` and its growing tip (row ``j`` of the tip store)."""
@@ -310,6 +311,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     pore_chunks : list of ndarray of uint8
         Per chunk: 1 where the segment grew while its tip followed a biopore.
     """
+    bits = rng.bit_generator  # draws go to the bit generator (no reference counting per draw)
     # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
     float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
     parent_chunks = List()
@@ -400,14 +402,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         while ev < n_events and event_day[ev] < t1:
             cls = event_class[ev]
             count = event_count[ev]
-            whorl_turn = 2 * math.pi * rng.random()
+            whorl_turn = 2 * math.pi * uniform_draw(bits)
             for slot in range(count):
                 if n_roots >= root_limit:
                     return _stopped(float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
-                jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
+                jitter = event_jitter_rad[ev] * (2 * uniform_draw(bits) - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
-                _draw_root_parameters(rng, kind, values, cls, params)
+                _draw_root_parameters(bits, kind, values, cls, params)
                 hx, hy, hz = heading_from_angles_scalar(math.radians(params[P_INITIAL]), azimuth)
                 x, y, z = clamp(box, seed_x, seed_y, -event_depth[ev])
                 rootf = _room(rootf, n_roots, root_limit)
@@ -477,7 +479,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
                             met = biopore_at(pores, sx, sy, sz)
                             if met >= 0 and met != tipi[j, T_DECLINED]:
-                                if pore_entry_probability >= 1.0 or rng.random() < pore_entry_probability:
+                                if pore_entry_probability >= 1.0 or uniform_draw(bits) < pore_entry_probability:
                                     pore = met
                                     tipi[j, T_PORE] = met
                                 else:
@@ -532,14 +534,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
-                drawn = False
-                if sigma > 0:
-                    fallback[0] = rng.standard_normal()
-                    fallback[1] = rng.standard_normal()
-                    fallback[2] = rng.standard_normal()
-                    drawn = True
-                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
-                                               log_x_table, ratio_table)
+                if sigma > 0:  # two standard normals: the turn's coordinates in the tangent plane
+                    n1 = normal_draw(bits)
+                    n2 = normal_draw(bits)
+                    tau = tangent_variance_scalar(sigma * sigma * arc, log_x_table, ratio_table)
+                    hx, hy, hz = brownian_turn(hx, hy, hz, n1, n2, tau)
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
@@ -551,10 +550,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:
-                    if not drawn:
-                        fallback[0] = rng.standard_normal()
-                        fallback[1] = rng.standard_normal()
-                        fallback[2] = rng.standard_normal()
+                    fallback[0] = normal_draw(bits)
+                    fallback[1] = normal_draw(bits)
+                    fallback[2] = normal_draw(bits)
                     ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
                 seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
                 seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
@@ -585,7 +583,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     apical = tipf[j, T_APICAL]
                     nxt = tipf[j, T_NEXT]
                     while nxt <= new_length and nxt + apical <= max_len:
-                        u_pick = rng.random()
+                        u_pick = uniform_draw(bits)
                         pick = 0
                         while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
                             pick += 1
@@ -611,7 +609,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             pendf[q, Q_DY] = seg_y / seg_len
                             pendf[q, Q_DZ] = seg_z / seg_len
                             pendf[q, Q_THRESHOLD] = nxt + apical
-                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
+                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else uniform_draw(bits)
                             pendi[q, Q_SEGMENT] = seg_id
                             pendi[q, Q_CLASS] = child
                             pendi[q, Q_COUNT] = tipi[j, T_COUNT]
@@ -626,7 +624,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         if kind[cls, P_INTERBRANCH] == FIXED:
                             nxt += values[cls, P_INTERBRANCH, 0] / proliferation
                         else:
-                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random()) / proliferation
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, uniform_draw(bits)) / proliferation
                     tipf[j, T_NEXT] = nxt
                     # Commit the tip.
                     tipi[j, T_LAST] = seg_id
@@ -682,7 +680,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 parent_cls = rooti[pr, R_CLASS]
                 carry = _time_since_threshold(rootf, law_negexp[parent_cls], pr, pendf[q, Q_THRESHOLD])
                 cls = pendi[q, Q_CLASS]
-                _draw_root_parameters(rng, kind, values, cls, params)
+                _draw_root_parameters(bits, kind, values, cls, params)
                 if spiral[parent_cls]:
                     azimuth = pendi[q, Q_COUNT] * spiral_divergence_rad[parent_cls]
                 else:

@@ -29,7 +29,7 @@ import numpy as np
 from numba import njit
 
 __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step", "random_deviation_step",
-           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table"]
+           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table", "tangent_basis"]
 
 #: Options of every compiled kernel: cached on disk; IEEE division (x/0 gives inf or nan, as in numpy).
 JIT = {"cache": True, "error_model": "numpy", "nogil": True}
@@ -162,21 +162,41 @@ def cos_and_sinc(angle):
     return cos_a, sinc_a
 
 
-@njit(**JIT_BORROW)
-def brownian_turn(hx, hy, hz, nx, ny, nz, step_cm, sigma_rad_per_sqrt_cm, log_x_table, ratio_table):
-    """Spherical Brownian step over ``step_cm``: rotate h by a tangent Gaussian (exponential map).
+@njit(**JIT_INLINE)
+def tangent_basis(hx, hy, hz):
+    """Two unit vectors that make an orthonormal basis with the unit vector h (each orthogonal to h and to
+    the other), without branches on h's direction: Duff et al. (2017), "Building an orthonormal basis,
+    revisited", Journal of Computer Graphics Techniques 6(1):1-8 (Listing 3).
 
-    (nx, ny, nz) are independent standard normals; the tangent Gaussian's per-axis variance is
+    Returns
+    -------
+    e1x, e1y, e1z, e2x, e2y, e2z : float
+    """
+    sign = math.copysign(1.0, hz)
+    a = -1.0 / (sign + hz)
+    b = hx * hy * a
+    return 1.0 + sign * hx * hx * a, sign * b, -sign * hx, b, sign + hy * hy * a, -hy
+
+
+@njit(**JIT_INLINE)
+def brownian_turn(hx, hy, hz, n1, n2, tangent_variance_rad2):
+    """Spherical Brownian step: rotate h by a tangent Gaussian (exponential map).
+
+    (n1, n2) are independent standard normals, the tangent Gaussian's coordinates along the basis of
+    :func:`tangent_basis` (a 2-D standard Gaussian is isotropic, so the step's law does not depend on which
+    orthonormal tangent basis carries it). Its per-axis variance ``tangent_variance_rad2`` is
     :func:`tangent_variance_scalar` of σ² Δs, so the mean cosine between the headings before and after is
     exp(-σ² Δs) for any step, as for spherical Brownian motion with per-axis angular variance σ² per cm.
+    Scalars only (no arrays), so that inlining into the growth step counts no references.
     """
-    along = nx * hx + ny * hy + nz * hz
-    scale = math.sqrt(tangent_variance_scalar(sigma_rad_per_sqrt_cm * sigma_rad_per_sqrt_cm * step_cm,
-                                              log_x_table, ratio_table))
-    vx = (nx - along * hx) * scale
-    vy = (ny - along * hy) * scale
-    vz = (nz - along * hz) * scale
-    angle = math.sqrt(vx * vx + vy * vy + vz * vz)
+    scale = math.sqrt(tangent_variance_rad2)
+    e1x, e1y, e1z, e2x, e2y, e2z = tangent_basis(hx, hy, hz)
+    u1 = n1 * scale
+    u2 = n2 * scale
+    vx = u1 * e1x + u2 * e2x
+    vy = u1 * e1y + u2 * e2y
+    vz = u1 * e1z + u2 * e2z
+    angle = math.sqrt(u1 * u1 + u2 * u2)
     c, sinc = cos_and_sinc(angle)
     ox = c * hx + sinc * vx
     oy = c * hy + sinc * vy
@@ -348,9 +368,9 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
 @njit(**JIT)
 def _brownian_loop(heading, normals, step_cm, sigma, log_x, ratio, out):
     for j in range(heading.shape[1]):
+        tau = tangent_variance_scalar(sigma[j] * sigma[j] * step_cm[j], log_x, ratio)
         out[0, j], out[1, j], out[2, j] = brownian_turn(heading[0, j], heading[1, j], heading[2, j], normals[0, j],
-                                                        normals[1, j], normals[2, j], step_cm[j], sigma[j],
-                                                        log_x, ratio)
+                                                        normals[1, j], tau)
 
 
 def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
@@ -359,8 +379,8 @@ def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
     Parameters
     ----------
     heading : ndarray, shape (3, n)
-    normals : ndarray, shape (3, n)
-        Independent standard normal draws.
+    normals : ndarray, shape (2, n)
+        Independent standard normal draws (coordinates along :func:`tangent_basis`).
     step_cm, sigma_rad_per_sqrt_cm : ndarray, shape (n,)
     """
     h = np.ascontiguousarray(heading, dtype=np.float64)
