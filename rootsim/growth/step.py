@@ -23,7 +23,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
+from numba import njit, types
 from numba.typed import List
 
 from .classes import PARAM_NAMES
@@ -105,6 +105,33 @@ BYTES_PER_ITEM = {
 _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
 _MIN_STEP_CM = 1e-9
 _FIRST_CHUNK = 4096
+
+
+_FLOAT_COLUMN = types.float64[::1]
+_PARENT_COLUMN = types.int64[::1]
+_ROOT_COLUMN = types.int32[::1]
+_PORE_COLUMN = types.uint8[::1]
+
+
+@njit(**JIT)
+def _new_chunk(size, float_chunks, parent_chunks, root_chunks, pore_chunks):
+    """A new chunk of ``size`` segment rows: one array per column, each also appended to its list.
+
+    Returns the columns ``SEGMENT_FLOAT_FIELDS`` (float64), then parent (int64), root (int32) and biopore flag
+    (uint8, zeros).
+    """
+    x0, y0, z0 = np.empty(size), np.empty(size), np.empty(size)
+    x1, y1, z1 = np.empty(size), np.empty(size), np.empty(size)
+    length, birth = np.empty(size), np.empty(size)
+    parent = np.empty(size, dtype=np.int64)
+    root = np.empty(size, dtype=np.int32)
+    pore = np.zeros(size, dtype=np.uint8)
+    for column in (x0, y0, z0, x1, y1, z1, length, birth):
+        float_chunks.append(column)
+    parent_chunks.append(parent)
+    root_chunks.append(root)
+    pore_chunks.append(pore)
+    return x0, y0, z0, x1, y1, z1, length, birth, parent, root, pore
 
 
 @njit(**JIT)
@@ -313,24 +340,15 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     """
     bits = rng.bit_generator  # draws go to the bit generator (no reference counting per draw)
     # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
-    float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
-    parent_chunks = List()
-    root_chunks = List()
-    pore_chunks = List()
+    float_chunks = List.empty_list(_FLOAT_COLUMN)  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
+    parent_chunks = List.empty_list(_PARENT_COLUMN)
+    root_chunks = List.empty_list(_ROOT_COLUMN)
+    pore_chunks = List.empty_list(_PORE_COLUMN)
     chunk_counts = List()  # rows used in each chunk but the current one
     chunk_counts.append(0)
     chunk_counts.pop()
-    c_x0, c_y0, c_z0 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_x1, c_y1, c_z1 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_len, c_birth = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_parent = np.empty(_FIRST_CHUNK, dtype=np.int64)
-    c_root = np.empty(_FIRST_CHUNK, dtype=np.int32)
-    c_pore = np.zeros(_FIRST_CHUNK, dtype=np.uint8)
-    for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
-        float_chunks.append(column)
-    parent_chunks.append(c_parent)
-    root_chunks.append(c_root)
-    pore_chunks.append(c_pore)
+    c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth, c_parent, c_root, c_pore = _new_chunk(
+        _FIRST_CHUNK, float_chunks, parent_chunks, root_chunks, pore_chunks)
     chunk_used = 0
     n_seg = 0
     n_pores = pores.radius_cm.size
@@ -440,17 +458,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
             chunk_counts.append(chunk_used)
             size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
-            c_x0, c_y0, c_z0 = np.empty(size), np.empty(size), np.empty(size)
-            c_x1, c_y1, c_z1 = np.empty(size), np.empty(size), np.empty(size)
-            c_len, c_birth = np.empty(size), np.empty(size)
-            c_parent = np.empty(size, dtype=np.int64)
-            c_root = np.empty(size, dtype=np.int32)
-            c_pore = np.zeros(size, dtype=np.uint8)
-            for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
-                float_chunks.append(column)
-            parent_chunks.append(c_parent)
-            root_chunks.append(c_root)
-            pore_chunks.append(c_pore)
+            c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth, c_parent, c_root, c_pore = _new_chunk(
+                size, float_chunks, parent_chunks, root_chunks, pore_chunks)
             chunk_used = 0
         n_stepped = n_tips
         j = 0
