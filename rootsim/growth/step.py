@@ -36,12 +36,14 @@ from .tropisms import (
     JIT,
     JIT_BORROW,
     JIT_INLINE,
+    TANGENT_SERIES_LIMIT,
     brownian_turn,
     combined_sine_law_scalar,
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
     tangent_variance_scalar,
+    tangent_variance_series,
     toward_by_factor,
     toward_direction_turn,
 )
@@ -546,7 +548,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if sigma > 0:  # two standard normals: the turn's coordinates in the tangent plane
                     n1 = normal_draw(bits)
                     n2 = normal_draw(bits)
-                    tau = tangent_variance_scalar(sigma * sigma * arc, log_x_table, ratio_table)
+                    variance = sigma * sigma * arc
+                    if variance < TANGENT_SERIES_LIMIT:
+                        tau = tangent_variance_series(variance)
+                    else:
+                        tau = tangent_variance_scalar(variance, log_x_table, ratio_table)
                     hx, hy, hz = brownian_turn(hx, hy, hz, n1, n2, tau)
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
