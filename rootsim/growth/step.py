@@ -82,10 +82,12 @@ TIP_NF = 22
 T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE, T_PORE, T_DECLINED = range(8)
 TIP_NI = 8
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
-R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
-ROOT_NF = 7
+# (R_PENDING: the root's pending branch points, kept in this row that the tip loop touches anyway, so that lateral
+# activation skips a root with none without reading its queue)
+R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS, R_PENDING = range(8)
+ROOT_NF = 8
 ROOT_FLOAT_FIELDS = ("length_cm", "length_previous_cm", "last_step_days", "last_rate_cm_per_day", "max_length_cm",
-                     "death_day", "radius_cm")
+                     "death_day", "radius_cm", "pending_branch_points")
 # Roots: int fields.
 R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD, R_QUEUE_HEAD, R_QUEUE_TAIL = range(7)
 ROOT_NI = 7
@@ -190,6 +192,7 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     rootf[r, R_MAXLEN] = params[P_MAXLEN]
     rootf[r, R_DEATH] = birth + params[P_LIFESPAN]
     rootf[r, R_RADIUS] = params[P_RADIUS]
+    rootf[r, R_PENDING] = 0.0
     rooti[r, R_CLASS] = cls
     rooti[r, R_ORDER] = order
     rooti[r, R_PARENT] = parent_root
@@ -634,6 +637,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             else:
                                 rooti[root, R_QUEUE_HEAD] = q
                             rooti[root, R_QUEUE_TAIL] = q
+                            rootf[root, R_PENDING] += 1.0
                             n_pend += 1
                         tipi[j, T_COUNT] += 1
                         if kind[cls, P_INTERBRANCH] == FIXED:
@@ -684,7 +688,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             tipi = _resized(tipi, n_tips, capacity)
         for s_idx in range(n_stepped):
             pr = stepped[s_idx]
-            if pr < 0:
+            if pr < 0 or rootf[pr, R_PENDING] == 0:  # nothing queued: head and tail stay -1
                 continue
             q = rooti[pr, R_QUEUE_HEAD]
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
@@ -713,6 +717,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 pendi[q, Q_NEXT] = free_row
                 free_row = q
                 n_pend -= 1
+                rootf[pr, R_PENDING] -= 1.0
                 q = following
             if rooti[pr, R_GROWING] == 0:
                 # The parent stopped short of the remaining thresholds: they never carry a lateral.
@@ -721,6 +726,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     pendi[q, Q_NEXT] = free_row
                     free_row = q
                     n_pend -= 1
+                    rootf[pr, R_PENDING] -= 1.0
                     q = following
             rooti[pr, R_QUEUE_HEAD] = q
             if q < 0:
