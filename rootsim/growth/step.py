@@ -548,15 +548,18 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
-                if sigma > 0:  # two standard normals: the turn's coordinates in the tangent plane
-                    n1 = normal_draw(bits)
-                    n2 = normal_draw(bits)
+                drawn = False
+                if sigma > 0:
+                    fallback[0] = normal_draw(bits)
+                    fallback[1] = normal_draw(bits)
+                    fallback[2] = normal_draw(bits)
+                    drawn = True
                     variance = sigma * sigma * arc
                     if variance < TANGENT_SERIES_LIMIT:
                         tau = tangent_variance_series(variance)
                     else:
                         tau = tangent_variance_scalar(variance, log_x_table, ratio_table)
-                    hx, hy, hz = brownian_turn(hx, hy, hz, n1, n2, tau)
+                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], tau)
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
@@ -568,9 +571,10 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 if contains(box, sx + hx * ds, sy + hy * ds, sz + hz * ds):
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:
-                    fallback[0] = normal_draw(bits)
-                    fallback[1] = normal_draw(bits)
-                    fallback[2] = normal_draw(bits)
+                    if not drawn:
+                        fallback[0] = normal_draw(bits)
+                        fallback[1] = normal_draw(bits)
+                        fallback[2] = normal_draw(bits)
                     ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
                 seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
                 seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)

@@ -29,7 +29,7 @@ import numpy as np
 from numba import njit
 
 __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step", "random_deviation_step",
-           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table", "tangent_basis",
+           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table",
            "TANGENT_SERIES_LIMIT"]
 
 #: Options of every compiled kernel: cached on disk; IEEE division (x/0 gives inf or nan, as in numpy).
@@ -197,42 +197,25 @@ def cos_and_sinc(angle):
 
 
 @njit(**JIT_INLINE)
-def tangent_basis(hx, hy, hz):
-    """Two unit vectors that make an orthonormal basis with the unit vector h (each orthogonal to h and to
-    the other), without branches on h's direction: Duff et al. (2017), "Building an orthonormal basis,
-    revisited", Journal of Computer Graphics Techniques 6(1):1-8 (Listing 3).
-
-    Returns
-    -------
-    e1x, e1y, e1z, e2x, e2y, e2z : float
-    """
-    sign = math.copysign(1.0, hz)
-    a = -1.0 / (sign + hz)
-    b = hx * hy * a
-    return 1.0 + sign * hx * hx * a, sign * b, -sign * hx, b, sign + hy * hy * a, -hy
-
-
-@njit(**JIT_INLINE)
-def brownian_turn(hx, hy, hz, n1, n2, tangent_variance_rad2):
+def brownian_turn(hx, hy, hz, nx, ny, nz, tangent_variance_rad2):
     """Spherical Brownian step: rotate h by a tangent Gaussian (exponential map).
 
-    (n1, n2) are independent standard normals, the tangent Gaussian's coordinates along the basis of
-    :func:`tangent_basis` (a 2-D standard Gaussian is isotropic, so the step's law does not depend on which
-    orthonormal tangent basis carries it). Its per-axis variance ``tangent_variance_rad2`` is
-    :func:`tangent_variance_scalar` of σ² Δs, so the mean cosine between the headings before and after is
-    exp(-σ² Δs) for any step, as for spherical Brownian motion with per-axis angular variance σ² per cm.
-    Scalars only (no arrays), so that inlining into the growth step counts no references.
+    (nx, ny, nz) are independent standard normals; their projection on the plane normal to h, scaled by the
+    square root of ``tangent_variance_rad2`` (:func:`tangent_variance_scalar` of σ² Δs), is the tangent
+    Gaussian, so the mean cosine between the headings before and after is exp(-σ² Δs) for any step, as for
+    spherical Brownian motion with per-axis angular variance σ² per cm. Scalars only (no arrays), so that
+    inlining into the growth step counts no references.
     """
-    # v = sqrt(τ) (n1 e1 + n2 e2); the series need only |v|² = τ (n1² + n2²), so the square root runs beside them
-    e1x, e1y, e1z, e2x, e2y, e2z = tangent_basis(hx, hy, hz)
-    wx = n1 * e1x + n2 * e2x
-    wy = n1 * e1y + n2 * e2y
-    wz = n1 * e1z + n2 * e2z
-    c, sinc = cos_and_sinc_of_square(tangent_variance_rad2 * (n1 * n1 + n2 * n2))  # the turn's angle is |v|
-    along = sinc * math.sqrt(tangent_variance_rad2)
-    ox = c * hx + along * wx
-    oy = c * hy + along * wy
-    oz = c * hz + along * wz
+    along = nx * hx + ny * hy + nz * hz
+    wx = nx - along * hx
+    wy = ny - along * hy
+    wz = nz - along * hz
+    # v = sqrt(τ) w; the series need only |v|² = τ |w|², so the square root runs beside them
+    c, sinc = cos_and_sinc_of_square(tangent_variance_rad2 * (wx * wx + wy * wy + wz * wz))  # angle |v|
+    scale = sinc * math.sqrt(tangent_variance_rad2)
+    ox = c * hx + scale * wx
+    oy = c * hy + scale * wy
+    oz = c * hz + scale * wz
     # A unit vector up to rounding (cos² + sin² = 1): renormalized by one Newton step for 1/sqrt(q) at q = 1,
     # 1.5 - q/2, whose error 3(q - 1)²/8 is below 4e-19 for |q - 1| < 1e-9 (else exactly).
     q = ox * ox + oy * oy + oz * oz
@@ -405,7 +388,7 @@ def _brownian_loop(heading, normals, step_cm, sigma, log_x, ratio, out):
     for j in range(heading.shape[1]):
         tau = tangent_variance_scalar(sigma[j] * sigma[j] * step_cm[j], log_x, ratio)
         out[0, j], out[1, j], out[2, j] = brownian_turn(heading[0, j], heading[1, j], heading[2, j], normals[0, j],
-                                                        normals[1, j], tau)
+                                                        normals[1, j], normals[2, j], tau)
 
 
 def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
@@ -414,8 +397,8 @@ def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
     Parameters
     ----------
     heading : ndarray, shape (3, n)
-    normals : ndarray, shape (2, n)
-        Independent standard normal draws (coordinates along :func:`tangent_basis`).
+    normals : ndarray, shape (3, n)
+        Independent standard normal draws.
     step_cm, sigma_rad_per_sqrt_cm : ndarray, shape (n,)
     """
     h = np.ascontiguousarray(heading, dtype=np.float64)
