@@ -43,3 +43,24 @@ def test_sine_law_map_is_exact_and_finite_at_the_edges():
     expected = 2 * np.arctan(np.tan(theta0 / 2) * np.exp(-k * s))
     np.testing.assert_allclose(theta[:-1], expected[:-1], atol=1e-12)
     assert theta[-1] == np.pi or abs(theta[-1] - np.pi) < 1e-6
+
+
+def test_brownian_turn_has_the_spherical_brownian_mean_cosine_and_no_preferred_direction():
+    # Spherical Brownian motion over σ² Δs = x: E[h·h'] = exp(-x) (Perrin 1928, rotational diffusion, from
+    # memory); the turn must also be isotropic around h: its component along any fixed
+    # tangent direction has mean zero (symmetry). Monte Carlo, 4.5 standard errors.
+    from rootsim.growth.tropisms import random_deviation_step
+
+    rng = np.random.default_rng(4)
+    n = 200_000
+    for h0 in ([0.0, 0.0, -1.0], [0.6, 0.0, 0.8], [0.0, 1.0, 0.0]):
+        heading = np.repeat(np.array(h0)[:, None], n, axis=1)
+        for sigma, step in ((0.2, 0.5), (1.0, 1.2)):
+            out = random_deviation_step(heading, rng.standard_normal((3, n)), np.full(n, step), np.full(n, sigma))
+            np.testing.assert_allclose(np.linalg.norm(out, axis=0), 1.0, atol=1e-12)
+            cos = h0 @ out
+            assert abs(cos.mean() - np.exp(-sigma**2 * step)) < 4.5 * cos.std() / np.sqrt(n)
+            ortho = np.cross(h0, [0.3, -0.5, 0.81])
+            ortho /= np.linalg.norm(ortho)
+            along = ortho @ out
+            assert abs(along.mean()) < 4.5 * along.std() / np.sqrt(n)

@@ -12,13 +12,16 @@ import math
 
 import numpy as np
 from numba import njit
+from numba.np.random.distributions import random_standard_normal
+from numba.np.random.generator_core import next_double
 from scipy.special import ndtr
 
 from ..distributions import Fixed, Normal, Uniform
 from ..spec import PARAMETER_RANGES
-from .tropisms import JIT, JIT_BORROW
+from .tropisms import JIT, JIT_BORROW, JIT_INLINE
 
-__all__ = ["FIXED", "NORMAL", "UNIFORM", "parameter_tables", "draw_parameter", "normal_quantile"]
+__all__ = ["FIXED", "NORMAL", "UNIFORM", "parameter_tables", "draw_parameter", "normal_quantile", "uniform_draw",
+           "normal_draw"]
 
 FIXED, NORMAL, UNIFORM = 0, 1, 2
 _SQRT2 = math.sqrt(2.0)
@@ -101,3 +104,21 @@ def draw_parameter(kind, values, cls, param, uniform):
     else:
         v = values[cls, param, 0] + uniform * (values[cls, param, 1] - values[cls, param, 0])
     return min(max(v, values[cls, param, 4]), values[cls, param, 5])
+
+
+# -- draws from a plant's stream in compiled code ------------------------------------------------------------
+# Compiled code draws from ``rng.bit_generator`` (taken once per plant) through numba's own implementations of
+# ``Generator.random`` and ``Generator.standard_normal`` (the same functions, so the same numbers in the same
+# order): a call on the ``Generator`` itself counts a reference to it on every draw.
+
+@njit(**JIT_INLINE)
+def uniform_draw(bits):
+    """One U[0, 1) number from the bit generator ``bits`` (``rng.bit_generator``), as ``rng.random()``."""
+    return next_double(bits)
+
+
+@njit(**JIT_INLINE)
+def normal_draw(bits):
+    """One standard normal number from ``bits`` (``rng.bit_generator``), as ``rng.standard_normal()``
+    (numpy's ziggurat, as compiled by numba)."""
+    return random_standard_normal(bits)

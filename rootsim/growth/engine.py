@@ -210,24 +210,28 @@ def _assemble(plants: list[_PlantResult], class_names: list[str], *, in_biopore:
                 yield k, p, array, m, offset
                 offset += m
 
-    root = np.empty(n, dtype=np.int64)
-    plant_id = np.empty(n, dtype=np.int64)
-    order = np.empty(n, dtype=np.int64)
-    class_code = np.empty(n, dtype=np.int16)
-    radius = np.empty(n)
-    root_offsets = np.cumsum([0] + [p.n_roots for p in plants])
-    for k, p, local_root, m, offset in each_chunk(lambda p: p.root_chunks):
-        copy_root_columns(local_root, m, offset, root_offsets[k], k, p.order, p.class_code, p.radius, root, plant_id,
-                          order, class_code, radius)
-        del local_root
-    # root_class as a Categorical straight from the class codes (sorted categories, as a table read from Parquet
-    # has them): no Python string per segment, no factorizing afterwards
+    # root_class as a Categorical straight from codes into the sorted class names (as a table read from Parquet
+    # has them), written per segment with the other root columns: no Python string per segment, no factorizing
+    # or re-coding afterwards; int8 codes (pandas' own code type below 128 categories, so it keeps the array)
     import pandas as pd
 
     sorted_names = sorted(class_names)
-    rank = np.asarray([sorted_names.index(name) for name in class_names], dtype=np.int16)
-    root_class = pd.Categorical.from_codes(rank[class_code] if n else np.zeros(0, dtype=np.int16),
-                                           categories=pd.Index(sorted_names, dtype=object))
+    rank = np.asarray([sorted_names.index(name) for name in class_names], dtype=np.int64)
+    code_type = np.int8 if len(sorted_names) < 128 else np.int16
+    root = np.empty(n, dtype=np.int64)
+    plant_id = np.empty(n, dtype=np.int64)
+    order = np.empty(n, dtype=np.int64)
+    class_code = np.empty(n, dtype=code_type)
+    radius = np.empty(n)
+    root_offsets = np.cumsum([0] + [p.n_roots for p in plants])
+    root_codes = [rank[p.class_code].astype(code_type) for p in plants]  # per plant and root
+    for k, p, local_root, m, offset in each_chunk(lambda p: p.root_chunks):
+        copy_root_columns(local_root, m, offset, root_offsets[k], k, p.order, root_codes[k], p.radius, root,
+                          plant_id, order, class_code, radius)
+        del local_root
+    # codes are ranks of class codes the engine made, so in range: pandas need not check them again
+    root_class = pd.Categorical.from_codes(class_code, categories=pd.Index(sorted_names, dtype=object),
+                                           validate=False)
     del class_code
     parent = np.empty(n, dtype=np.int64)
     segment_offsets = np.cumsum([0] + [p.n_segments for p in plants])

@@ -24,11 +24,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
+from numba import njit, types
 from numba.typed import List
 
 from .classes import PARAM_NAMES
-from .draws import FIXED, draw_parameter
+from .draws import FIXED, draw_parameter, normal_draw, uniform_draw
 from .plant_age import growth_time, time_at_growth_time
 from ..soil.biopores import biopore_at
 from ..soil.strength import elongation_factor_kernel
@@ -37,11 +37,14 @@ from .tropisms import (
     JIT,
     JIT_BORROW,
     JIT_INLINE,
+    TANGENT_SERIES_LIMIT,
     brownian_turn,
     combined_sine_law_scalar,
     heading_from_angles_scalar,
     lateral_heading_scalar,
     sine_law_turn,
+    tangent_variance_scalar,
+    tangent_variance_series,
     toward_by_factor,
     toward_direction_turn,
 )
@@ -83,10 +86,12 @@ TIP_NF = 22
 T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE, T_PORE, T_DECLINED = range(8)
 TIP_NI = 8
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
-R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS = range(7)
-ROOT_NF = 7
+# (R_PENDING: the root's pending branch points, kept in this row that the tip loop touches anyway, so that lateral
+# activation skips a root with none without reading its queue)
+R_LEN, R_PREV, R_DT, R_RATE, R_MAXLEN, R_DEATH, R_RADIUS, R_PENDING = range(8)
+ROOT_NF = 8
 ROOT_FLOAT_FIELDS = ("length_cm", "length_previous_cm", "last_step_days", "last_rate_cm_per_day", "max_length_cm",
-                     "death_day", "radius_cm")
+                     "death_day", "radius_cm", "pending_branch_points")
 # Roots: int fields.
 R_CLASS, R_ORDER, R_PARENT, R_GROWING, R_DEAD, R_QUEUE_HEAD, R_QUEUE_TAIL = range(7)
 ROOT_NI = 7
@@ -108,6 +113,33 @@ BYTES_PER_ITEM = {
 _FINISH_TOLERANCE = 1e-4  # a root within this fraction of its maximum length has finished growing
 _MIN_STEP_CM = 1e-9
 _FIRST_CHUNK = 4096
+
+
+_FLOAT_COLUMN = types.float64[::1]
+_PARENT_COLUMN = types.int64[::1]
+_ROOT_COLUMN = types.int32[::1]
+_PORE_COLUMN = types.uint8[::1]
+
+
+@njit(**JIT)
+def _new_chunk(size, float_chunks, parent_chunks, root_chunks, pore_chunks):
+    """A new chunk of ``size`` segment rows: one array per column, each also appended to its list.
+
+    Returns the columns ``SEGMENT_FLOAT_FIELDS`` (float64), then parent (int64), root (int32) and biopore flag
+    (uint8, zeros).
+    """
+    x0, y0, z0 = np.empty(size), np.empty(size), np.empty(size)
+    x1, y1, z1 = np.empty(size), np.empty(size), np.empty(size)
+    length, birth = np.empty(size), np.empty(size)
+    parent = np.empty(size, dtype=np.int64)
+    root = np.empty(size, dtype=np.int32)
+    pore = np.zeros(size, dtype=np.uint8)
+    for column in (x0, y0, z0, x1, y1, z1, length, birth):
+        float_chunks.append(column)
+    parent_chunks.append(parent)
+    root_chunks.append(root)
+    pore_chunks.append(pore)
+    return x0, y0, z0, x1, y1, z1, length, birth, parent, root, pore
 
 
 @njit(**JIT)
@@ -147,17 +179,17 @@ def _room(arr, n, limit):
     return new
 
 
-@njit(**JIT)
-def _draw_root_parameters(rng, kind, values, cls, out):
+@njit(**JIT_BORROW)
+def _draw_root_parameters(bits, kind, values, cls, out):
     """Per-root values of class ``cls`` into ``out`` (N_PARAMS,); one uniform per non-fixed parameter."""
     for p in range(N_PARAMS):
         if kind[cls, p] == FIXED:
             out[p] = values[cls, p, 0]
         else:
-            out[p] = draw_parameter(kind, values, cls, p, rng.random())
+            out[p] = draw_parameter(kind, values, cls, p, uniform_draw(bits))
 
 
-@njit(**JIT)
+@njit(**JIT_BORROW)
 def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_segment, x, y, z, hx, hy, hz,
               params, birth, carry, felt_reference_radius_cm, felt_radius_exponent, apical_by_time):
     """Write root ``r`` and its growing tip (row ``j`` of the tip store); ``apical_by_time``: the class's
@@ -169,6 +201,7 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     rootf[r, R_MAXLEN] = params[P_MAXLEN]
     rootf[r, R_DEATH] = birth + params[P_LIFESPAN]
     rootf[r, R_RADIUS] = params[P_RADIUS]
+    rootf[r, R_PENDING] = 0.0
     rooti[r, R_CLASS] = cls
     rooti[r, R_ORDER] = order
     rooti[r, R_PARENT] = parent_root
@@ -388,25 +421,17 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     pore_chunks : list of ndarray of uint8
         Per chunk: 1 where the segment grew while its tip followed a biopore.
     """
+    bits = rng.bit_generator  # draws go to the bit generator (no reference counting per draw)
     # Segment columns in chunks, one array per column and chunk (so each can be released once copied).
-    float_chunks = List()  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
-    parent_chunks = List()
-    root_chunks = List()
-    pore_chunks = List()
+    float_chunks = List.empty_list(_FLOAT_COLUMN)  # x0 y0 z0 x1 y1 z1 length birth of chunk 0, then of chunk 1, ...
+    parent_chunks = List.empty_list(_PARENT_COLUMN)
+    root_chunks = List.empty_list(_ROOT_COLUMN)
+    pore_chunks = List.empty_list(_PORE_COLUMN)
     chunk_counts = List()  # rows used in each chunk but the current one
     chunk_counts.append(0)
     chunk_counts.pop()
-    c_x0, c_y0, c_z0 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_x1, c_y1, c_z1 = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_len, c_birth = np.empty(_FIRST_CHUNK), np.empty(_FIRST_CHUNK)
-    c_parent = np.empty(_FIRST_CHUNK, dtype=np.int64)
-    c_root = np.empty(_FIRST_CHUNK, dtype=np.int32)
-    c_pore = np.zeros(_FIRST_CHUNK, dtype=np.uint8)
-    for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
-        float_chunks.append(column)
-    parent_chunks.append(c_parent)
-    root_chunks.append(c_root)
-    pore_chunks.append(c_pore)
+    c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth, c_parent, c_root, c_pore = _new_chunk(
+        _FIRST_CHUNK, float_chunks, parent_chunks, root_chunks, pore_chunks)
     chunk_used = 0
     n_seg = 0
     n_pores = pores.radius_cm.size
@@ -484,14 +509,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         while ev < n_events and event_day[ev] < t1:
             cls = event_class[ev]
             count = event_count[ev]
-            whorl_turn = 2 * math.pi * rng.random()
+            whorl_turn = 2 * math.pi * uniform_draw(bits)
             for slot in range(count):
                 if n_roots >= root_limit:
                     return _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n_seg,
                                     rootf, rooti, n_roots, STATUS_ROOTS, n_roots, t0, pore_chunks)
-                jitter = event_jitter_rad[ev] * (2 * rng.random() - 1) if event_jitter_rad[ev] > 0 else 0.0
+                jitter = event_jitter_rad[ev] * (2 * uniform_draw(bits) - 1) if event_jitter_rad[ev] > 0 else 0.0
                 azimuth = whorl_turn + 2 * math.pi * slot / count + jitter
-                _draw_root_parameters(rng, kind, values, cls, params)
+                _draw_root_parameters(bits, kind, values, cls, params)
                 hx, hy, hz = heading_from_angles_scalar(math.radians(params[P_INITIAL]), azimuth)
                 x, y, z = clamp(box, seed_x, seed_y, -event_depth[ev])
                 rootf = _room(rootf, n_roots, root_limit)
@@ -523,17 +548,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
             chunk_counts.append(chunk_used)
             size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
-            c_x0, c_y0, c_z0 = np.empty(size), np.empty(size), np.empty(size)
-            c_x1, c_y1, c_z1 = np.empty(size), np.empty(size), np.empty(size)
-            c_len, c_birth = np.empty(size), np.empty(size)
-            c_parent = np.empty(size, dtype=np.int64)
-            c_root = np.empty(size, dtype=np.int32)
-            c_pore = np.zeros(size, dtype=np.uint8)
-            for column in (c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth):
-                float_chunks.append(column)
-            parent_chunks.append(c_parent)
-            root_chunks.append(c_root)
-            pore_chunks.append(c_pore)
+            c_x0, c_y0, c_z0, c_x1, c_y1, c_z1, c_len, c_birth, c_parent, c_root, c_pore = _new_chunk(
+                size, float_chunks, parent_chunks, root_chunks, pore_chunks)
             chunk_used = 0
         n_stepped = n_tips
         j = 0
@@ -568,7 +584,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
                             met = biopore_at(pores, sx, sy, sz)
                             if met >= 0 and met != tipi[j, T_DECLINED]:
-                                if pore_entry_probability >= 1.0 or rng.random() < pore_entry_probability:
+                                if pore_entry_probability >= 1.0 or uniform_draw(bits) < pore_entry_probability:
                                     pore = met
                                     tipi[j, T_PORE] = met
                                 else:
@@ -625,12 +641,16 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
-                    fallback[0] = rng.standard_normal()
-                    fallback[1] = rng.standard_normal()
-                    fallback[2] = rng.standard_normal()
+                    fallback[0] = normal_draw(bits)
+                    fallback[1] = normal_draw(bits)
+                    fallback[2] = normal_draw(bits)
                     drawn = True
-                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], arc, sigma,
-                                               log_x_table, ratio_table)
+                    variance = sigma * sigma * arc
+                    if variance < TANGENT_SERIES_LIMIT:
+                        tau = tangent_variance_series(variance)
+                    else:
+                        tau = tangent_variance_scalar(variance, log_x_table, ratio_table)
+                    hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], tau)
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
@@ -646,9 +666,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     ex, ey, ez = sx + hx * ds, sy + hy * ds, sz + hz * ds
                 else:
                     if not drawn:
-                        fallback[0] = rng.standard_normal()
-                        fallback[1] = rng.standard_normal()
-                        fallback[2] = rng.standard_normal()
+                        fallback[0] = normal_draw(bits)
+                        fallback[1] = normal_draw(bits)
+                        fallback[2] = normal_draw(bits)
                     ex, ey, ez, hx, hy, hz = constrain(box, sx, sy, sz, hx, hy, hz, ds, fallback)
                 seg_x, seg_y, seg_z = ex - sx, ey - sy, ez - sz
                 seg_len = math.sqrt(seg_x * seg_x + seg_y * seg_y + seg_z * seg_z)
@@ -682,7 +702,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     apical_time = dev.apical_by_time[cls]
                     nxt = tipf[j, T_NEXT]
                     while nxt <= new_length and (apical_time or nxt + apical <= max_len):
-                        u_pick = rng.random()
+                        u_pick = uniform_draw(bits)
                         pick = 0
                         while pick < n_branch_options and u_pick >= branch_cumulative[cls, pick]:
                             pick += 1
@@ -712,7 +732,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                     dev, cls, law_negexp[cls], length, nxt, max_len, rate, growth_dt, t1 - dt)
                             else:
                                 pendf[q, Q_THRESHOLD] = nxt + apical
-                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else rng.random()
+                            pendf[q, Q_AZIMUTH_U] = 0.0 if spiral[cls] else uniform_draw(bits)
                             pendi[q, Q_SEGMENT] = seg_id
                             pendi[q, Q_CLASS] = child
                             pendi[q, Q_COUNT] = tipi[j, T_COUNT]
@@ -722,12 +742,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                             else:
                                 rooti[root, R_QUEUE_HEAD] = q
                             rooti[root, R_QUEUE_TAIL] = q
+                            rootf[root, R_PENDING] += 1.0
                             n_pend += 1
                         tipi[j, T_COUNT] += 1
                         if kind[cls, P_INTERBRANCH] == FIXED:
                             nxt += values[cls, P_INTERBRANCH, 0] / proliferation
                         else:
-                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, rng.random()) / proliferation
+                            nxt += draw_parameter(kind, values, cls, P_INTERBRANCH, uniform_draw(bits)) / proliferation
                     tipf[j, T_NEXT] = nxt
                     # Commit the tip.
                     tipi[j, T_LAST] = seg_id
@@ -772,7 +793,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             tipi = _resized(tipi, n_tips, capacity)
         for s_idx in range(n_stepped):
             pr = stepped[s_idx]
-            if pr < 0:
+            if pr < 0 or rootf[pr, R_PENDING] == 0:  # nothing queued: head and tail stay -1
                 continue
             q = rooti[pr, R_QUEUE_HEAD]
             alive = not (has_lifespan and rooti[pr, R_DEAD] != 0)
@@ -791,7 +812,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         carry = t1 - time_at_growth_time(dev, parent_cls,
                                                          growth_time(dev, parent_cls, t1) - carry)
                 cls = pendi[q, Q_CLASS]
-                _draw_root_parameters(rng, kind, values, cls, params)
+                _draw_root_parameters(bits, kind, values, cls, params)
                 if spiral[parent_cls]:
                     azimuth = pendi[q, Q_COUNT] * spiral_divergence_rad[parent_cls]
                 else:
@@ -810,6 +831,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 pendi[q, Q_NEXT] = free_row
                 free_row = q
                 n_pend -= 1
+                rootf[pr, R_PENDING] -= 1.0
                 q = following
             if rooti[pr, R_GROWING] == 0:
                 # The parent stopped short of the remaining thresholds: they never carry a lateral.
@@ -818,6 +840,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     pendi[q, Q_NEXT] = free_row
                     free_row = q
                     n_pend -= 1
+                    rootf[pr, R_PENDING] -= 1.0
                     q = following
             rooti[pr, R_QUEUE_HEAD] = q
             if q < 0:

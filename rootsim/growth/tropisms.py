@@ -29,7 +29,8 @@ import numpy as np
 from numba import njit
 
 __all__ = ["combined_sine_law", "vertical_sine_law_step", "toward_direction_step", "random_deviation_step",
-           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table"]
+           "heading_from_angles", "lateral_heading", "tangent_variance", "tangent_variance_table",
+           "TANGENT_SERIES_LIMIT"]
 
 #: Options of every compiled kernel: cached on disk; IEEE division (x/0 gives inf or nan, as in numpy).
 JIT = {"cache": True, "error_model": "numpy", "nogil": True}
@@ -118,6 +119,17 @@ def toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
     return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
 
 
+#: Below this σ² Δs the tangent variance comes from its series (:func:`tangent_variance_series`).
+TANGENT_SERIES_LIMIT = 0.05
+
+
+@njit(**JIT_INLINE)
+def tangent_variance_series(x):
+    """τ = x - x²/6 - x³/90, the series inversion of 1 - τ + τ²/3 - τ³/15 = exp(-x) (relative error under
+    1e-6 below x = :data:`TANGENT_SERIES_LIMIT`; see :func:`tangent_variance_scalar`)."""
+    return x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
+
+
 @njit(**JIT_BORROW)
 def tangent_variance_scalar(x, log_x_table, ratio_table):
     """Per-axis variance τ of the tangent Gaussian for a spherical Brownian step of variance x = σ² Δs.
@@ -126,8 +138,8 @@ def tangent_variance_scalar(x, log_x_table, ratio_table):
     (relative error under 1e-6); above, the table of :func:`tangent_variance_table` (τ/x against log x,
     interpolated linearly, constant beyond its end).
     """
-    if x < 0.05:
-        return x * (1.0 - x * (1.0 / 6.0 + x / 90.0))
+    if x < TANGENT_SERIES_LIMIT:
+        return tangent_variance_series(x)
     n = log_x_table.size
     lx = math.log(x)
     if lx >= log_x_table[n - 1]:
@@ -144,45 +156,71 @@ def tangent_variance_scalar(x, log_x_table, ratio_table):
     return x * (ratio_table[i] + w * (ratio_table[i + 1] - ratio_table[i]))
 
 
+# Taylor coefficients in b = a² of cos a, (-1)^k / (2k)!, and of sin(a)/a, (-1)^k / (2k + 1)!, k = 0..8.
+_COS_COEFFICIENTS = tuple((-1) ** k / math.factorial(2 * k) for k in range(9))
+_SINC_COEFFICIENTS = tuple((-1) ** k / math.factorial(2 * k + 1) for k in range(9))
+
+
+@njit(**JIT_INLINE)
+def _series_from_one(b, b2, b4, c):
+    """1 + c[1] b + c[2] b² + ... + c[8] b⁸ (c[0] = 1): the tail by Estrin's scheme (pairs, then powers b², b⁴:
+    a short dependency chain instead of Horner's multiply-adds in a row; Estrin 1960, from memory), and the
+    leading 1 added last, so the sum is rounded once near 1."""
+    low = (c[1] + c[2] * b) + (c[3] + c[4] * b) * b2
+    high = (c[5] + c[6] * b) + (c[7] + c[8] * b) * b2
+    return 1.0 + b * (low + high * b4)
+
+
+@njit(**JIT_INLINE)
+def cos_and_sinc_of_square(b):
+    """cos a and sin(a)/a from b = a² >= 0 (no square root on the series side).
+
+    Up to b = 0.25 (a = 0.5, the usual size of one step's Brownian turn) by their Taylor series to the a¹⁶
+    term: the first omitted terms, a¹⁸/18! and a¹⁸/19!, are below 1e-21, under double precision (common
+    practice); beyond, from the library's sine and cosine.
+    """
+    if b > 0.25:
+        a = math.sqrt(b)
+        return math.cos(a), math.sin(a) / a
+    b2 = b * b
+    b4 = b2 * b2
+    return _series_from_one(b, b2, b4, _COS_COEFFICIENTS), _series_from_one(b, b2, b4, _SINC_COEFFICIENTS)
+
+
 @njit(**JIT_INLINE)
 def cos_and_sinc(angle):
-    """cos a and sin(a)/a for an angle a >= 0 (rad).
-
-    Up to a = 0.5 (the usual size of one step's Brownian turn) by their Taylor series to the a¹⁶ term, evaluated
-    by Horner's rule: the first omitted terms, a¹⁸/18! and a¹⁸/19!, are below 1e-21, under double precision
-    (common practice); beyond, from the library's sine and cosine.
-    """
+    """cos a and sin(a)/a for an angle a >= 0 (rad): :func:`cos_and_sinc_of_square` of a², or the library's
+    sine and cosine beyond a = 0.5."""
     if angle > 0.5:
         return math.cos(angle), math.sin(angle) / angle
-    b = angle * angle
-    cos_a = 1.0 + b * (-1.0 / 2 + b * (1.0 / 24 + b * (-1.0 / 720 + b * (1.0 / 40320 + b * (
-        -1.0 / 3628800 + b * (1.0 / 479001600 + b * (-1.0 / 87178291200 + b / 20922789888000)))))))
-    sinc_a = 1.0 + b * (-1.0 / 6 + b * (1.0 / 120 + b * (-1.0 / 5040 + b * (1.0 / 362880 + b * (
-        -1.0 / 39916800 + b * (1.0 / 6227020800 + b * (-1.0 / 1307674368000 + b / 355687428096000)))))))
-    return cos_a, sinc_a
+    return cos_and_sinc_of_square(angle * angle)
 
 
-@njit(**JIT_BORROW)
-def brownian_turn(hx, hy, hz, nx, ny, nz, step_cm, sigma_rad_per_sqrt_cm, log_x_table, ratio_table):
-    """Spherical Brownian step over ``step_cm``: rotate h by a tangent Gaussian (exponential map).
+@njit(**JIT_INLINE)
+def brownian_turn(hx, hy, hz, nx, ny, nz, tangent_variance_rad2):
+    """Spherical Brownian step: rotate h by a tangent Gaussian (exponential map).
 
-    (nx, ny, nz) are independent standard normals; the tangent Gaussian's per-axis variance is
-    :func:`tangent_variance_scalar` of σ² Δs, so the mean cosine between the headings before and after is
-    exp(-σ² Δs) for any step, as for spherical Brownian motion with per-axis angular variance σ² per cm.
+    (nx, ny, nz) are independent standard normals; their projection on the plane normal to h, scaled by the
+    square root of ``tangent_variance_rad2`` (:func:`tangent_variance_scalar` of σ² Δs), is the tangent
+    Gaussian, so the mean cosine between the headings before and after is exp(-σ² Δs) for any step, as for
+    spherical Brownian motion with per-axis angular variance σ² per cm. Scalars only (no arrays), so that
+    inlining into the growth step counts no references.
     """
     along = nx * hx + ny * hy + nz * hz
-    scale = math.sqrt(tangent_variance_scalar(sigma_rad_per_sqrt_cm * sigma_rad_per_sqrt_cm * step_cm,
-                                              log_x_table, ratio_table))
-    vx = (nx - along * hx) * scale
-    vy = (ny - along * hy) * scale
-    vz = (nz - along * hz) * scale
-    angle = math.sqrt(vx * vx + vy * vy + vz * vz)
-    c, sinc = cos_and_sinc(angle)
-    ox = c * hx + sinc * vx
-    oy = c * hy + sinc * vy
-    oz = c * hz + sinc * vz
-    norm = math.sqrt(ox * ox + oy * oy + oz * oz)
-    return ox / norm, oy / norm, oz / norm
+    wx = nx - along * hx
+    wy = ny - along * hy
+    wz = nz - along * hz
+    # v = sqrt(τ) w; the series need only |v|² = τ |w|², so the square root runs beside them
+    c, sinc = cos_and_sinc_of_square(tangent_variance_rad2 * (wx * wx + wy * wy + wz * wz))  # angle |v|
+    scale = sinc * math.sqrt(tangent_variance_rad2)
+    ox = c * hx + scale * wx
+    oy = c * hy + scale * wy
+    oz = c * hz + scale * wz
+    # A unit vector up to rounding (cos² + sin² = 1): renormalized by one Newton step for 1/sqrt(q) at q = 1,
+    # 1.5 - q/2, whose error 3(q - 1)²/8 is below 4e-19 for |q - 1| < 1e-9 (else exactly).
+    q = ox * ox + oy * oy + oz * oz
+    inverse_norm = 1.5 - 0.5 * q if abs(q - 1.0) < 1e-9 else 1.0 / math.sqrt(q)
+    return ox * inverse_norm, oy * inverse_norm, oz * inverse_norm
 
 
 @njit(**JIT)
@@ -348,9 +386,9 @@ def toward_direction_step(heading, target, step_cm, strength_per_cm):
 @njit(**JIT)
 def _brownian_loop(heading, normals, step_cm, sigma, log_x, ratio, out):
     for j in range(heading.shape[1]):
+        tau = tangent_variance_scalar(sigma[j] * sigma[j] * step_cm[j], log_x, ratio)
         out[0, j], out[1, j], out[2, j] = brownian_turn(heading[0, j], heading[1, j], heading[2, j], normals[0, j],
-                                                        normals[1, j], normals[2, j], step_cm[j], sigma[j],
-                                                        log_x, ratio)
+                                                        normals[1, j], normals[2, j], tau)
 
 
 def random_deviation_step(heading, normals, step_cm, sigma_rad_per_sqrt_cm):
