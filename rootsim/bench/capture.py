@@ -6,7 +6,7 @@ with ``soil_water_loam_evaporating.toml`` and the invented ``weather_dry_spell_1
 
 * ``capture_coupled``: the coupled season (growth paused every day, Richards + Feddes + nitrate + evaporation,
   water written into the soil fields). A drying soil grows fewer segments than the spec's static wet soil, so
-  the floor is growing the same spec alone (``rootsim.grow``) scaled to the coupled run's segment count: the
+  the floor is growing the same spec alone (``rootsim.grow``, on the spec's own clock) scaled to the coupled run's segment count: the
   ratio is the cost per segment of the coupled season; the aim is at most 1.5.
 * ``capture_same_roots``: the same season with ``couple=False`` (the roots grow in the spec's own soil, exactly
   ``grow``'s table, while the column runs alongside) against ``grow``: the soil model and the daily pauses on
@@ -32,7 +32,7 @@ def run_capture_stage(*, days: int = 120, repeat: int = 3) -> dict[str, dict]:
     """Time the coupled season, the uncoupled season and growth alone over ``days`` days."""
     from ..capture.coupled import run_coupled_season
     from ..capture.soil_file import read_soil_water_file
-    from ..growth import grow
+    from ..soil.thermal import grow_for_spec
     from ..soil.weather import read_weather_table
     from ..spec import load_spec
 
@@ -45,7 +45,7 @@ def run_capture_stage(*, days: int = 120, repeat: int = 3) -> dict[str, dict]:
         result = run_coupled_season(spec, setup, weather, couple=couple, last_day=last_day, progress=False)
         return len(result["system"]), float(result["traits"]["seasonal_transpiration_mm"])
 
-    grow_seconds, grown = timed(grow, spec, progress=False, repeat=repeat)
+    grow_seconds, grown = timed(grow_for_spec, spec, progress=False, repeat=repeat)  # on the spec's own clock
     n_grown = len(grown)
     del grown
     coupled_seconds, (n_coupled, transpiration) = timed(coupled, True, repeat=repeat)

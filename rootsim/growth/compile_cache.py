@@ -10,7 +10,7 @@ temporary directory instead, so rootsim still imports and runs (each such sessio
 
 numba checks a cached function against its own source file only, so a compiled growth step would outlive a
 change of a kernel it calls from another file (``rootsim/soil/fields.py``, ``growth/soil.py``, ...), e.g. after
-an upgrade. :func:`drop_stale_compiled_code` therefore keeps a SHA-256 of every source file of the package beside
+an upgrade. :func:`drop_stale_compiled_code` therefore keeps a SHA-256 of the package's source files that use numba beside
 the cache and deletes the package's cached machine code when it no longer matches.
 """
 
@@ -70,10 +70,14 @@ def _package_root() -> Path:
 
 
 def _sources_digest(package: Path) -> str:
+    """SHA-256 of the package's compiled sources: every file that uses numba (the others cannot change
+    machine code, and editing them should not cost a recompilation)."""
     digest = hashlib.sha256()
     for path in sorted(package.rglob("*.py")):
-        digest.update(str(path.relative_to(package)).encode())
-        digest.update(path.read_bytes())
+        text = path.read_bytes()
+        if b"numba" in text:
+            digest.update(str(path.relative_to(package)).encode())
+            digest.update(text)
     return digest.hexdigest()
 
 
