@@ -47,8 +47,9 @@ _STAND = {"rows": 2, "plants_per_row": 2, "row_spacing_cm": 30.0, "plant_spacing
 def test_grid_and_layer_forms_of_the_same_soil_grow_the_same_roots(tmp_path):
     # The same soil as [[soil.layers]] (0.4 MPa, a 2 MPa pan at 20-30 cm, 0.8 MPa below) and as a .npy grid of
     # 5 cm cells holding the same values: every tip reads the same resistance, so growth is identical.
-    # 30 days, not 20: at 20 days 4 of 12 seeds had no root below the pan at all (0-7 cm on the others), so the
-    # comparison below 30 cm checked little; at 30 days every one of 12 seeds had 107-343 cm below 30 cm.
+    # 30 days, not 20: at 20 days 5 of 20 seeds had no root below the pan at all (0-7 cm on the others, deepest
+    # tip 28-34 cm), so the comparison below 30 cm checked little; at 30 days every one of 20 seeds had 108-343 cm
+    # below 30 cm and its deepest tip at 39-52 cm.
     layers = [{"depth_top_cm": 0.0, "depth_bottom_cm": 20.0, "penetration_resistance_mpa": 0.4},
               {"depth_top_cm": 20.0, "depth_bottom_cm": 30.0, "penetration_resistance_mpa": 2.0},
               {"depth_top_cm": 30.0, "depth_bottom_cm": 400.0, "penetration_resistance_mpa": 0.8}]
