@@ -63,6 +63,10 @@ def test_global_fit_recovers_two_parameters_within_its_intervals():
     # Observations made with known values (2.0 cm/day, 30 degrees) on other seeds, at two dates, plus noise of
     # the stated SD; the fit's 95 % profile-likelihood intervals must hold the truth and be informative
     # (narrower than 40 % of the search box).
+    # Known fragile (left open): over 16 other observation sets (stands 300+4k.., noise rng 4+k) the rate's
+    # interval held 2.0 in 14, the angle's held 30 degrees in 11 and was informative in 10; all checks passed
+    # in 5. With replicates=4, population=6, generations=6 both held the truth in 9 of 10 but the angle was
+    # informative in 4 of 10. The intervals, not this check, need the fix (rootsim/study/global_fit.py).
     truth = parse_spec(SPEC).with_overrides(time_step_days=1.0)
     observed = _stand_observations(truth, (8.0, 12.0), range(300, 304), np.random.default_rng(4))
     params = [FitParameter(RATE, 0.5, 4.0), FitParameter(ANGLE, 0.0, 85.0)]
@@ -81,6 +85,7 @@ def test_global_fit_cli_with_cores_and_a_trait_target(tmp_path):
     # Cores taken as a field team would (two positions, 4 cm increments, four replicate stands), reported with
     # the SD between stands; plus the stands' mean maximum rooting depth as a trait target. The fit simulates
     # the same cores and must bracket the rate the observations were made with (2.0 cm/day).
+    # Known fragile (left open): 5 of 6 other core stand sets (seeds 400+4k..) passed; the miss gave 1.375-1.958.
     from rootsim.analysis import root_traits
 
     truth = parse_spec(SPEC).with_overrides(time_step_days=1.0)
