@@ -54,3 +54,26 @@ def test_analyze_writes_orientation_csv(tmp_path, capsys):
     assert o["root_length_cm"].tolist() == pytest.approx([5.0, 5.0, 2.0])
     assert o["mean_abs_cos"].tolist() == pytest.approx([1.0, 1.0, 1.0])
     assert "orientation" in capsys.readouterr().out
+
+
+def test_orientation_chunks_bound_memory_and_not_the_result():
+    # The result is a sum over segments, so the chunk size changes it only by round-off; the temporaries are
+    # per chunk (endpoints, directions, layer pieces: about 280 traced bytes per segment of a chunk, measured
+    # once), so a tenth of the table per chunk must stay far below one chunk of the whole table.
+    import tracemalloc
+
+    from rootsim.analysis.orientation import ORIENTATION_CHUNK_SEGMENTS
+
+    assert ORIENTATION_CHUNK_SEGMENTS <= 100_000  # sized so `rootsim analyze` stays <= 250 B/segment (README)
+    rng = np.random.default_rng(4)
+    p0, p1 = isotropic_lines(60_000, box_lo=[-10, -10, -40], box_hi=[10, 10, -1], length_cm=0.5, rng=rng)
+    system = lines_system(p0, p1)
+    whole = orientation_by_depth(system, layer_cm=5, chunk_segments=60_000)
+    tracemalloc.start()
+    try:
+        parts = orientation_by_depth(system, layer_cm=5, chunk_segments=6_000)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak <= 60 * 60_000, peak / 60_000
+    np.testing.assert_allclose(parts.to_numpy(), whole.to_numpy(), rtol=1e-12, atol=1e-9)
