@@ -195,9 +195,10 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
     the root that reached it last (plant by plant) in bits 2..31 and two flags (same-plant / between-plant
     overlap counted) in bits 0..1. A row of voxels (fixed y and depth) is marked over the interval where its
     centres lie within the radius (:func:`_row_interval`), so no voxel outside the capsule is visited. A segment
-    that continues its root from the end of the segment ``previous[s]`` leaves out its start ball and the voxels
-    of the row inside the previous segment's capsule: the same root visits them anyway (the previous segment,
-    or for its start ball the one before), so every count is unchanged and repeated visits are saved.
+    that continues its root from the end of the segment ``previous[s]`` leaves out the voxels of its start ball:
+    they lie in the previous segment's end ball, which the same root visits anyway, so every count is unchanged
+    and repeated visits are saved. (Skipping the whole previous capsule saves more visits but costs a second
+    closed-form interval per row, about 0.4 s on the bench stand against 0.2 s of visits saved.)
     """
     nx, ny = n_tiles_axis[0], n_tiles_axis[1]
     o0, o1, o2 = origin_index[0], origin_index[1], origin_index[2]
@@ -223,15 +224,6 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
             inv_two_along_x = 0.5 / along_x if along_x > 1e-12 else 0.0
             before = previous[s]
             continuing = before >= 0
-            if continuing:  # the previous segment's capsule, in the same frame
-                bx, by, bz = p0[before, 0], p0[before, 1], -p0[before, 2]
-                ex, ey, ez = p1[before, 0] - bx, p1[before, 1] - by, -p1[before, 2] - bz
-                edd = ex * ex + ey * ey + ez * ez
-                e_inv = 1.0 / edd if edd > 0.0 else 0.0
-                e_along = 1.0 - ex * ex * e_inv
-                e_inv_two = 0.5 / e_along if e_along > 1e-12 else 0.0
-            else:
-                bx = by = bz = ex = ey = ez = edd = e_inv = e_along = e_inv_two = 0.0
             k0 = max(box[s, 4], tz * edge)
             if k0 > min(box[s, 5], tz * edge + edge - 1):
                 continue
@@ -274,12 +266,12 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
                         continue
                     row = ((k - tz * edge) * edge + (j - ty * edge)) * edge - tx * edge
                     skip_first, skip_last = last + 1, last   # empty: nothing of the row skipped
-                    if continuing:
-                        w0, w1 = _row_interval(centre_y - by, centre_z - bz, ex, ey, ez, edd, e_inv, e_along,
-                                               e_inv_two, radius, True)
-                        if w0 <= w1:
-                            skip_first = int(np.ceil((w0 + bx) / voxel - 0.5)) - o0
-                            skip_last = int(np.floor((w1 + bx) / voxel - 0.5)) - o0
+                    if continuing:  # the ball at the start (one square root, not the whole previous capsule)
+                        rest = radius * radius - cy * cy - cz * cz
+                        if rest >= 0.0:
+                            w = np.sqrt(rest)
+                            skip_first = int(np.ceil((ax - w) / voxel - 0.5)) - o0
+                            skip_last = int(np.floor((ax + w) / voxel - 0.5)) - o0
                     if skip_first > skip_last or skip_last < first or skip_first > last:
                         n0, n1, n2, n3 = _mark_range(state, row, first, last, mark, fresh, root, plant, root_plant)
                     else:
