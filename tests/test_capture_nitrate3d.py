@@ -2,6 +2,7 @@
 takes up nothing where there are no roots."""
 
 import numpy as np
+import pytest
 
 from rootsim.capture.nitrate import NitrateParameters, nitrate_step
 from rootsim.capture.nitrate3d import voxel_nitrate_step
@@ -69,3 +70,83 @@ def test_balance_closes_every_day_and_no_uptake_without_roots():
         assert (uptake[roots == 0] == 0).all()
         assert (uptake[roots > 0] > 0).all() and leached > 0
         mass, theta = new, theta_new
+
+
+def _season_inputs(depth_cm):
+    import pandas as pd
+
+    from rootsim.capture.soil_file import soil_water_from_mapping
+    from rootsim.soil.weather import weather_table_from_frame
+
+    setup = soil_water_from_mapping({
+        "column": {"depth_cm": depth_cm, "cell_cm": 2.0, "initial_pressure_head_cm": -60.0},
+        "horizons": [{"depth_bottom_cm": depth_cm / 2, "texture": "loam"},
+                     {"depth_bottom_cm": depth_cm, "texture": "sandy_loam"}],
+    }, source="pot_soil.toml")
+    weather = weather_table_from_frame(pd.DataFrame({
+        "day": np.arange(8), "mean_air_temperature_c": 20.0, "rain_mm": [12.0, 0, 0, 20.0, 0, 0, 8.0, 0],
+        "potential_transpiration_mm": 3.0, "nitrate_fertilizer_kg_n_per_ha": [0, 60.0, 0, 0, 0, 0, 0, 0]}))
+    return setup, weather
+
+
+def _vertical_roots(xs, depth_cm):
+    top = np.tile(np.arange(0.0, depth_cm), len(xs))
+    x = np.repeat(xs, int(depth_cm))
+    return {"x0": x, "y0": np.zeros_like(x), "z0": -top, "x1": x, "y1": np.zeros_like(x), "z1": -(top + 1.0),
+            "length_cm": np.ones(top.size), "birth_day": top / 4.0}
+
+
+NITRATE_DAILY = ("nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha",
+                 "nitrate_storage_kg_n_per_ha")
+NITRATE_LAYERS = ("nitrate_n_kg_per_ha", "nitrate_n_mg_per_l", "nitrate_uptake_kg_n_per_ha")
+
+
+def test_uniform_box_season_nitrate_equals_the_1d_season_day_by_day():
+    # A box three voxels wide whose roots are spread evenly over its columns stays laterally uniform, so each of
+    # its columns is the 1D season's column (an independent implementation: banded solve, per cm² of ground);
+    # the nitrate columns must agree day by day, fertilizer, uptake, leaching and per-layer amounts alike.
+    from rootsim.capture.season import run_water_season
+    from rootsim.capture.season3d import run_voxel_water_season
+    from rootsim.spec import Container
+
+    setup, weather = _season_inputs(20.0)
+    box = Container(kind="rhizobox", width_cm=6.0, thickness_cm=2.0, depth_cm=20.0)
+    roots = _vertical_roots([-2.0, 0.0, 2.0], 14.0)   # one root down the middle of each 2 cm voxel column
+    three = run_voxel_water_season(roots, setup, weather, box, cell_cm=2.0)
+    one = run_water_season(roots, setup, weather, ground_area_cm2=12.0)
+    assert three["grid"].shape == (3, 1, 10)
+    assert one["daily"]["nitrate_leached_kg_n_per_ha"].sum() > 0 and one["daily"]["nitrate_uptake_kg_n_per_ha"].sum() > 0
+    for column in NITRATE_DAILY:
+        np.testing.assert_allclose(three["daily"][column], one["daily"][column], rtol=1e-9, atol=1e-12, err_msg=column)
+    for column in NITRATE_LAYERS:
+        np.testing.assert_allclose(three["layers"][column], one["layers"][column], rtol=1e-9, atol=1e-12,
+                                   err_msg=column)
+    assert three["daily"].attrs["initial_nitrate_kg_n_per_ha"] == pytest.approx(
+        one["daily"].attrs["initial_nitrate_kg_n_per_ha"], rel=1e-12)
+    for trait in ("nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha", "nitrate_uptake_fraction_of_applied"):
+        assert three["traits"][trait] == pytest.approx(one["traits"][trait], rel=1e-9)
+
+
+def test_pot_season_nitrate_balance_closes_every_day_and_no_uptake_without_roots():
+    # Conservation (common practice for a finite-volume scheme): each day storage change = fertilizer - uptake -
+    # leaching, here checked from the table's own columns; roots only at x = +3 cm down to 8 cm take up no
+    # nitrate in the layers below 8 cm.
+    from rootsim.capture.season3d import run_voxel_water_season
+    from rootsim.spec import Container
+
+    setup, weather = _season_inputs(16.0)
+    pot = Container(kind="pot", diameter_cm=12.0, depth_cm=16.0)
+    result = run_voxel_water_season(_vertical_roots([3.0], 8.0), setup, weather, pot, cell_cm=2.0)
+    daily, layers = result["daily"], result["layers"]
+    storage = daily["nitrate_storage_kg_n_per_ha"].to_numpy()
+    previous = np.concatenate([[daily.attrs["initial_nitrate_kg_n_per_ha"]], storage[:-1]])
+    error = (storage - previous) - (daily["nitrate_fertilizer_kg_n_per_ha"] - daily["nitrate_uptake_kg_n_per_ha"]
+                                    - daily["nitrate_leached_kg_n_per_ha"]).to_numpy()
+    assert np.abs(error).max() <= 1e-10 * storage.max()
+    assert daily["nitrate_balance_error_kg_n_per_ha"].abs().max() <= 1e-10 * storage.max()
+    for day, group in layers.groupby("day"):
+        assert group["nitrate_n_kg_per_ha"].sum() == pytest.approx(
+            daily.loc[daily["day"] == day, "nitrate_storage_kg_n_per_ha"].item(), rel=1e-12)
+    assert daily["nitrate_uptake_kg_n_per_ha"].sum() > 0
+    assert (layers.loc[layers["depth_top_cm"] >= 8.0, "nitrate_uptake_kg_n_per_ha"] == 0.0).all()
+    assert result["traits"]["nitrate_applied_kg_n_per_ha"] == pytest.approx(60.0, rel=1e-12)

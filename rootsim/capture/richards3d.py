@@ -167,6 +167,10 @@ class VoxelStep:
     drainage_cm3_per_day: float
     iterations: int
     converged: bool
+    #: Water flow across each interior face of ``_faces(grid)``, first -> second cell, cm³/day (None if not converged).
+    face_flow_cm3_per_day: np.ndarray | None = None
+    #: Water leaving each bottom cell across the bottom, cm³/day (None if not converged).
+    bottom_flow_cm3_per_day: np.ndarray | None = None
 
 
 def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, soil, supply_cm_per_day: float,
@@ -241,7 +245,7 @@ def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, so
         net_in[bottom_cells] -= drain
         balance = (theta_new - theta_old) * storage - net_in + sink_per_day * volume
         if change < head_tolerance_cm and float(np.abs(balance).max()) * dt_days / top_area < water_tolerance_cm:
-            return VoxelStep(h, theta_new, supply * surface.size, float(drain.sum()), it, True)
+            return VoxelStep(h, theta_new, supply * surface.size, float(drain.sum()), it, True, flow, drain)
     return VoxelStep(head_cm, theta_old, 0.0, 0.0, max_iterations, False)
 
 
@@ -260,12 +264,13 @@ def advance_voxel_water(head_cm: np.ndarray, duration_days: float, *, grid: Voxe
                         supply_cm_per_day: float, sink: Callable[[np.ndarray], np.ndarray],
                         bottom: str = "free_drainage", dt_days: float = 0.05, min_dt_days: float = 1e-7,
                         max_dt_days: float = 0.25, max_water_content_change: float = 0.02,
-                        head_tolerance_cm: float = 1e-3, sink_floor_head_cm: float | None = None
-                        ) -> tuple[np.ndarray, VoxelTotals, float, np.ndarray]:
+                        head_tolerance_cm: float = 1e-3, sink_floor_head_cm: float | None = None,
+                        on_step: Callable | None = None) -> tuple[np.ndarray, VoxelTotals, float, np.ndarray]:
     """Advance the container over ``duration_days`` in adaptive implicit steps (the 1D rules of
     :func:`rootsim.capture.richards.advance_water`: halve on failure or a water-content change above
     ``max_water_content_change``, grow by 1.3 after easy steps; with ``sink_floor_head_cm`` uptake in a step
-    never takes a cell below the water content at that head).
+    never takes a cell below the water content at that head). ``on_step(dt_days, water_content_before, step)``
+    is called after each accepted step (:class:`VoxelStep` with its face and bottom flows; used by nitrate).
 
     Returns
     -------
@@ -307,6 +312,8 @@ def advance_voxel_water(head_cm: np.ndarray, duration_days: float, *, grid: Voxe
             + float(taken.sum())
         totals.steps += 1
         uptake += taken
+        if on_step is not None:
+            on_step(step_dt, theta, step)
         h, theta = step.head_cm, step.water_content
         elapsed += step_dt
         if step_dt >= dt * (1.0 - 1e-9):

@@ -9,7 +9,9 @@ of each voxel's share of the demand (potential transpiration per unit surface x 
 length, as in 1D), so roots on one side of a pot dry that side. Outputs have the 1D season's form: a daily table
 (mm over the container's surface), a layers table (per depth layer: mean water content and head, uptake and root
 length summed over the layer) and the same traits, so figures, the soil-state VTK and studies read them alike.
-Nitrate is not transported in 3D (the 1D column does that).
+Nitrate moves in lockstep with the water (:func:`rootsim.capture.nitrate3d.voxel_nitrate_step` on each accepted
+step's face and bottom flows; fertilizer enters the surface cells at the start of its day, as in 1D), filling the
+1D season's daily nitrate columns (kg N/ha over the container's surface) and per-layer nitrate columns.
 """
 
 from __future__ import annotations
@@ -20,8 +22,10 @@ import pandas as pd
 from ..analysis.inputs import float_column
 from ..analysis.voxels import grid_crossing_pieces
 from .errors import CaptureError
-from .richards3d import VoxelGrid, advance_voxel_water, container_grid, soil_on_grid
-from .season import capture_traits, potential_transpiration_mm
+from .nitrate import KG_PER_HA_TO_MG_PER_CM2
+from .nitrate3d import voxel_nitrate_step
+from .richards3d import VoxelGrid, _faces, advance_voxel_water, container_grid, soil_on_grid
+from .season import add_nitrate_columns, capture_traits, potential_transpiration_mm
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
@@ -91,8 +95,8 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
     Returns
     -------
     dict
-        ``daily``, ``layers`` and ``traits`` as :func:`rootsim.capture.season.run_water_season` (without the
-        nitrate columns) and ``grid`` (the :class:`VoxelGrid`).
+        ``daily``, ``layers`` and ``traits`` as :func:`rootsim.capture.season.run_water_season` (with its nitrate
+        columns; no soil-evaporation columns) and ``grid`` (the :class:`VoxelGrid`).
     """
     if abs(float(container.depth_cm) - setup.depth_cm) > 1e-9 * setup.depth_cm:
         raise CaptureError(f"{setup.source}: column.depth_cm: {setup.depth_cm:g} differs from the "
@@ -121,6 +125,14 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
     rows, theta_rows, head_rows, uptake_rows, root_rows = [], [], [], [], []
     per_layer = lambda values: np.bincount(layer, weights=values, minlength=n_layers)  # noqa: E731
     cells_per_layer = per_layer(np.ones(layer.size))
+    geometry = _faces(grid)
+    surface_cells = geometry[1]
+    nitrate = setup.nitrate
+    fertilizer = weather.column("nitrate_fertilizer_kg_n_per_ha", default=0.0)[:n_days]
+    top_area = grid.cell_cm[0] * grid.cell_cm[1]
+    mass = nitrate.initial_nitrate_n_mg_per_l * 1e-3 * soil.water_content(head) * volume   # mg N per voxel
+    initial_mass = float(mass.sum())
+    nitrate_rows, nitrate_cells, nitrate_uptake_cells = [], [], []
     for d in range(n_days):
         root_length = roots[d]
         total = float(root_length.sum())
@@ -134,10 +146,31 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
             cap = feddes.max_uptake_cm3_per_cm_root_per_day
             return out if cap is None else np.minimum(out, cap * root_length / volume)
 
+        mass[surface_cells] += fertilizer[d] * KG_PER_HA_TO_MG_PER_CM2 * top_area
+        nitrate_before = float(mass.sum())
+        day_n = {"mass": mass, "uptake": np.zeros(mass.size), "leached": 0.0}
+
+        def on_step(step_dt, theta_before, step, root_length=root_length, day_n=day_n):
+            day_n["mass"], taken, leached = voxel_nitrate_step(
+                day_n["mass"], step_dt, grid=grid, theta_old=theta_before, theta_new=step.water_content,
+                saturated=soil.saturated, face_flow_cm3_per_day=step.face_flow_cm3_per_day,
+                drainage_cm3_per_day=step.bottom_flow_cm3_per_day, root_length_cm=root_length,
+                parameters=nitrate, _geometry=geometry)
+            day_n["uptake"] += taken
+            day_n["leached"] += leached
+
         before = float(soil.water_content(head).sum()) * volume
         head, totals, dt, uptake = advance_voxel_water(head, 1.0, grid=grid, soil=soil, sink=sink, dt_days=dt,
                                                        supply_cm_per_day=(rain[d] + irrigation[d]) / 10.0,
-                                                       bottom="free_drainage", sink_floor_head_cm=feddes.wilting_head_cm)
+                                                       bottom="free_drainage", sink_floor_head_cm=feddes.wilting_head_cm,
+                                                       on_step=on_step)
+        mass = day_n["mass"]
+        n_error = (float(mass.sum()) - nitrate_before) + float(day_n["uptake"].sum()) + day_n["leached"]
+        to_kg = 1.0 / (KG_PER_HA_TO_MG_PER_CM2 * area)
+        nitrate_rows.append((fertilizer[d], to_kg * float(day_n["uptake"].sum()), to_kg * day_n["leached"],
+                             to_kg * float(mass.sum()), to_kg * n_error))
+        nitrate_cells.append(per_layer(mass) / area)
+        nitrate_uptake_cells.append(per_layer(day_n["uptake"]) / area)
         theta = soil.water_content(head)
         after = float(theta.sum()) * volume
         error = (after - before) - (totals.infiltration_cm3 - totals.drainage_cm3 - totals.uptake_cm3)
@@ -152,6 +185,11 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
                                         "actual_transpiration_mm", "infiltration_mm", "runoff_mm", "drainage_mm",
                                         "soil_water_storage_mm", "water_balance_error_mm", "root_length_cm",
                                         "solver_steps"])
+    nitrate_frame = pd.DataFrame(nitrate_rows, columns=[
+        "nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha",
+        "nitrate_storage_kg_n_per_ha", "nitrate_balance_error_kg_n_per_ha"])
+    daily = pd.concat([daily, nitrate_frame], axis=1)
+    daily.attrs["initial_nitrate_kg_n_per_ha"] = initial_mass / (KG_PER_HA_TO_MG_PER_CM2 * area)
     top = np.arange(n_layers) * setup.cell_cm
     layers = pd.DataFrame({
         "day": np.repeat(days, n_layers),
@@ -162,6 +200,8 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
         "water_uptake_mm": np.concatenate(uptake_rows),
         "root_length_cm": np.concatenate(root_rows),
     })
+    layers = add_nitrate_columns(layers, np.concatenate(nitrate_cells), np.concatenate(nitrate_uptake_cells),
+                                 cell_cm=setup.cell_cm)
     return {"daily": daily, "layers": layers, "grid": grid,
             "traits": capture_traits(daily, layers, setup=setup, ground_area_cm2=area)}
 
