@@ -93,6 +93,10 @@ def test_capture_of_a_pot_run_uses_the_3d_voxel_column(tmp_path, capsys):
     assert daily["water_balance_error_mm"].abs().max() < 1e-5
     layers = pd.read_csv(tmp_path / "out" / "capture_layers.csv")
     assert (layers.loc[layers["depth_top_cm"] >= 12.0, "water_uptake_mm"] == 0.0).all()   # no roots below 12 cm
+    # the pot's season carries nitrate too: its balance closes each day and no nitrate is taken below the roots
+    assert "nitrate_uptake_kg_n_per_ha" in traits and traits["nitrate_uptake_kg_n_per_ha"] > 0
+    assert daily["nitrate_balance_error_kg_n_per_ha"].abs().max() <= 1e-10 * daily["nitrate_storage_kg_n_per_ha"].max()
+    assert (layers.loc[layers["depth_top_cm"] >= 12.0, "nitrate_uptake_kg_n_per_ha"] == 0.0).all()
     # a soil file deeper than the pot: one line, exit 2, nothing written
     soil.write_text(soil.read_text().replace("20.0", "30.0"))
     code = main(["capture", str(tmp_path / "run"), "--soil-water", str(soil), "--weather", str(tmp_path / "w.csv"),
