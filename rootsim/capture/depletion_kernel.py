@@ -35,6 +35,7 @@ TILE_EDGE_VOXELS = 64
 MAX_ROOTS = (1 << 30) - 1
 _STAMP_MASK = np.int64(-1) << 32
 _ROOT_MASK = np.int64(MAX_ROOTS)
+_EMPTY = 1e300  # bound of an empty interval (finite: the kernels use fastmath, which assumes no infinities)
 
 
 @njit(cache=True)
@@ -67,53 +68,50 @@ def _segment_boxes(p0, p1, radius, voxel, origin_index):
 
 
 @njit(cache=True, inline="always", error_model="numpy", fastmath=True)
-def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius, start_ball):
+def _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius, start_ball, axis_sq, inv_dx):
     """Interval of u (x relative to the segment start) where the point (u, cy, cz) lies within ``radius`` of
     the segment from 0 to (dx, dy, dz): the union of the two end balls and the finite cylinder (the capsule is
     convex, so along a line the union is one interval). ``inv_dd`` = 1 / |d|² (0 for a point),
     ``along_x`` = 1 - dx² / |d|², ``inv_two_along_x`` = 1 / (2 along_x). Returns (low, high), low > high when
     empty. Without ``start_ball`` the ball at the start is left out (it is the end ball of the root's previous
-    segment, which marks it for the same root)."""
+    segment, which marks it for the same root). ``axis_sq`` = cy² + cz² (computed once per row by the caller)."""
     r2 = radius * radius
-    low, high = 1.0, -1.0
-    rest = r2 - cy * cy - cz * cz                       # ball at the start
-    if start_ball and rest >= 0.0:
-        root = np.sqrt(rest)
-        low, high = -root, root
+    # each piece is an interval or the empty (_EMPTY, -_EMPTY); the union is (min of lows, max of highs); the
+    # data-dependent tests are selects, not branches (square roots of negatives clamped to 0, then dropped)
+    rest = r2 - axis_sq                                 # ball at the start
+    root = np.sqrt(max(rest, 0.0))
+    keep = start_ball and rest >= 0.0
+    low = -root if keep else _EMPTY
+    high = root if keep else -_EMPTY
     ey, ez = cy - dy, cz - dz                           # ball at the end
     rest = r2 - ey * ey - ez * ez
-    if rest >= 0.0:
-        root = np.sqrt(rest)
-        if low > high:
-            low, high = dx - root, dx + root
-        else:
-            low, high = min(low, dx - root), max(high, dx + root)
+    root = np.sqrt(max(rest, 0.0))
+    low = min(low, dx - root) if rest >= 0.0 else low
+    high = max(high, dx + root) if rest >= 0.0 else high
     if dd > 0.0:                                        # cylinder: perpendicular distance and 0 <= t <= 1
         e = cy * dy + cz * dz
         b = -2.0 * dx * e * inv_dd
-        c = cy * cy + cz * cz - e * e * inv_dd - r2
+        c = axis_sq - e * e * inv_dd - r2
         if along_x > 1e-12:
             disc = b * b - 4.0 * along_x * c
-            if disc < 0.0:
-                return low, high
-            root = np.sqrt(disc)
-            c0, c1 = (-b - root) * inv_two_along_x, (-b + root) * inv_two_along_x
+            root = np.sqrt(max(disc, 0.0))
+            hit = disc >= 0.0
+            c0 = (-b - root) * inv_two_along_x if hit else _EMPTY
+            c1 = (-b + root) * inv_two_along_x if hit else -_EMPTY
         else:                                           # along x: the distance does not change with u
-            if c > 0.0:
-                return low, high
-            c0, c1 = -1e300, 1e300
+            hit = c <= 0.0
+            c0 = -_EMPTY if hit else _EMPTY
+            c1 = _EMPTY if hit else -_EMPTY
         if dx != 0.0:
-            t0, t1 = -e / dx, (dd - e) / dx
-            if t0 > t1:
-                t0, t1 = t1, t0
-            c0, c1 = max(c0, t0), min(c1, t1)
-        elif not (0.0 <= e * inv_dd <= 1.0):
-            return low, high
-        if c0 <= c1:
-            if low > high:
-                low, high = c0, c1
-            else:
-                low, high = min(low, c0), max(high, c1)
+            t0, t1 = -e * inv_dx, (dd - e) * inv_dx
+            c0, c1 = max(c0, min(t0, t1)), min(c1, max(t0, t1))
+        else:
+            inside = 0.0 <= e * inv_dd <= 1.0
+            c0 = c0 if inside else _EMPTY
+            c1 = c1 if inside else -_EMPTY
+        hit = c0 <= c1
+        low = min(low, c0) if hit else low
+        high = max(high, c1) if hit else high
     return low, high
 
 
@@ -203,6 +201,10 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
     nx, ny = n_tiles_axis[0], n_tiles_axis[1]
     o0, o1, o2 = origin_index[0], origin_index[1], origin_index[2]
     size = edge * edge * edge
+    r2 = radius * radius
+    inv_voxel = 1.0 / voxel
+    low_buffer = np.empty(edge, dtype=np.float64)   # one depth slice's row intervals
+    high_buffer = np.empty(edge, dtype=np.float64)
     state = np.zeros(size, dtype=np.int64)
     counts = np.zeros((4, n_layers), dtype=np.int64)  # explored, same plant, between plants, any two roots
     for t in range(start.size - 1):
@@ -222,8 +224,10 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
             inv_dd = 1.0 / dd if dd > 0.0 else 0.0
             along_x = 1.0 - dx * dx * inv_dd
             inv_two_along_x = 0.5 / along_x if along_x > 1e-12 else 0.0
+            inv_dx = 1.0 / dx if dx != 0.0 else 0.0
             before = previous[s]
             continuing = before >= 0
+            start_ball = not continuing
             k0 = max(box[s, 4], tz * edge)
             if k0 > min(box[s, 5], tz * edge + edge - 1):
                 continue
@@ -236,6 +240,7 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
             for k in range(k0, k1 + 1):
                 centre_z = (k + o2 + 0.5) * voxel
                 cz = centre_z - az
+                cz_sq = cz * cz
                 layer = min(int(centre_z / layer_cm), n_layers - 1)
                 # rows of this depth that can meet the capsule: points of the segment within the radius in
                 # depth, widened by the radius in y
@@ -253,21 +258,28 @@ def _count_tiles(p0, p1, seg_root, root_plant, previous, box, start, items, n_ti
                 row_first = max(j0, int(np.ceil(y_lo / voxel - 0.5)) - o1)
                 row_last = min(j1, int(np.floor(y_hi / voxel - 0.5)) - o1)
                 explored = same = between = either = 0
+                # first every row's interval (a loop without data-dependent branches, which the compiler can
+                # run several rows at a time), then the voxel visits
+                for q in range(row_last - row_first + 1):
+                    cy = (row_first + q + o1 + 0.5) * voxel - ay
+                    low_buffer[q], high_buffer[q] = _row_interval(
+                        cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius, start_ball,
+                        cy * cy + cz_sq, inv_dx)
                 for j in range(row_first, row_last + 1):
                     centre_y = (j + o1 + 0.5) * voxel
                     cy = centre_y - ay
-                    u0, u1 = _row_interval(cy, cz, dx, dy, dz, dd, inv_dd, along_x, inv_two_along_x, radius,
-                                           not continuing)
+                    axis_sq = cy * cy + cz_sq
+                    u0, u1 = low_buffer[j - row_first], high_buffer[j - row_first]
                     if u0 > u1:
                         continue
-                    first = max(i0, int(np.ceil((u0 + ax) / voxel - 0.5)) - o0)
-                    last = min(i1, int(np.floor((u1 + ax) / voxel - 0.5)) - o0)
+                    first = max(i0, int(np.ceil((u0 + ax) * inv_voxel - 0.5)) - o0)
+                    last = min(i1, int(np.floor((u1 + ax) * inv_voxel - 0.5)) - o0)
                     if first > last:
                         continue
                     row = ((k - tz * edge) * edge + (j - ty * edge)) * edge - tx * edge
                     skip_first, skip_last = last + 1, last   # empty: nothing of the row skipped
                     if continuing:  # the ball at the start (one square root, not the whole previous capsule)
-                        rest = radius * radius - cy * cy - cz * cz
+                        rest = r2 - axis_sq
                         if rest >= 0.0:
                             w = np.sqrt(rest)
                             skip_first = int(np.ceil((ax - w) / voxel - 0.5)) - o0
