@@ -264,3 +264,81 @@ def test_unknown_field_in_a_response_is_a_one_line_error_naming_file_and_key(tmp
     assert main(["check", str(spec)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "root_classes.axis.proliferation.field" in err[0] and str(spec) in err[0], err
+
+
+def test_turn_toward_a_direction_follows_the_half_angle_law_at_every_angle():
+    # The exact sine-law step toward a fixed direction t: tan(beta'/2) = f tan(beta/2) in the plane of h and t
+    # (analytic; the integral of d(beta)/ds = -k sin(beta)), for random headings and for headings within 1e-6 rad
+    # of pointing away from t (where 1 + cos(beta) loses its digits when formed naively); the new heading is a
+    # unit vector in that plane.
+    from rootsim.growth.tropisms import toward_by_factor
+
+    rng = np.random.default_rng(11)
+    for case in range(400):
+        t = rng.normal(size=3)
+        t /= np.linalg.norm(t)
+        if case % 2:
+            h = rng.normal(size=3)
+        else:  # nearly opposite: beta = pi - delta
+            side = np.cross(t, rng.normal(size=3))
+            side /= np.linalg.norm(side)
+            delta = 10.0 ** rng.uniform(-6, -1)
+            h = -np.cos(delta) * t + np.sin(delta) * side
+        h /= np.linalg.norm(h)
+        f = rng.uniform(0.05, 1.0)
+        new = np.array(toward_by_factor(*h, *t, f))
+        assert abs(np.linalg.norm(new) - 1.0) < 1e-12
+        normal = np.cross(h, t)
+        assert abs(new @ normal) < 1e-12 * max(1.0, np.linalg.norm(normal))
+        beta = np.arctan2(np.linalg.norm(np.cross(h, t)), h @ t)
+        beta_new = np.arctan2(np.linalg.norm(np.cross(new, t)), new @ t)
+        np.testing.assert_allclose(np.tan(beta_new / 2), f * np.tan(beta / 2), rtol=1e-9)
+
+
+def _two_grid_soil(tmp_path, *, water_patch: bool):
+    rng = np.random.default_rng(3)
+    resistance = rng.uniform(0.2, 1.5, size=(9, 7, 11))
+    water = rng.uniform(0.1, 0.4, size=(9, 7, 11))
+    np.save(tmp_path / "resistance.npy", resistance)
+    np.save(tmp_path / "water.npy", water)
+    grid = {"origin_cm": [-20.0, -15.0, 1.0], "spacing_cm": [5.0, 5.0, 4.0]}  # [x, y, depth]: depth 1-41 cm
+    water_field = {"grid": {"file": str(tmp_path / "water.npy"), **grid}}
+    if water_patch:  # adding zero changes no value, but the field is no longer a plain grid
+        water_field["patches"] = [{"shape": "sphere", "center_cm": [0.0, 0.0, 20.0], "radius_cm": 5.0,
+                                   "value": 0.0}]
+    return {"elongation_halving_resistance_mpa": 1.0,
+            "fields": {"penetration_resistance_mpa": {"grid": {"file": str(tmp_path / "resistance.npy"), **grid}},
+                       "volumetric_water_content": water_field},
+            "biopores": {"density_per_m2": 400.0, "radius_cm": 0.3, "depth_top_cm": 5.0, "depth_bottom_cm": 30.0}}
+
+
+def test_fields_of_one_grid_layout_are_read_with_the_same_numbers_as_their_plans(tmp_path):
+    # Fields that are plain grids of one layout are read interleaved, their cell located once
+    # (rootsim.soil.fields.shared_grid_at): values and gradients equal the per-field plans bit for bit at random
+    # points inside and outside the grid (clamped), and a grown system equals, byte for byte, the one grown in the
+    # same soil with a zero patch on the water field (which sends every look-up through the plans).
+    from rootsim.soil.build import soil_fields_from_spec
+    from rootsim.soil.fields import shared_grid, shared_grid_at, value_and_gradient_at
+
+    classes = {name: {**c, "field_tropism": {"field": "volumetric_water_content", "strength_per_cm": 0.05}}
+               for name, c in _POT_CLASSES.items()}
+    shared_spec = make_spec(classes, emergence=[{"root_class": "axis", "roots_per_event": 4}], days=12.0,
+                            soil=_two_grid_soil(tmp_path, water_patch=False), container=_POT, seed=2)
+    planned_spec = make_spec(classes, emergence=[{"root_class": "axis", "roots_per_event": 4}], days=12.0,
+                             soil=_two_grid_soil(tmp_path, water_patch=True), container=_POT, seed=2)
+    fields = soil_fields_from_spec(shared_spec)
+    both = [fields.index("penetration_resistance_mpa"), fields.index("volumetric_water_content")]
+    grid = shared_grid(fields.compiled, both)
+    assert grid.values.size == 2 * 9 * 7 * 11
+    patched = soil_fields_from_spec(planned_spec)
+    assert shared_grid(patched.compiled, both).values.size == 0
+    rng = np.random.default_rng(4)
+    # random points, some outside the grid (z = -depth)
+    points = np.column_stack([rng.uniform(-30, 30, 500), rng.uniform(-25, 25, 500), rng.uniform(-50, 5, 500)])
+    for x, y, z in points:
+        a, b, value, gx, gy, gz = shared_grid_at(grid, both[0], -1, both[1], x, y, z)
+        assert a == value_and_gradient_at(fields.compiled, both[0], x, y, z)[0]
+        assert (value, gx, gy, gz) == value_and_gradient_at(fields.compiled, both[1], x, y, z)
+    shared_df, planned_df = grow_frame(shared_spec), grow_frame(planned_spec)
+    assert len(shared_df) > 200 and shared_df["in_biopore"].any()
+    pd.testing.assert_frame_equal(shared_df, planned_df)

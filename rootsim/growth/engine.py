@@ -100,7 +100,7 @@ def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
     """
     from ..soil.biopores import biopores_from_list
     from ..soil.build import biopores_from_spec, soil_fields_from_spec
-    from ..soil.fields import compile_fields, field_value_range
+    from ..soil.fields import compile_fields, field_value_range, shared_grid
     from ..soil.strength import EXPONENTIAL, LINEAR_TO_LIMIT
 
     soil = spec.soil
@@ -140,6 +140,12 @@ def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
         and (replace_fields is not None
              or field_value_range(fields.compiled, resistance_field)[1] >= soil.deflection_threshold_mpa)
     arguments += (field_deflection, float(soil.deflection_threshold_mpa))
+    # fields that are grids of one layout are read interleaved (same numbers); not when a coupled season
+    # rewrites the fields' values during the run
+    needed = [resistance_field, *tropism_field.tolist(), *proliferation_field.tolist()] \
+        if use and replace_fields is None else []
+    shared = shared_grid(fields.compiled, needed)
+    arguments = arguments[:2] + (shared,) + arguments[2:]
     return arguments, pores is not None, fields
 
 

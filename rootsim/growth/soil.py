@@ -8,8 +8,10 @@ arrays built once per run by :func:`soil_arrays` and :func:`container_box`:
 * :func:`constrain` – keep a step inside the soil and the container (slide along the boundary),
 * :func:`clamp` – move a point into the soil volume.
 
-These serve soils given as depth layers alone. 3D fields are read by the step through :func:`soil_at_tip`
-(every field look-up of a tip and step in one call) and strong regions of a 3D resistance field deflect tips
+These serve soils given as depth layers alone. 3D fields are read through :func:`soil_at_tip`
+(every field look-up of a tip and step in one call; fields that are plain grids of one layout through
+:func:`rootsim.soil.fields.shared_grid_at`), for all of a step's tips before its loop over them
+(:func:`rootsim.growth.step.soil_for_tips`), and strong regions of a 3D resistance field deflect tips
 through :func:`deflect_by_field`; biopores are read through :mod:`rootsim.soil.biopores` (see
 :func:`rootsim.growth.step.grow_plant`). Positions are (x, y, z) in cm, z up, soil surface at z = 0; depth is -z.
 """

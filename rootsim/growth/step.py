@@ -31,6 +31,7 @@ from .classes import PARAM_NAMES
 from .draws import FIXED, draw_parameter, normal_draw, uniform_draw
 from .plant_age import growth_time, time_at_growth_time
 from ..soil.biopores import biopore_at
+from ..soil.fields import shared_grid_at
 from ..soil.strength import elongation_factor_kernel
 from .soil import clamp, constrain, contains, deflect, deflect_by_field, elongation_factor, soil_at_tip
 from .tropisms import (
@@ -85,6 +86,11 @@ TIP_NF = 22
 # did not enter, or was born in).
 T_ROOT, T_CLASS, T_LAST, T_COUNT, T_ORDER, T_DONE, T_PORE, T_DECLINED = range(8)
 TIP_NI = 8
+# Field look-ups of the step's tips (soil_for_tips): resistance (0 without a resistance field) and its elongation
+# factor, proliferation factor, strength and unit direction of the turn toward the tropism field (strength 0:
+# none), biopore met (-1: none or not looked up).
+S_RESISTANCE, S_FACTOR, S_PROLIFERATION, S_PULL, S_GX, S_GY, S_GZ, S_PORE = range(8)
+TIP_SOIL_NF = 8
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
 # (R_PENDING: the root's pending branch points, kept in this row that the tip loop touches anyway, so that lateral
 # activation skips a root with none without reading its queue)
@@ -250,6 +256,56 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
     tipi[j, T_DECLINED] = -1
 
 
+@njit(**JIT_BORROW)
+def soil_for_tips(fields, shared, resistance_field, response_code, response_parameter_mpa, proliferation_field,
+                  proliferation_half, proliferation_max, tropism_field, tropism_strength, pores, n_pores,
+                  pores_z_bottom, pores_z_top, tipf, tipi, n_tips, out):
+    """Every field and biopore look-up of a step's growing tips, written to ``out[j]`` (``S_*`` columns).
+
+    A tight loop of its own before the step's loop over tips: the look-ups of different tips are independent,
+    so the processor overlaps them (inside the long loop each waits for the previous tip's work). The look-ups
+    are made at the tips' positions at the step's start, as the loop would make them; a biopore is looked up only
+    for a tip outside every pore within the pores' depth range (elsewhere ``S_PORE`` is -1). Fields of one shared
+    grid (``shared``, :func:`rootsim.soil.fields.shared_grid`) are read there, with the same numbers.
+    """
+    use_shared = shared.values.size > 0
+    for j in range(n_tips):
+        if tipi[j, T_DONE] != 0:
+            continue
+        cls = tipi[j, T_CLASS]
+        x, y, z = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
+        if use_shared:
+            resistance, level, unused, gx, gy, gz = shared_grid_at(
+                shared, resistance_field, proliferation_field[cls], tropism_field[cls], x, y, z)
+        else:
+            resistance, level, gx, gy, gz = soil_at_tip(fields, resistance_field, proliferation_field[cls],
+                                                        tropism_field[cls], x, y, z)
+        if resistance_field < 0:
+            resistance = 0.0
+        out[j, S_RESISTANCE] = resistance
+        out[j, S_FACTOR] = elongation_factor_kernel(resistance, response_code, response_parameter_mpa,
+                                                    tipf[j, T_FELT])
+        proliferation = 1.0
+        if proliferation_field[cls] >= 0:
+            level = max(level, 0.0)
+            proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level / (level + proliferation_half[cls])
+        out[j, S_PROLIFERATION] = proliferation
+        pull = 0.0
+        if tropism_field[cls] >= 0:
+            gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
+            if gnorm > 0 and math.isfinite(gnorm):
+                gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
+                pull = tropism_strength[cls]
+        out[j, S_PULL] = pull
+        out[j, S_GX] = gx
+        out[j, S_GY] = gy
+        out[j, S_GZ] = gz
+        met = -1
+        if n_pores > 0 and tipi[j, T_PORE] < 0 and pores_z_bottom <= z <= pores_z_top:
+            met = biopore_at(pores, x, y, z)
+        out[j, S_PORE] = met
+
+
 @njit(**JIT_INLINE)
 def _tropic_half_turn(hx, hy, hz, half_arc, strength, cos_phi, sin_phi, exotropism, h0x, h0y, h0z):
     """Half of a step's tropic turn: the combined vertical sine law, then exotropism toward h0."""
@@ -328,7 +384,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                kind, values, law_negexp, spiral, spiral_divergence_rad, branch_cumulative, branch_class,
                soil_bottoms, soil_factor, soil_tops, soil_sin_max, box, log_x_table, ratio_table,
                duration, step_days, n_steps, has_lifespan, segment_limit, root_limit, pending_limit,
-               use_fields, fields, resistance_field, response_code, response_parameter_mpa,
+               use_fields, fields, shared, resistance_field, response_code, response_parameter_mpa,
                felt_reference_radius_cm, felt_radius_exponent, pores, pore_resistance_mpa, pore_entry_probability,
                tropism_field, tropism_strength, proliferation_field, proliferation_half, proliferation_max,
                field_deflection, deflection_threshold_mpa, dev, checkpoint_days, length_cell_cm, length_per_cell,
@@ -366,6 +422,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         Impedance from the 3D field ``resistance_field`` of ``fields`` (and biopores) instead of the layer
         arrays ``soil_bottoms``/``soil_factor``.
     fields : rootsim.soil.fields.CompiledFields
+    shared : rootsim.soil.fields.SharedGrid
+        The fields the step reads, interleaved when they are plain grids of one layout (empty otherwise; see
+        :func:`rootsim.soil.fields.shared_grid`): the same numbers, one cell location per tip.
     resistance_field : int
         Index of ``penetration_resistance_mpa`` in ``fields`` (-1: no resistance).
     response_code, response_parameter_mpa : int, float
@@ -455,6 +514,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     n_pend_rows = 0  # rows of the pool ever used
     free_row = -1  # first row of the free list
     stepped = np.empty(16, dtype=np.int64)  # roots whose tips stepped this step, in tip order
+    tip_soil = np.empty((16 if use_fields else 0, TIP_SOIL_NF))  # field look-ups of every tip, one step
     params = np.empty(N_PARAMS)
     fallback = np.empty(3)
     n_events = event_day.size
@@ -545,6 +605,12 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         # variable reassigned inside a compiled loop costs reference counting on every pass).
         if stepped.size < n_tips:
             stepped = np.empty(max(2 * stepped.size, n_tips), dtype=np.int64)
+        if use_fields:  # every field and biopore look-up of the step's tips, in one tight loop before the step
+            if tip_soil.shape[0] < n_tips:
+                tip_soil = np.empty((max(2 * tip_soil.shape[0], n_tips), TIP_SOIL_NF))
+            soil_for_tips(fields, shared, resistance_field, response_code, response_parameter_mpa, proliferation_field,
+                          proliferation_half, proliferation_max, tropism_field, tropism_strength, pores, n_pores,
+                          pores_z_bottom, pores_z_top, tipf, tipi, n_tips, tip_soil)
         if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
             chunk_counts.append(chunk_used)
             size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
@@ -575,14 +641,13 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 max_len = tipf[j, T_MAXLEN]
                 pore = -1
                 proliferation = 1.0
-                field_gx, field_gy, field_gz = 0.0, 0.0, 0.0  # gradient of the class's tropism field at the tip
-                if use_fields:
-                    field_resistance, level, field_gx, field_gy, field_gz = soil_at_tip(  # every field look-up
-                        fields, resistance_field, proliferation_field[cls], tropism_field[cls], sx, sy, sz)
+                field_pull = 0.0  # strength of the turn toward the class's tropism field (0: none)
+                gx, gy, gz = 0.0, 0.0, 0.0  # the field's gradient direction at the tip
+                if use_fields:  # looked up before the loop (soil_for_tips)
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
-                        if pore < 0 and pores_z_bottom <= sz <= pores_z_top:
-                            met = biopore_at(pores, sx, sy, sz)
+                        if pore < 0:
+                            met = int(tip_soil[j, S_PORE])
                             if met >= 0 and met != tipi[j, T_DECLINED]:
                                 if pore_entry_probability >= 1.0 or uniform_draw(bits) < pore_entry_probability:
                                     pore = met
@@ -591,17 +656,15 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                                     tipi[j, T_DECLINED] = met
                     if pore >= 0:
                         resistance = pore_resistance_mpa
-                    elif resistance_field >= 0:
-                        resistance = field_resistance
+                        rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
+                                                                          response_parameter_mpa, tipf[j, T_FELT])
                     else:
-                        resistance = 0.0
-                    rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
-                                                                      response_parameter_mpa, tipf[j, T_FELT])
-                    if proliferation_field[cls] >= 0:
-                        level = max(level, 0.0)
-                        proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level \
-                            / (level + proliferation_half[cls])
-                        rate *= proliferation
+                        resistance = tip_soil[j, S_RESISTANCE]
+                        rate = tipf[j, T_RATE] * tip_soil[j, S_FACTOR]
+                        field_pull = tip_soil[j, S_PULL]
+                        gx, gy, gz = tip_soil[j, S_GX], tip_soil[j, S_GY], tip_soil[j, S_GZ]
+                    proliferation = tip_soil[j, S_PROLIFERATION]
+                    rate *= proliferation
                 else:
                     rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
                 if law_negexp[cls]:
@@ -626,16 +689,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 hx, hy, hz = _tropic_half_turn(tipf[j, T_HX], tipf[j, T_HY], tipf[j, T_HZ], 0.5 * arc, strength,
                                                cos_phi, sin_phi, exotropism, h0x, h0y, h0z)
                 # tropism toward the gradient of a field: the sine law toward its direction at the step's start
-                field_pull = 0.0
                 field_shrink = 1.0
-                gx, gy, gz = 0.0, 0.0, 0.0
-                if use_fields and tropism_field[cls] >= 0 and pore < 0:
-                    gx, gy, gz = field_gx, field_gy, field_gz
-                    gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
-                    if gnorm > 0 and math.isfinite(gnorm):
-                        gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
-                        field_pull = tropism_strength[cls]
-                        field_shrink = math.exp(-field_pull * (0.5 * arc))
+                if field_pull > 0:
+                    field_shrink = math.exp(-field_pull * (0.5 * arc))
                 if field_pull > 0:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]

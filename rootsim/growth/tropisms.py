@@ -104,19 +104,32 @@ def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
 @njit(**JIT_INLINE)
 def toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
     """:func:`toward_direction_turn` with ``shrink = exp(-k s)`` given (so one ``exp`` can serve both halves of a
-    step's turn): tan(β/2) -> tan(β/2) * shrink."""
-    cos_b = min(max(hx * tx + hy * ty + hz * tz, -1.0), 1.0)
+    step's turn): tan(β/2) -> tan(β/2) * shrink.
+
+    Computed in the stereographic projection from -t onto the plane through the origin normal to t, where the
+    heading is ``w = p / q`` with ``p = h - (h·t) t``, ``q = 1 + h·t`` and ``|w| = tan(β/2)``: the turn is
+    ``w -> shrink * w`` and the new heading ``((1 - |w|²) t + 2 w) / (1 + |w|²)``, that is
+    ``((q² - shrink² |p|²) t + 2 shrink q p) / (q² + shrink² |p|²)`` (one division, no square root). q is
+    taken as ``|h + t|² / 2``, exact to rounding also for headings nearly opposite to t; a heading exactly
+    opposite (the unstable equilibrium) stays put.
+    """
+    cos_b = hx * tx + hy * ty + hz * tz
     px = hx - cos_b * tx
     py = hy - cos_b * ty
     pz = hz - cos_b * tz
-    sin_b = math.sqrt(px * px + py * py + pz * pz)
-    if not sin_b > 1e-12:
+    sx = hx + tx
+    sy = hy + ty
+    sz = hz + tz
+    q = 0.5 * (sx * sx + sy * sy + sz * sz)
+    q2 = q * q
+    turned2 = shrink * shrink * (px * px + py * py + pz * pz)
+    denominator = q2 + turned2
+    if not denominator > 0.0:
         return hx, hy, hz
-    half = tan_half_angle(sin_b, cos_b) * shrink
-    h2 = half * half
-    cos_n = (1.0 - h2) / (1.0 + h2)
-    sin_n = 2.0 * half / (1.0 + h2)
-    return (cos_n * tx + sin_n * px / sin_b, cos_n * ty + sin_n * py / sin_b, cos_n * tz + sin_n * pz / sin_b)
+    inverse = 1.0 / denominator
+    along = (q2 - turned2) * inverse
+    across = 2.0 * shrink * q * inverse
+    return along * tx + across * px, along * ty + across * py, along * tz + across * pz
 
 
 #: Below this σ² Δs the tangent variance comes from its series (:func:`tangent_variance_series`).

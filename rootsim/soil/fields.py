@@ -50,7 +50,7 @@ __all__ = [
     "constant_source", "layered_source", "depth_table_source", "grid_source", "box_patch", "sphere_patch",
     "cylinder_patch", "power_law_source", "compile_fields", "value_at", "gradient_at", "values_at",
     "gradients_at", "value_and_gradient_at", "planned_value_and_gradient", "field_plan", "PLAN_GENERIC",
-    "field_value_range",
+    "field_value_range", "SharedGrid", "shared_grid", "shared_grid_at",
 ]
 
 #: Fields with a meaning rootsim knows: name -> (lowest, highest) plausible value of an input.
@@ -253,7 +253,7 @@ def grid_source(values, origin_cm, spacing_cm, *, at: str = "nodes", outside: st
     if outside not in _OUTSIDE:
         raise RootsimError(f"soil grid: outside={outside!r} (allowed: {', '.join(_OUTSIDE)})")
     kind = GRID_NODES if at == "nodes" else GRID_CELLS
-    params = origin + spacing + (float(outside_value),)
+    params = origin + spacing + (float(outside_value),) + tuple(1.0 / h for h in spacing)  # inverses: see _grid_cell
     ints = (0,) + arr.shape + (-1, -1, _OUTSIDE[outside])
     return FieldSource(kind, _mode(mode), params, ints, arr.ravel())
 
@@ -456,6 +456,71 @@ def field_value_range(compiled: CompiledFields, field_index: int) -> tuple:
     return float(low), float(high)
 
 
+class SharedGrid(NamedTuple):
+    """Fields that are each one grid of nodes on the same layout, interleaved node by node (numba-friendly).
+
+    Built by :func:`shared_grid`; the growth step reads them through :func:`shared_grid_at`, which locates a
+    point's cell once for all of them and finds their corners in the same cache lines.
+
+    Attributes
+    ----------
+    values : ndarray of float64, shape (n_nodes * n_columns,)
+        Node ``(i * ny + j) * nz + k`` holds its value of column c at ``node * n_columns + c`` (empty: no shared
+        grid).
+    column : ndarray of int64, shape (n_fields,)
+        Column of each field of the soil (-1: not in the shared grid).
+    geometry : ndarray of float64, shape (9,)
+        Origin (x, y, z) and spacing (x, y, z), cm, and the inverse spacings, 1/cm.
+    shape : ndarray of int64, shape (4,)
+        nx, ny, nz and the outside rule (:data:`CLAMP`, :data:`OUTSIDE_VALUE`, :data:`OUTSIDE_NONE`).
+    outside : ndarray of float64, shape (n_columns,)
+        Value of each column outside the grid (rule :data:`OUTSIDE_VALUE`).
+    """
+
+    values: np.ndarray
+    column: np.ndarray
+    geometry: np.ndarray
+    shape: np.ndarray
+    outside: np.ndarray
+
+
+def shared_grid(compiled: CompiledFields, field_indices) -> SharedGrid:
+    """The fields ``field_indices`` as one :class:`SharedGrid`, when every one is a single grid of nodes (mode
+    ``replace`` or ``add``, no patches) on one layout (shape, origin, spacing, outside rule); otherwise an empty
+    one (``values.size == 0``). Values read through it equal :func:`planned_value_and_gradient`'s exactly
+    (the same operations in the same order)."""
+    n_fields = compiled.field_first.size - 1
+    column = np.full(max(n_fields, 1), -1, np.int64)
+    empty = SharedGrid(np.zeros(0), column, np.zeros(9), np.zeros(4, np.int64), np.zeros(0))
+    wanted = sorted({int(f) for f in field_indices if int(f) >= 0})
+    if not wanted:
+        return empty
+    key = None
+    for f in wanted:
+        s = int(compiled.field_first[f])
+        if int(compiled.field_first[f + 1]) - s != 1 or int(compiled.kind[s]) != GRID_NODES \
+                or int(compiled.mode[s]) not in (REPLACE, ADD):
+            return empty
+        layout = (tuple(int(v) for v in compiled.ints[s, 1:4]), int(compiled.ints[s, 6]),
+                  tuple(float(v) for v in compiled.params[s, :6])
+                  + tuple(float(v) for v in compiled.params[s, 7:10]))
+        if key is not None and layout != key:
+            return empty
+        key = layout
+    (nx, ny, nz), rule, geometry = key
+    n_nodes = nx * ny * nz
+    values = np.empty((n_nodes, len(wanted)))  # interleaved: a node's columns side by side
+    outside = np.empty(len(wanted))
+    for c, f in enumerate(wanted):
+        s = int(compiled.field_first[f])
+        off = int(compiled.ints[s, 0])
+        values[:, c] = compiled.data[off:off + n_nodes]
+        outside[c] = compiled.params[s, 6]
+        column[f] = c
+    return SharedGrid(values.reshape(-1), column, np.asarray(geometry, np.float64),
+                      np.array([nx, ny, nz, rule], np.int64), outside)
+
+
 # -- kernels ---------------------------------------------------------------------------------------
 
 #: Options of the per-point kernels the growth step calls: not inlined (inlined, their array arguments would be
@@ -502,31 +567,37 @@ def _axis_cell(u, n, at_cells, clamp):
 
 
 @njit(cache=True, inline="always")
-def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, outside_value, x, y, z):
-    """(weight, value, gx, gy, gz) of a grid source (scalar arguments: cheap to call per point)."""
+def _grid_cell(nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, ix, iy, iz, x, y, z):
+    """Cell of a grid at one point: (i, j, k, fx, fy, fz, in_x, in_y, in_z) (see :func:`_axis_cell`).
+
+    Node grids scale by the inverse spacings ``ix, iy, iz`` (a product, not a division: the interpolant is
+    continuous across cell faces, so the rounding of the product cannot matter); cell grids divide, so that a
+    point on a cell face falls in the cell the module text states.
+    """
     clamp = rule == CLAMP
-    i, fx, in_x = _axis_cell((x - ox) / hx, nx, cells, clamp)
-    j, fy, in_y = _axis_cell((y - oy) / hy, ny, cells, clamp)
-    k, fz, in_z = _axis_cell((z - oz) / hz, nz, cells, clamp)
-    inside = in_x and in_y and in_z
-    if not inside and rule == OUTSIDE_NONE:
-        return 0.0, 0.0, 0.0, 0.0, 0.0
-    if not inside and rule == OUTSIDE_VALUE:
-        return 1.0, outside_value, 0.0, 0.0, 0.0
-    syz = ny * nz
     if cells:
-        return 1.0, data[off + i * syz + j * nz + k], 0.0, 0.0, 0.0
-    i1 = i + 1 if nx > 1 else i
-    j1 = j + 1 if ny > 1 else j
-    k1 = k + 1 if nz > 1 else k
-    v000 = data[off + i * syz + j * nz + k]
-    v100 = data[off + i1 * syz + j * nz + k]
-    v010 = data[off + i * syz + j1 * nz + k]
-    v110 = data[off + i1 * syz + j1 * nz + k]
-    v001 = data[off + i * syz + j * nz + k1]
-    v101 = data[off + i1 * syz + j * nz + k1]
-    v011 = data[off + i * syz + j1 * nz + k1]
-    v111 = data[off + i1 * syz + j1 * nz + k1]
+        u, v, w = (x - ox) / hx, (y - oy) / hy, (z - oz) / hz
+    else:
+        u, v, w = (x - ox) * ix, (y - oy) * iy, (z - oz) * iz
+    i, fx, in_x = _axis_cell(u, nx, cells, clamp)
+    j, fy, in_y = _axis_cell(v, ny, cells, clamp)
+    k, fz, in_z = _axis_cell(w, nz, cells, clamp)
+    return i, j, k, fx, fy, fz, in_x, in_y, in_z
+
+
+@njit(cache=True, inline="always")
+def _trilinear(data, base, step_x, step_y, step_z, fx, fy, fz):
+    """Trilinear value and its unscaled derivatives (per grid spacing) from the corners ``data[base]``,
+    ``data[base + step_x]``, ... (``step_*`` is the index step to the next node along an axis, 0 for an axis with
+    one node)."""
+    v000 = data[base]
+    v100 = data[base + step_x]
+    v010 = data[base + step_y]
+    v110 = data[base + step_x + step_y]
+    v001 = data[base + step_z]
+    v101 = data[base + step_x + step_z]
+    v011 = data[base + step_y + step_z]
+    v111 = data[base + step_x + step_y + step_z]
     # interpolate along x, then y, then z
     a00 = v000 + fx * (v100 - v000)
     a10 = v010 + fx * (v110 - v010)
@@ -535,12 +606,31 @@ def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, outside_va
     b0 = a00 + fy * (a10 - a00)
     b1 = a01 + fy * (a11 - a01)
     value = b0 + fz * (b1 - b0)
-    # derivatives of the trilinear interpolant (zero along an axis that is clamped or has one node)
+    # derivatives of the trilinear interpolant
     dx0 = (v100 - v000) + fy * ((v110 - v010) - (v100 - v000))
     dx1 = (v101 - v001) + fy * ((v111 - v011) - (v101 - v001))
-    gx = (dx0 + fz * (dx1 - dx0)) / hx if (in_x and nx > 1) else 0.0
-    gy = ((a10 - a00) + fz * ((a11 - a01) - (a10 - a00))) / hy if (in_y and ny > 1) else 0.0
-    gz = (b1 - b0) / hz if (in_z and nz > 1) else 0.0
+    return value, dx0 + fz * (dx1 - dx0), (a10 - a00) + fz * ((a11 - a01) - (a10 - a00)), b1 - b0
+
+
+@njit(cache=True, inline="always")
+def _grid(data, off, nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, ix, iy, iz, outside_value, x, y, z):
+    """(weight, value, gx, gy, gz) of a grid source (scalar arguments: cheap to call per point)."""
+    i, j, k, fx, fy, fz, in_x, in_y, in_z = _grid_cell(nx, ny, nz, rule, cells, ox, oy, oz, hx, hy, hz, ix, iy, iz,
+                                                       x, y, z)
+    inside = in_x and in_y and in_z
+    if not inside and rule == OUTSIDE_NONE:
+        return 0.0, 0.0, 0.0, 0.0, 0.0
+    if not inside and rule == OUTSIDE_VALUE:
+        return 1.0, outside_value, 0.0, 0.0, 0.0
+    syz = ny * nz
+    if cells:
+        return 1.0, data[off + i * syz + j * nz + k], 0.0, 0.0, 0.0
+    value, dx, dy, dz = _trilinear(data, off + i * syz + j * nz + k, syz if nx > 1 else 0, nz if ny > 1 else 0,
+                                   1 if nz > 1 else 0, fx, fy, fz)
+    # zero along an axis that is clamped or has one node
+    gx = dx * ix if (in_x and nx > 1) else 0.0
+    gy = dy * iy if (in_y and ny > 1) else 0.0
+    gz = dz * iz if (in_z and nz > 1) else 0.0
     return 1.0, value, gx, gy, gz
 
 
@@ -663,7 +753,7 @@ def _base(kinds, params, ints, data, s, x, y, z):
     if kind == GRID_NODES or kind == GRID_CELLS:
         return _grid(data, ints[s, 0], ints[s, 1], ints[s, 2], ints[s, 3], ints[s, 6], kind == GRID_CELLS,
                      params[s, 0], params[s, 1], params[s, 2], params[s, 3], params[s, 4], params[s, 5],
-                     params[s, 6], x, y, z)
+                     params[s, 7], params[s, 8], params[s, 9], params[s, 6], x, y, z)
     if kind == LAYERS:
         return 1.0, _layers(data, ints[s, 0], ints[s, 1], -z), 0.0, 0.0, 0.0
     if kind == DEPTH_TABLE:
@@ -790,6 +880,50 @@ def planned_value_and_gradient(c, f, x, y, z):
     if plan == POWER_LAW:
         return _planned_power_law(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x, y, z)
     return _base_and_patches(c.field_first, c.kind, c.mode, c.params, c.ints, c.data, f, x, y, z)
+
+
+@njit(cache=True, inline="always")
+def _shared_column(g, c, i, j, k, fx, fy, fz, inside, in_x, in_y, in_z):
+    """Value and gradient of column ``c`` of a shared grid at a located point (as :func:`_grid`)."""
+    rule = g.shape[3]
+    if not inside and rule == OUTSIDE_NONE:
+        return 0.0, 0.0, 0.0, 0.0
+    if not inside and rule == OUTSIDE_VALUE:
+        return g.outside[c], 0.0, 0.0, 0.0
+    nx, ny, nz = g.shape[0], g.shape[1], g.shape[2]
+    m = g.outside.size
+    syz = ny * nz
+    value, dx, dy, dz = _trilinear(g.values, (i * syz + j * nz + k) * m + c, syz * m if nx > 1 else 0,
+                                   nz * m if ny > 1 else 0, m if nz > 1 else 0, fx, fy, fz)
+    gx = dx * g.geometry[6] if (in_x and nx > 1) else 0.0
+    gy = dy * g.geometry[7] if (in_y and ny > 1) else 0.0
+    gz = dz * g.geometry[8] if (in_z and nz > 1) else 0.0
+    return value, gx, gy, gz
+
+
+@njit(cache=True, inline="always")
+def shared_grid_at(g, first, second, third, x, y, z):
+    """Values of fields ``first`` and ``second`` and the value and gradient of field ``third`` (field indices,
+    -1: none, 0 returned) of a :class:`SharedGrid` at (x, y, z) cm, the point's cell located once.
+
+    Inlined into its caller: meant for kernels compiled without reference counting (see
+    :func:`planned_value_and_gradient`).
+    """
+    i, j, k, fx, fy, fz, in_x, in_y, in_z = _grid_cell(g.shape[0], g.shape[1], g.shape[2], g.shape[3], False,
+                                                       g.geometry[0], g.geometry[1], g.geometry[2],
+                                                       g.geometry[3], g.geometry[4], g.geometry[5], g.geometry[6],
+                                                       g.geometry[7], g.geometry[8], x, y, z)
+    inside = in_x and in_y and in_z
+    a = 0.0
+    b = 0.0
+    v, gx, gy, gz = 0.0, 0.0, 0.0, 0.0
+    if first >= 0:
+        a = _shared_column(g, g.column[first], i, j, k, fx, fy, fz, inside, in_x, in_y, in_z)[0]
+    if second >= 0:
+        b = _shared_column(g, g.column[second], i, j, k, fx, fy, fz, inside, in_x, in_y, in_z)[0]
+    if third >= 0:
+        v, gx, gy, gz = _shared_column(g, g.column[third], i, j, k, fx, fy, fz, inside, in_x, in_y, in_z)
+    return a, b, v, gx, gy, gz
 
 
 @njit(**_POINT_KERNEL)
