@@ -128,6 +128,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
         least ``replicates``); below 2 no simulation noise is weighted.
     """
     from ..batch import replicate_seed
+    from ..progress import stage
     from .design import StudyPlan, Task
     from .runner import run_plan
     from .schema import Measure
@@ -135,8 +136,8 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     if not parameters:
         raise RootsimError("give at least one --param KEY.PATH=LOW:HIGH to fit")
     if replicates < 1 or population < 2 or generations < 1 or grid < 3 or noise_stands < 0:
-        raise RootsimError("--replicates >= 1, --population >= 2, --generations >= 1 are needed "
-                           "(and grid >= 3, noise_stands >= 0)")
+        raise RootsimError("--replicates >= 1, --population >= 2, --generations >= 1, --noise-stands >= 0 "
+                           "(and grid >= 3) are needed")
     for p in parameters:  # bad key paths and values outside the valid range fail here, before any run
         with_parameter(spec, p.key_path, p.low)
         with_parameter(spec, p.key_path, p.high)
@@ -165,6 +166,19 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     else:
         keys = list(zip(obs["day"], obs["depth_top_cm"], obs["depth_bottom_cm"]))
 
+    phase = {"name": "search", "stage": None}
+
+    def on_stage(name):  # the search shows its batches as before; later steps, many small batches, one line each
+        if phase["stage"] is not None:
+            phase["stage"].__exit__(None, None, None)
+            phase["stage"] = None
+        phase["name"] = name
+        if name != "search":
+            labels = {"noise": f"global fit: {max(replicates, noise_stands)} stands at the optimum (simulation noise)",
+                      "polish": "global fit: polishing the optimum", "profile": "global fit: profile likelihood"}
+            phase["stage"] = stage(labels[name], enabled=progress is not False)
+            phase["stage"].__enter__()
+
     def grow_and_measure(units: np.ndarray, stands: int):
         specs, tasks = [], []
         for unit in units:
@@ -182,7 +196,8 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             for r, sd_r in enumerate(seeds[:stands]):
                 tasks.append(Task(f"{name}__r{r:03d}", name, 0, r, sd_r, {}, s, error))
         plan = StudyPlan("fit", tasks, measure, [], kind="fit")
-        results = run_plan(plan, None, workers=workers, scheduler=scheduler, progress=progress, run_lines=False)
+        results = run_plan(plan, None, workers=workers, scheduler=scheduler, run_lines=False,
+                           progress=progress if phase["name"] == "search" else False)
         return specs, results
 
     def per_stand(results, name):
@@ -223,10 +238,16 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             return np.zeros(observed_all.size)
         return stands.var(axis=0, ddof=1) / replicates
 
-    fit = fit_and_profile(simulate, observed_all, sd, dimension=len(parameters),
-                          simulation_variance=simulation_variance if noise_stands >= 2 else None,
-                          scaled=not weighted, seed=base, population=population, generations=generations,
-                          grid=grid)
+    try:
+        fit = fit_and_profile(simulate, observed_all, sd, dimension=len(parameters),
+                              simulation_variance=simulation_variance if noise_stands >= 2 else None,
+                              scaled=not weighted, seed=base, population=population, generations=generations,
+                              grid=grid, on_stage=on_stage)
+    except BaseException as exc:
+        if phase["stage"] is not None:
+            phase["stage"].__exit__(type(exc), exc, exc.__traceback__)
+        raise
+    on_stage("search")  # closes the last step's line; the final stands below are one more small batch
     values = {p.key_path: float(low[k] + fit.best[k] * span[k]) for k, p in enumerate(parameters)}
     intervals = {p.key_path: (float(low[k] + lo * span[k]), float(low[k] + hi * span[k]))
                  for k, (p, (lo, hi)) in enumerate(zip(parameters, fit.intervals))}

@@ -11,7 +11,7 @@ Objective
     of a simulated mean against an observation carries both variances, so both go into the weights; this is the
     usual correction of simulation-based least squares / the method of simulated moments (McFadden 1989,
     doi:10.2307/1913621; Gourieroux & Monfort 1996, *Simulation-Based Econometric Methods*, the (1 + 1/S)
-    inflation of the estimator's variance; common practice). Without observation SDs (``scaled=True``) every
+    inflation of the estimator's variance; references from memory; common practice). Without observation SDs (``scaled=True``) every
     weight is 1 and chi2 is divided by the residual variance ``chi2_min / (n - p)`` (common practice), which
     already holds the simulation noise, so none is added.
 
@@ -195,7 +195,7 @@ class ProfileFit:
 
 def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, simulation_variance=None,
                     scaled: bool = False, seed: int = 0, population: int = 6, generations: int = 6,
-                    grid: int = 7, refinements: int = 3) -> ProfileFit:
+                    grid: int = 7, refinements: int = 3, on_stage=None) -> ProfileFit:
     """Minimise chi2 over the unit box and profile each parameter (see the module documentation).
 
     Parameters
@@ -219,6 +219,8 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
         Profile values are tried outward from the optimum at the spacing of ``grid`` points across the box.
     refinements : int
         Regula falsi steps on each interval end.
+    on_stage : callable, optional
+        Called with "search", "noise", "polish" and "profile" as each step starts (progress reports).
     """
     from scipy.optimize import differential_evolution
 
@@ -228,6 +230,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
     records: list[dict] = []
     simulated: list[np.ndarray] = []
     variance = [sd2]
+    announce = on_stage if on_stage is not None else (lambda name: None)
 
     def chi2_of(values: np.ndarray) -> float:
         if not np.isfinite(values).all():
@@ -251,6 +254,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
         units = np.array(list(population_units))
         return evaluate(units, [("search", -1)] * len(units))
 
+    announce("search")
     differential_evolution(lambda u: 0.0, bounds=[(0.0, 1.0)] * p, popsize=population, maxiter=generations,
                            rng=np.random.default_rng(seed), polish=False, init="latinhypercube",
                            updating="deferred", workers=mapper, tol=0.0)
@@ -266,6 +270,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
     best = unit_of(rescore())
     noise = np.zeros_like(observed)
     if simulation_variance is not None and not scaled:
+        announce("noise")
         noise = np.nan_to_num(np.asarray(simulation_variance(best), float), nan=0.0).clip(min=0.0)
         variance[0] = sd2 + noise
         best = unit_of(rescore())
@@ -277,6 +282,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
         return _bounded_nelder_mead(lambda x: ask(x, ("polish", -1)), best, step=0.05, fatol=fatol,
                                     maxfev=60 * p)
 
+    announce("polish")
     run_side_by_side([polish], evaluate)
     i_best = rescore()
     best, minimum = unit_of(i_best), records[i_best]["objective"]
@@ -340,6 +346,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
                     break
         return job
 
+    announce("profile")
     run_side_by_side([side(k, d) for k in range(p) for d in (-1, 1)], evaluate)
     history = pd.DataFrame(records)
     i_best = int(history["objective"].idxmin())
