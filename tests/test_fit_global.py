@@ -315,3 +315,22 @@ def test_side_by_side_minimisations_equal_one_at_a_time_and_pass_errors_on():
 
     with pytest.raises(ValueError, match="bad job"):
         run_side_by_side([job(0), failing_job], evaluate)
+
+
+def test_global_fit_is_the_same_on_one_and_two_workers():
+    # The profile minimisations hand their requests over in rounds, one batch per round, on one process pool kept
+    # open for the whole fit; the result must not depend on the number of workers (same values, intervals and
+    # every evaluated point).
+    from test_fitting import observed_profile
+
+    truth = parse_spec(SPEC).with_overrides(time_step_days=1.0)
+    observed = observed_profile(truth, range(500, 504))
+    observed["rld_standard_deviation_cm_per_cm3"] = 0.001 + 0.1 * observed["rld_cm_per_cm3"]
+    observed = observed.assign(day=np.nan, x_cm=np.nan, y_cm=np.nan, diameter_cm=np.nan)
+    params = [FitParameter(RATE, 0.5, 4.0), FitParameter(ANGLE, 0.0, 85.0)]
+    one, two = (fit_global(truth, observed, params, replicates=2, population=3, generations=2, workers=w,
+                           progress=False) for w in (1, 2))
+    assert one.values == two.values and one.intervals == two.intervals
+    pd.testing.assert_frame_equal(one.history, two.history)
+    pd.testing.assert_frame_equal(one.likelihood_profiles, two.likelihood_profiles)
+    assert (one.history["stage"] == "profile").sum() > 20  # many small batches went through the one pool

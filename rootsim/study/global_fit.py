@@ -130,7 +130,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     from ..batch import replicate_seed
     from ..progress import stage
     from .design import StudyPlan, Task
-    from .runner import run_plan
+    from .runner import open_runner, run_plan
     from .schema import Measure
 
     if not parameters:
@@ -196,7 +196,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             for r, sd_r in enumerate(seeds[:stands]):
                 tasks.append(Task(f"{name}__r{r:03d}", name, 0, r, sd_r, {}, s, error))
         plan = StudyPlan("fit", tasks, measure, [], kind="fit")
-        results = run_plan(plan, None, workers=workers, scheduler=scheduler, run_lines=False,
+        results = run_plan(plan, None, workers=workers, scheduler=scheduler, run_lines=False, runner=pool[0],
                            progress=progress if phase["name"] == "search" else False)
         return specs, results
 
@@ -238,6 +238,10 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             return np.zeros(observed_all.size)
         return stands.var(axis=0, ddof=1) / replicates
 
+    pool = (None, None)
+    if workers < 1:
+        raise RootsimError(f"--workers must be >= 1 (got {workers})")
+    pool = open_runner(workers, scheduler)  # one pool / Dask connection for all batches, not one per batch
     try:
         fit = fit_and_profile(simulate, observed_all, sd, dimension=len(parameters),
                               simulation_variance=simulation_variance if noise_stands >= 2 else None,
@@ -246,8 +250,15 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     except BaseException as exc:
         if phase["stage"] is not None:
             phase["stage"].__exit__(type(exc), exc, exc.__traceback__)
+        if pool[1] is not None:
+            pool[1]()
         raise
     on_stage("search")  # closes the last step's line; the final stands below are one more small batch
+    try:
+        specs, results = grow_and_measure(fit.best[None, :], replicates)
+    finally:
+        if pool[1] is not None:
+            pool[1]()
     values = {p.key_path: float(low[k] + fit.best[k] * span[k]) for k, p in enumerate(parameters)}
     intervals = {p.key_path: (float(low[k] + lo * span[k]), float(low[k] + hi * span[k]))
                  for k, (p, (lo, hi)) in enumerate(zip(parameters, fit.intervals))}
@@ -262,7 +273,6 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     likelihood = likelihood.rename(columns={"objective": "profile_objective"})
     for k, p in enumerate(parameters):
         likelihood[p.key_path] = low[k] + likelihood.pop(f"unit_{k}") * span[k]
-    specs, results = grow_and_measure(fit.best[None, :], replicates)
     stands = per_stand(results, specs[0][0])
     fitted = stands.mean(axis=0)
     traits = {t.name: float(fitted[len(target) + i]) for i, t in enumerate(targets)}
