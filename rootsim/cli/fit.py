@@ -25,7 +25,9 @@ batch through the study runner (--workers N or --scheduler ADDRESS). It also tak
 dates (a 'day' column), per-observation standard deviations as weights (a 'rld_standard_deviation_cm_per_cm3' column),
 observations taken with cores at their positions (--observed-as cores: columns x_cm, y_cm, diameter_cm, as
 in cores.csv), trait targets (--target d50_depth_cm=22:2), and reports a 95% profile-likelihood interval
-for each fitted value; it also writes OUT/fit_observed_vs_fitted.png.
+for each fitted value (the other parameters re-optimised at each profile value; the simulated mean's own
+sampling variance, from --noise-stands stands at the optimum / --replicates, added to each observation's
+variance); it also writes OUT/fit_observed_vs_fitted.png and OUT/fit_likelihood_profiles.csv.
 
 examples:
   rootsim fit params/cereal_fibrous.toml --observed field/plot12_stand_mean.csv --days 45 \\
@@ -58,6 +60,9 @@ def register(parser) -> None:
     parser.add_argument("--population", type=int, default=6, metavar="N",
                         help="global: population per parameter (default 6)")
     parser.add_argument("--generations", type=int, default=6, metavar="N", help="global: generations (default 6)")
+    parser.add_argument("--noise-stands", type=int, default=8, metavar="N",
+                        help="global: stands grown at the optimum to estimate the simulated mean's variance, which "
+                             "is added to each observation's variance in the weights (default 8; 0: none)")
     parser.add_argument("--workers", type=int, default=1, metavar="N", help="global: worker processes")
     parser.add_argument("--scheduler", metavar="ADDRESS", help="global: an existing Dask scheduler")
 
@@ -119,7 +124,7 @@ def _run_global(args, spec, parameters) -> int:
     result = fit_global(spec, observed, parameters, as_cores=args.observed_as == "cores", targets=targets,
                         replicates=args.replicates, seed=args.seed, population=args.population,
                         generations=args.generations, workers=args.workers, scheduler=args.scheduler,
-                        source=str(args.observed))
+                        source=str(args.observed), noise_stands=args.noise_stands)
     figure = observed_vs_fitted_figure(result.profile)
     FigureCanvasAgg(figure)
     out = ensure_output_dir(args.out)
@@ -128,9 +133,13 @@ def _run_global(args, spec, parameters) -> int:
               "interval_95": {k: list(v) for k, v in result.intervals.items()},
               "objective_chi2": result.objective, "evaluations": result.evaluations,
               "replicates": args.replicates, "targets": {t.name: [t.value, t.standard_deviation] for t in targets},
-              "fitted_traits": result.traits, "bounds": {p.key_path: [p.low, p.high] for p in parameters}}
+              "fitted_traits": result.traits, "bounds": {p.key_path: [p.low, p.high] for p in parameters},
+              "interval_method": "profile likelihood, other parameters re-optimised, chi2 within 3.84 of the minimum",
+              "noise_stands": args.noise_stands,
+              "trait_simulation_standard_deviation": result.simulation_standard_deviation}
     atomic_write_text(Path(out) / "fit_history.csv", result.history.to_csv(index=False))
     atomic_write_text(Path(out) / "fit_profile.csv", result.profile.to_csv(index=False))
+    atomic_write_text(Path(out) / "fit_likelihood_profiles.csv", result.likelihood_profiles.to_csv(index=False))
     atomic_write_text(Path(out) / "fitted_spec.toml", fitted_toml(args.spec, result.values))
     with atomic_path(Path(out) / "fit_observed_vs_fitted.png") as tmp:
         figure.savefig(tmp, format="png")

@@ -3,19 +3,24 @@
 The objective is a weighted sum of squares over every observation (several sampling dates, whole-stand
 profiles or virtual cores at the observed positions) and optional trait targets::
 
-    chi2 = sum_i ((simulated_i - observed_i) / sd_i)^2 + sum_t ((trait_t - target_t) / sd_t)^2
+    chi2 = sum_i (simulated_i - observed_i)^2 / (sd_i^2 + s_i^2 / R) + (the same for each trait target)
 
-with ``sd_i`` the observation's standard deviation when given (weights 1 / SD², the usual weighted least
-squares) and 1 cm/cm³ otherwise. The simulated value is the mean over ``replicates`` stands grown with fixed
-seeds (common random numbers), so the objective changes only through the parameters. It is minimized by
-differential evolution (Storn & Price 1997, doi:10.1023/A:1008202821328; ``scipy.optimize.differential_evolution``),
-each generation's whole population run as one batch of study tasks (serial, process pool or Dask).
+with ``sd_i`` the observation's standard deviation when given (1 cm/cm³ otherwise, see below), ``R`` =
+``replicates`` and ``s_i^2`` the between-stand variance of observable i, estimated once at the search's optimum
+from ``max(replicates, noise_stands)`` stands. The simulated value is the mean over R stands grown with fixed
+seeds (common random numbers), so the objective changes only through the parameters, but that mean still has
+the sampling variance ``s_i^2 / R``, which the residual carries beside the observation's own; adding it to the
+weights is the usual correction of simulation-based least squares (method of simulated moments, McFadden 1989,
+doi:10.2307/1913621; common practice). It is minimized by differential evolution (Storn & Price 1997,
+doi:10.1023/A:1008202821328; ``scipy.optimize.differential_evolution``), each generation's whole population run
+as one batch of study tasks (serial, process pool or Dask), then polished by a bounded Nelder-Mead.
 
-Uncertainty: a profile likelihood. Every evaluated point (the optimizer's and a grid along each parameter
-through the optimum) gives chi2; the profile of parameter k at value v is the lowest chi2 among points whose
-k-th value falls in v's grid cell, and the 95 % interval is where it stays within 3.84 (the 95 % quantile of
-chi-square with one degree of freedom; Venzon & Moolgavkar 1988, doi:10.2307/2347496) of the minimum. Without
-given SDs, chi2 is scaled by the residual variance chi2_min / (n - p) first (common practice).
+Uncertainty: a profile likelihood (Venzon & Moolgavkar 1988, doi:10.2307/2347496). The profile of parameter k at
+value v is chi2 minimised over the other parameters with k held at v (bounded Nelder-Mead from the optimum; all
+profile minimisations of a round run as one batch); the 95 % interval is where it stays within 3.84 (the 95 %
+quantile of chi-square with one degree of freedom) of the minimum, its ends found by root finding on the profile
+(see :mod:`rootsim.study.profile_likelihood`). Without given SDs, chi2 is scaled by the residual variance
+chi2_min / (n - p) first (common practice; it then already holds the simulation noise, none is added).
 """
 
 from __future__ import annotations
@@ -28,11 +33,9 @@ import pandas as pd
 
 from ..errors import RootsimError
 from ..fitting import FitParameter, parse_named_pair, with_parameter
+from .profile_likelihood import CHI2_95_ONE_DOF, fit_and_profile  # noqa: F401 (the threshold stays importable here)
 
 __all__ = ["TraitTarget", "parse_trait_target", "fit_global", "GlobalFitResult"]
-
-CHI2_95_ONE_DOF = 3.841458820694124  # scipy.stats.chi2.ppf(0.95, 1)
-
 
 @dataclass(frozen=True)
 class TraitTarget:
@@ -55,7 +58,13 @@ def parse_trait_target(text: str) -> TraitTarget:
 
 @dataclass
 class GlobalFitResult:
-    """Outcome of :func:`fit_global`."""
+    """Outcome of :func:`fit_global`.
+
+    ``history`` holds every evaluated point (``stage`` search, polish or profile; ``profiled_parameter``),
+    ``profile`` observed against fitted RLD (with the simulated mean's SD), ``likelihood_profiles`` the profile
+    points (``parameter``, ``value``, ``profile_objective`` and the minimising values of all parameters),
+    ``simulation_standard_deviation`` the SD of each trait target's simulated mean that entered the weights.
+    """
 
     values: dict[str, float]
     intervals: dict[str, tuple[float, float]]
@@ -64,6 +73,8 @@ class GlobalFitResult:
     history: pd.DataFrame
     profile: pd.DataFrame
     traits: dict[str, float] = field(default_factory=dict)
+    likelihood_profiles: pd.DataFrame = field(default_factory=pd.DataFrame)
+    simulation_standard_deviation: dict[str, float] = field(default_factory=dict)
 
 
 def _cores_measure(observed: pd.DataFrame, source: str):
@@ -85,8 +96,8 @@ def _cores_measure(observed: pd.DataFrame, source: str):
 def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, as_cores: bool = False,
                targets: list[TraitTarget] = (), replicates: int = 2, seed: int | None = None,
                population: int = 6, generations: int = 6, grid: int = 7, workers: int = 1,
-               scheduler: str | None = None, source: str = "observations", progress: bool | None = None
-               ) -> GlobalFitResult:
+               scheduler: str | None = None, source: str = "observations", progress: bool | None = None,
+               noise_stands: int = 8) -> GlobalFitResult:
     """Fit ``parameters`` by differential evolution over their bounds (see the module documentation).
 
     Parameters
@@ -108,21 +119,25 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
     generations : int
         Generations of differential evolution.
     grid : int
-        Points per parameter on the grid through the optimum (profile likelihood).
+        Profile values are tried outward from the optimum at the spacing of ``grid`` points across each
+        parameter's bounds until the profile crosses the 95 % threshold; the crossing is then refined.
     workers, scheduler
         As for :func:`rootsim.study.run_plan`.
+    noise_stands : int
+        Stands grown at the search's optimum to estimate the between-stand variance of every observable (at
+        least ``replicates``); below 2 no simulation noise is weighted.
     """
-    from scipy.optimize import differential_evolution
-
     from ..batch import replicate_seed
+    from ..progress import stage
     from .design import StudyPlan, Task
-    from .runner import run_plan
+    from .runner import open_runner, run_plan
     from .schema import Measure
 
     if not parameters:
         raise RootsimError("give at least one --param KEY.PATH=LOW:HIGH to fit")
-    if replicates < 1 or population < 2 or generations < 1 or grid < 3:
-        raise RootsimError("--replicates >= 1, --population >= 2, --generations >= 1 are needed")
+    if replicates < 1 or population < 2 or generations < 1 or grid < 3 or noise_stands < 0:
+        raise RootsimError("--replicates >= 1, --population >= 2, --generations >= 1, --noise-stands >= 0 "
+                           "(and grid >= 3) are needed")
     for p in parameters:  # bad key paths and values outside the valid range fail here, before any run
         with_parameter(spec, p.key_path, p.low)
         with_parameter(spec, p.key_path, p.high)
@@ -137,17 +152,34 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
                       traits=[t.name for t in targets] or [], max_depth_cm=max(b for _, b in intervals),
                       cores=_cores_measure(obs, source) if as_cores else [])
     base = spec.run.seed if seed is None else seed
-    seeds = [replicate_seed(base, r) for r in range(replicates)]
-    sd = obs["rld_standard_deviation_cm_per_cm3"].to_numpy(float)
-    weighted = bool(np.isfinite(sd).all())
-    sd = np.where(np.isfinite(sd), sd, 1.0)
+    seeds = [replicate_seed(base, r) for r in range(max(replicates, noise_stands))]
+    sd_given = obs["rld_standard_deviation_cm_per_cm3"].to_numpy(float)
+    weighted = bool(np.isfinite(sd_given).all())
+    sd = np.concatenate([np.where(np.isfinite(sd_given), sd_given, 1.0), [t.standard_deviation for t in targets]])
     target = obs["rld_cm_per_cm3"].to_numpy(float)
+    observed_all = np.concatenate([target, [t.value for t in targets]])
     low = np.array([p.low for p in parameters])
     span = np.array([p.high - p.low for p in parameters])
-    history: list[dict] = []
     counter = [0]
+    if as_cores:
+        keys = list(zip(obs["day"], obs["x_cm"], obs["y_cm"], obs["depth_top_cm"]))
+    else:
+        keys = list(zip(obs["day"], obs["depth_top_cm"], obs["depth_bottom_cm"]))
 
-    def grow_and_measure(units: np.ndarray):
+    phase = {"name": "search", "stage": None}
+
+    def on_stage(name):  # the search shows its batches as before; later steps, many small batches, one line each
+        if phase["stage"] is not None:
+            phase["stage"].__exit__(None, None, None)
+            phase["stage"] = None
+        phase["name"] = name
+        if name != "search":
+            labels = {"noise": f"global fit: {max(replicates, noise_stands)} stands at the optimum (simulation noise)",
+                      "polish": "global fit: polishing the optimum", "profile": "global fit: profile likelihood"}
+            phase["stage"] = stage(labels[name], enabled=progress is not False)
+            phase["stage"].__enter__()
+
+    def grow_and_measure(units: np.ndarray, stands: int):
         specs, tasks = [], []
         for unit in units:
             values = low + np.clip(unit, 0.0, 1.0) * span
@@ -161,95 +193,99 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             name = f"candidate_{counter[0]:05d}"
             counter[0] += 1
             specs.append((name, values))
-            for r, sd_r in enumerate(seeds):
+            for r, sd_r in enumerate(seeds[:stands]):
                 tasks.append(Task(f"{name}__r{r:03d}", name, 0, r, sd_r, {}, s, error))
         plan = StudyPlan("fit", tasks, measure, [], kind="fit")
-        results = run_plan(plan, None, workers=workers, scheduler=scheduler, progress=progress, run_lines=False)
+        results = run_plan(plan, None, workers=workers, scheduler=scheduler, run_lines=False, runner=pool[0],
+                           progress=progress if phase["name"] == "search" else False)
         return specs, results
 
-    def observe(results, name):
+    def per_stand(results, name):
+        """Observables of each stand of candidate ``name``: (stands, observations + targets), None if a run
+        failed."""
         runs = results.runs[results.runs["variant"] == name]
         if (runs["status"] != "ok").any():
-            return None, {}
+            return None
         if as_cores:
             smp = results.samples[results.samples["variant"] == name]
             smp = smp.assign(key=list(zip(smp["day"], smp["x_cm"], smp["y_cm"], smp["depth_top_cm"])))
-            sim = smp.groupby("key")["rld_cm_per_cm3"].mean()
-            keys = list(zip(obs["day"], obs["x_cm"], obs["y_cm"], obs["depth_top_cm"]))
+            table = smp.groupby(["replicate", "key"])["rld_cm_per_cm3"].mean().unstack("key")
         else:
             prof = results.profiles[results.profiles["variant"] == name]
             prof = prof.assign(key=list(zip(prof["day"], prof["depth_top_cm"], prof["depth_bottom_cm"])))
-            sim = prof.groupby("key")["rld_cm_per_cm3"].mean()
-            keys = list(zip(obs["day"], obs["depth_top_cm"], obs["depth_bottom_cm"]))
-        values = np.array([sim.get(k, np.nan) for k in keys], float)
-        traits = {t.name: float(runs[t.name].mean()) if t.name in runs else math.nan for t in targets}
-        return values, traits
-
-    def chi2(values, traits):
-        if values is None or not np.isfinite(values).all():
-            return math.inf
-        total = float(np.sum(((values - target) / sd) ** 2))
+            table = prof.groupby(["replicate", "key"])["rld_cm_per_cm3"].mean().unstack("key")
+        table = table.reindex(index=sorted(runs["replicate"]))
+        values = np.array([table[k].to_numpy(float) if k in table else np.full(len(table), np.nan) for k in keys]).T
+        traits = []
         for t in targets:
-            if not math.isfinite(traits.get(t.name, math.nan)):
+            if t.name not in runs:
                 raise RootsimError(f"--target {t.name}: not a trait rootsim measures (see runs.parquet columns)")
-            total += ((traits[t.name] - t.value) / t.standard_deviation) ** 2
-        return total
+            traits.append(runs.sort_values("replicate")[t.name].to_numpy(float))
+        return np.column_stack([values, *traits]) if traits else values
 
-    def evaluate(units, stage):
-        specs, results = grow_and_measure(np.atleast_2d(units))
-        out = []
-        for name, values in specs:
-            sim, traits = observe(results, name)
-            value = chi2(sim, traits)
-            history.append({"stage": stage, **{p.key_path: float(v) for p, v in zip(parameters, values)},
-                            "objective": value})
-            out.append(value)
-        return out
+    def simulate(units):
+        specs, results = grow_and_measure(units, replicates)
+        rows = []
+        for name, _ in specs:
+            stands = per_stand(results, name)
+            rows.append(np.full(observed_all.size, np.nan) if stands is None else stands.mean(axis=0))
+        return np.array(rows)
 
-    def mapper(func, population_units):  # differential evolution's map-like "workers": one batch per generation
-        return evaluate(np.array(list(population_units)), "search")
+    def simulation_variance(unit):  # between-stand variance / replicates, from noise_stands stands at the optimum
+        specs, results = grow_and_measure(unit[None, :], max(replicates, noise_stands))
+        stands = per_stand(results, specs[0][0])
+        if stands is None:
+            return np.zeros(observed_all.size)
+        return stands.var(axis=0, ddof=1) / replicates
 
-    differential_evolution(lambda u: 0.0, bounds=[(0.0, 1.0)] * len(parameters), popsize=population,
-                           maxiter=generations, rng=np.random.default_rng(base), polish=False, init="latinhypercube",
-                           updating="deferred", workers=mapper, tol=0.0)
-    table = pd.DataFrame(history)
-    best = table.loc[table["objective"].idxmin()]
-    best_unit = np.array([(best[p.key_path] - p.low) / (p.high - p.low) for p in parameters])
-    # grid through the optimum along each parameter (profile likelihood points)
-    ticks = np.linspace(0.0, 1.0, grid)
-    points = []
-    for k in range(len(parameters)):
-        for t in ticks:
-            u = best_unit.copy()
-            u[k] = t
-            points.append(u)
-    evaluate(np.array(points), "profile")
-    table = pd.DataFrame(history)
-    finite = table[np.isfinite(table["objective"])]
-    best = finite.loc[finite["objective"].idxmin()]
-    values = {p.key_path: float(best[p.key_path]) for p in parameters}
-    n_obs = len(target) + len(targets)
-    scale = 1.0 if weighted else max(best["objective"] / max(n_obs - len(parameters), 1), 1e-300)
-    threshold = best["objective"] + CHI2_95_ONE_DOF * scale
-    intervals = {}
-    for p in parameters:
-        cells = np.clip(((finite[p.key_path] - p.low) / (p.high - p.low) * (grid - 1)).round().astype(int), 0, grid - 1)
-        profile = finite.groupby(cells)["objective"].min()
-        inside = profile.index[profile.to_numpy() <= threshold]
-        cell = (p.high - p.low) / (grid - 1)
-        lo = max(p.low, p.low + inside.min() * cell - 0.5 * cell)
-        hi = min(p.high, p.low + inside.max() * cell + 0.5 * cell)
-        intervals[p.key_path] = (float(min(lo, values[p.key_path])), float(max(hi, values[p.key_path])))
-    best_unit = np.array([(values[p.key_path] - p.low) / (p.high - p.low) for p in parameters])
-    specs, results = grow_and_measure(best_unit[None, :])
-    fitted, traits = observe(results, specs[0][0])
+    pool = (None, None)
+    if workers < 1:
+        raise RootsimError(f"--workers must be >= 1 (got {workers})")
+    pool = open_runner(workers, scheduler)  # one pool / Dask connection for all batches, not one per batch
+    try:
+        fit = fit_and_profile(simulate, observed_all, sd, dimension=len(parameters),
+                              simulation_variance=simulation_variance if noise_stands >= 2 else None,
+                              scaled=not weighted, seed=base, population=population, generations=generations,
+                              grid=grid, on_stage=on_stage)
+    except BaseException as exc:
+        if phase["stage"] is not None:
+            phase["stage"].__exit__(type(exc), exc, exc.__traceback__)
+        if pool[1] is not None:
+            pool[1]()
+        raise
+    on_stage("search")  # closes the last step's line; the final stands below are one more small batch
+    try:
+        specs, results = grow_and_measure(fit.best[None, :], replicates)
+    finally:
+        if pool[1] is not None:
+            pool[1]()
+    values = {p.key_path: float(low[k] + fit.best[k] * span[k]) for k, p in enumerate(parameters)}
+    intervals = {p.key_path: (float(low[k] + lo * span[k]), float(low[k] + hi * span[k]))
+                 for k, (p, (lo, hi)) in enumerate(zip(parameters, fit.intervals))}
+    history = fit.history.copy()
+    history["profiled_parameter"] = [parameters[k].key_path if k >= 0 else "" for k in history["profiled_parameter"]]
+    for k, p in enumerate(parameters):
+        history[p.key_path] = low[k] + history.pop(f"unit_{k}") * span[k]
+    history = history[["stage", *[p.key_path for p in parameters], "objective", "profiled_parameter"]]
+    likelihood = fit.profiles.copy()
+    likelihood["parameter"] = [parameters[k].key_path for k in likelihood["parameter"]]
+    likelihood["value"] = [low[k] + v * span[k] for k, v in zip(fit.profiles["parameter"], likelihood["value"])]
+    likelihood = likelihood.rename(columns={"objective": "profile_objective"})
+    for k, p in enumerate(parameters):
+        likelihood[p.key_path] = low[k] + likelihood.pop(f"unit_{k}") * span[k]
+    stands = per_stand(results, specs[0][0])
+    fitted = stands.mean(axis=0)
+    traits = {t.name: float(fitted[len(target) + i]) for i, t in enumerate(targets)}
     profile = obs[["day", "x_cm", "y_cm", "diameter_cm", "depth_top_cm", "depth_bottom_cm"]].copy()
     profile["rld_observed_cm_per_cm3"] = target
     profile["rld_standard_deviation_cm_per_cm3"] = obs["rld_standard_deviation_cm_per_cm3"].to_numpy()
-    profile["rld_fitted_cm_per_cm3"] = fitted
+    profile["rld_fitted_cm_per_cm3"] = fitted[:len(target)]
+    profile["rld_simulation_standard_deviation_cm_per_cm3"] = np.sqrt(fit.simulation_variance[:len(target)])
     if not as_cores:
         profile = profile.drop(columns=["x_cm", "y_cm", "diameter_cm"])
-    return GlobalFitResult(values, intervals, float(best["objective"]), len(table), table, profile, traits)
+    return GlobalFitResult(values, intervals, fit.objective, len(history), history, profile, traits, likelihood,
+                           {t.name: float(math.sqrt(v)) for t, v in
+                            zip(targets, fit.simulation_variance[len(target):])})
 
 
 def observed_vs_fitted_figure(profile: pd.DataFrame):

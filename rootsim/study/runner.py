@@ -211,9 +211,20 @@ def _dask_runner(address: str):
     return submit, client.close
 
 
+def open_runner(workers: int = 1, scheduler: str | None = None):
+    """A process pool (``workers`` > 1) or Dask connection kept open across many :func:`run_plan` calls (many
+    small batches, e.g. a global fit's profiles); ``(runner, close)``, both None for serial runs. Pass ``runner``
+    to :func:`run_plan` and call ``close()`` when done."""
+    if scheduler is not None:
+        return _dask_runner(scheduler)
+    if workers > 1:
+        return _pool_runner(workers)
+    return None, None
+
+
 def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, workers: int = 1,
              scheduler: str | None = None, resume: bool = False, progress: bool | None = None,
-             run_lines: bool = True):
+             run_lines: bool = True, runner=None):
     """Run every task of ``plan`` not yet finished in ``out_dir``; return the combined :class:`StudyResults`.
 
     Parameters
@@ -233,6 +244,8 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
         one line per finished run (``run 3/16 steep_dense r002: ok, 12,345 segments, 2.10 s``). False: silent.
     run_lines : bool
         False: no line per run off a terminal (callers with many short runs, e.g. a global fit).
+    runner : optional
+        From :func:`open_runner`: run on it (instead of ``workers``/``scheduler``) and leave it open.
     """
     from ..progress import count_progress
 
@@ -241,8 +254,8 @@ def run_plan(plan: StudyPlan, out_dir: str | os.PathLike | None = None, *, worke
     keep = plan.measure.segments
     out = None
     pending = list(plan.tasks)
-    runner, close = None, None
-    if scheduler is not None:  # connect first: an unreachable scheduler leaves no folder behind
+    close = None
+    if scheduler is not None and runner is None:  # connect first: an unreachable scheduler leaves no folder behind
         runner, close = _dask_runner(scheduler)
     try:
         if out_dir is not None:
