@@ -213,6 +213,8 @@ def read_soil_water_file(path: str | os.PathLike) -> SoilWaterSetup:
             data = tomllib.load(handle)
     except FileNotFoundError:
         raise CaptureError(f"{path}: file not found") from None
+    except IsADirectoryError:
+        raise CaptureError(f"{path}: is a folder (allowed: a soil-water TOML file)") from None
     except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise CaptureError(f"{path}: cannot read as TOML ({' '.join(str(exc).split())[:120]})") from None
     return soil_water_from_mapping(data, source=str(path))

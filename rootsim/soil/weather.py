@@ -119,6 +119,13 @@ def _fail(source: str, where: str, problem: str, allowed: str) -> WeatherError:
     return WeatherError(f"{source}: {where}: {problem} (allowed: {allowed})")
 
 
+def _shown(value) -> str:
+    """A cell of the table as the user wrote it: plain numbers and text, not numpy reprs."""
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        return f"{float(value):g}"
+    return repr(str(value))
+
+
 def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
     """Validate a :class:`pandas.DataFrame` in the weather layout and return a :class:`WeatherTable`.
 
@@ -146,23 +153,26 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
         bad = ~np.isfinite(raw) | (raw != np.round(raw)) | (np.abs(raw) > 1e9)
         if bad.any():
             row = int(np.flatnonzero(bad)[0])
-            raise _fail(source, f"row {row + 2}, column day", f"{frame['day'].iloc[row]!r} is not a whole day",
+            raise _fail(source, f"row {row + 2}, column day", f"{_shown(frame['day'].iloc[row])} is not a whole day",
                         "integer days since sowing")
         day = raw.astype(np.int64)
     elif "date" in frame.columns:
         dates = pd.to_datetime(frame["date"], errors="coerce", format="ISO8601")
         if dates.isna().any():
             row = int(np.flatnonzero(dates.isna().to_numpy())[0])
-            raise _fail(source, f"row {row + 2}, column date", f"{frame['date'].iloc[row]!r} is not a date",
+            raise _fail(source, f"row {row + 2}, column date", f"{_shown(frame['date'].iloc[row])} is not a date",
                         "ISO dates such as 2031-05-04")
         day = ((dates - dates.iloc[0]).dt.days).to_numpy(dtype=np.int64)
     else:
         raise _fail(source, "columns", "neither 'day' nor 'date' is present", "a 'day' or a 'date' column")
     steps = np.diff(day)
     if steps.size and (steps != 1).any():
-        row = int(np.flatnonzero(steps != 1)[0]) + 1
+        backward = np.flatnonzero(steps <= 0)  # an unsorted or repeated day is named first: it also opens gaps
+        row = int(backward[0] if backward.size else np.flatnonzero(steps != 1)[0]) + 1
         if steps[row - 1] <= 0:
             problem = f"day {day[row]} follows day {day[row - 1]} (unsorted or repeated)"
+        elif steps[row - 1] == 2:
+            problem = f"day {day[row - 1] + 1} is missing"
         else:
             problem = f"days {day[row - 1] + 1}..{day[row] - 1} are missing"
         raise _fail(source, f"row {row + 2}, column day", problem, "consecutive days, sorted, one row per day")
@@ -176,7 +186,7 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
         bad |= (values < low) | (values > high)
         if bad.any():
             row = int(np.flatnonzero(bad)[0])
-            raise _fail(source, f"row {row + 2}, column {name}", f"{frame[name].iloc[row]!r} is missing or out of range",
+            raise _fail(source, f"row {row + 2}, column {name}", f"{_shown(frame[name].iloc[row])} is missing or out of range",
                         f"numbers from {low:g} to {high:g}")
         columns[name] = values
     if "mean_air_temperature_c" not in columns:
@@ -207,6 +217,8 @@ def read_weather_table(path: str | os.PathLike) -> WeatherTable:
 
     path = Path(path)
     source = str(path)
+    if path.is_dir():
+        raise WeatherError(f"{source}: is a folder (allowed: a daily weather CSV file)")
     try:
         if path.stat().st_size > 50_000_000:
             raise _fail(source, "file", "larger than 50 MB", "a daily table")
