@@ -114,9 +114,9 @@ def test_output_folder_under_a_file_names_the_file(tmp_path, capsys):
     # an unsorted table (0, 2, 1) was reported as "days 1..1 are missing"
     ("day,mean_air_temperature_c,rain_mm,potential_transpiration_mm\n0,15,1,2\n2,15,1,2\n1,15,0,1\n",
      "unsorted"),
-    # a true gap of one day reads as that day
-    ("day,mean_air_temperature_c,rain_mm,potential_transpiration_mm\n0,15,1,2\n1,15,1,2\n3,15,0,1\n",
-     "day 2 is missing"),
+    # a true gap still reads as the missing days
+    ("day,mean_air_temperature_c,rain_mm,potential_transpiration_mm\n0,15,1,2\n1,15,1,2\n4,15,0,1\n",
+     "days 2..3 are missing"),
 ])
 def test_weather_table_problems_read_as_plain_words(tmp_path, capsys, text, must_say):
     run = _roots(tmp_path)

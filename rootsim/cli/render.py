@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 from ..errors import RootsimError
 
@@ -103,6 +104,9 @@ def _soil_fields(args: argparse.Namespace, system):
     if not spec_path:
         raise RootsimError(f"--soil-field {args.soil_field}: {args.dir} records no parameter file "
                            "(allowed: give one with --soil-spec SPEC.toml)")
+    if args.soil_spec is None and not Path(spec_path).is_file():
+        raise RootsimError(f"--soil-field {args.soil_field}: {args.dir} was grown from {spec_path}, not found from "
+                           "here (moved, or relative to another folder) (allowed: give it with --soil-spec SPEC.toml)")
     fields = soil_fields_from_spec(load_spec(spec_path))
     try:
         fields.index(args.soil_field)

@@ -172,6 +172,8 @@ def _requests(args):
                           args.detection_limit_cm)
     if args.core_replicates is not None and args.core_replicates < 1:
         raise SamplingError(f"--core-replicates must be >= 1, got {args.core_replicates}")
+    if args.seed is not None and args.seed < 0:
+        raise SamplingError(f"--seed {args.seed} (allowed: a whole number >= 0)")
     grid_cm = args.projection_grid_cm
     if grid_cm is not None and not grid_cm > 0:
         raise SamplingError(f"--projection-grid-cm must be > 0 cm, got {grid_cm:g}")

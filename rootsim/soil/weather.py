@@ -171,8 +171,6 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
         row = int(backward[0] if backward.size else np.flatnonzero(steps != 1)[0]) + 1
         if steps[row - 1] <= 0:
             problem = f"day {day[row]} follows day {day[row - 1]} (unsorted or repeated)"
-        elif steps[row - 1] == 2:
-            problem = f"day {day[row - 1] + 1} is missing"
         else:
             problem = f"days {day[row - 1] + 1}..{day[row] - 1} are missing"
         raise _fail(source, f"row {row + 2}, column day", problem, "consecutive days, sorted, one row per day")
