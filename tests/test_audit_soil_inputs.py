@@ -130,3 +130,26 @@ def test_rootsim_soil_vti_round_trip_reads_each_field_back(tmp_path, capsys):
     b = again.values("volumetric_water_content", x, y, z)
     assert np.all(b >= 0.2) and np.all(b <= 0.3)      # the shipped grid's range, not another field's
     assert np.allclose(a, b, atol=0.01)               # resampled on 2 cm voxels
+
+
+def test_soil_printout_of_a_huge_depth_is_refused_not_run(tmp_path, capsys):
+    # `rootsim soil SPEC --depth-cm 1e9` printed (or tried to) 100 million rows and never ended.
+    spec = _spec(tmp_path, GRID_LINE)
+    for option, value in (("--depth-cm", "1e9"), ("--step-cm", "0.0001")):
+        code = main(["soil", str(spec), option, value])
+        captured = capsys.readouterr()
+        lines = captured.err.strip().splitlines()
+        assert code == 2 and len(lines) == 1 and lines[0].startswith("error: ") and option in lines[0]
+        assert "allowed" in lines[0] and captured.out == ""
+
+
+def test_soil_help_gives_units_of_each_size():
+    import argparse
+
+    from rootsim.cli import build_parser
+
+    parser = build_parser()
+    soil = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction)).choices["soil"]
+    for action in soil._actions:
+        if action.dest in ("voxel_cm", "depth_cm", "step_cm"):
+            assert "cm" in action.help, action.dest
