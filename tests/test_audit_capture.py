@@ -157,3 +157,19 @@ def test_a_good_season_still_runs(tmp_path, capsys):
     assert code == 0, capsys.readouterr().err
     daily = pd.read_csv(tmp_path / "out" / "capture_daily.csv")
     assert len(daily) == 3
+
+
+@pytest.mark.parametrize("text, must_say", [
+    ("x = " + "[" * 5000 + "]" * 5000 + "\n", "nested"),      # ended in tomllib's RecursionError traceback
+    ("[column]\ndepth_cm = 150.0\n" + "# padding\n" * 120_000, "bytes"),   # 1.2 MB: bounded like parameter files
+    ("[column\n", "not valid TOML"),
+])
+def test_soil_water_file_is_parsed_within_the_parameter_file_bounds(tmp_path, capsys, text, must_say):
+    run = _roots(tmp_path)
+    soil = tmp_path / "soil.toml"
+    soil.write_text(text)
+    code = main(["capture", str(run), "--soil-water", str(soil), "--weather", str(_weather(tmp_path, GOOD)),
+                 "--out", str(tmp_path / "out"), "--no-figures"])
+    line = _one_error_line(capsys)
+    assert code == 2 and str(soil) in line and must_say in line
+    assert not (tmp_path / "out").exists()
