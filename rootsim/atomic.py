@@ -36,10 +36,10 @@ def check_output_location(target: str | os.PathLike, *, folder: bool = False) ->
     for part in (start, *start.parents):
         if part.exists():
             if not part.is_dir():
-                raise RootsimError(f"{part}: is a file, not a folder, so {target} cannot be written "
+                raise RootsimError(f"{part}: is a file, not a folder, so cannot write {target} "
                                    "(allowed: a path through folders)")
             if not os.access(part, os.W_OK | os.X_OK):
-                raise RootsimError(f"{part}: folder is not writable, so {target} cannot be written")
+                raise RootsimError(f"{part}: folder is not writable, so cannot write {target}")
             return
 
 

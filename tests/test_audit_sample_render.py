@@ -52,3 +52,21 @@ def test_render_soil_field_of_a_run_whose_parameter_file_moved_says_so(tmp_path,
     line = _one_error_line(capsys)
     assert code == 2 and "moved_away.toml" in line and "--soil-spec" in line and "allowed" in line
     assert not (tmp_path / "r.png").exists()
+
+
+def test_render_option_errors_name_the_option_and_come_before_reading(tmp_path, capsys):
+    # "tube scale -1.0 not allowed (need a number > 0)" and "soil field '...': a vertical slice cannot be seen from
+    # the top (allowed views: side, iso)" named no option; a PNG under a file failed only after drawing.
+    run = _field_run(tmp_path)
+    blocker = tmp_path / "afile"
+    blocker.write_text("x")
+    cases = [(["--tube-scale", "-1", "--style", "tubes"], "--tube-scale"),
+             (["--tube-scale", "nan", "--style", "tubes"], "--tube-scale"),
+             (["--soil-field", "nitrate_mg_per_kg", "--view", "top"], "--view"),
+             (["--png", str(blocker / "r.png")], "not a folder")]
+    for extra, must_say in cases:
+        png = ["--png", str(tmp_path / "r.png")] if "--png" not in extra else []
+        code = main(["render", str(run), *png, *extra])
+        line = _one_error_line(capsys)
+        assert code == 2 and must_say in line and "allowed" in line, line
+    assert not (tmp_path / "r.png").exists()

@@ -77,6 +77,15 @@ def run(args: argparse.Namespace) -> int:
         raise RootsimError(f"--png {args.png}: the file name must end in .png")
     if args.soil_spec is not None and args.soil_field is None:
         raise RootsimError("--soil-spec needs --soil-field NAME (the field to draw)")
+    if not (args.tube_scale > 0 and args.tube_scale < float("inf")):  # also refuses nan
+        raise RootsimError(f"--tube-scale {args.tube_scale:g}: tube scale not allowed (allowed: a number > 0; "
+                           "1 = the true radius)")
+    if args.soil_field is not None and args.view == "top":
+        raise RootsimError(f"--soil-field {args.soil_field} with --view top: the field is drawn as a vertical slice, "
+                           "which cannot be seen from the top (allowed views: side, iso)")
+    from ..atomic import check_output_location
+
+    check_output_location(args.png)  # before the table is read and the picture drawn
     with stage(f"reading {args.dir}"):
         system = RootSystem.read(args.dir)
     soil_fields = _soil_fields(args, system) if args.soil_field is not None else None
