@@ -49,7 +49,10 @@ def ensure_output_dir(path: str | os.PathLike) -> Path:
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
-        check_output_location(out, folder=True)  # names the part of the path that is a file, if any
+        try:
+            check_output_location(out, folder=True)
+        except RootsimError as why:  # names the part of the path that is a file, if any
+            raise RootsimError(f"{out}: cannot create output directory ({why.cli_message()})") from None
         raise RootsimError(f"{out}: cannot create output directory ({exc.strerror or exc})") from None
     if not os.access(out, os.W_OK):
         raise RootsimError(f"{out}: output directory is not writable")
