@@ -117,7 +117,7 @@ def test_output_folder_under_a_file_names_the_file(tmp_path, capsys):
     # a true gap still reads as the missing days
     ("day,mean_air_temperature_c,rain_mm,potential_transpiration_mm\n0,15,1,2\n1,15,1,2\n4,15,0,1\n",
      "days 2..3 are missing"),
-])
+], ids=["nan_rain", "negative_rain", "fractional_day", "unsorted_days", "gap_of_two_days"])
 def test_weather_table_problems_read_as_plain_words(tmp_path, capsys, text, must_say):
     run = _roots(tmp_path)
     weather = _weather(tmp_path, text)
@@ -163,7 +163,7 @@ def test_a_good_season_still_runs(tmp_path, capsys):
     ("x = " + "[" * 5000 + "]" * 5000 + "\n", "nested"),      # ended in tomllib's RecursionError traceback
     ("[column]\ndepth_cm = 150.0\n" + "# padding\n" * 120_000, "bytes"),   # 1.2 MB: bounded like parameter files
     ("[column\n", "not valid TOML"),
-])
+], ids=["deeply_nested", "over_one_mebibyte", "invalid_toml"])
 def test_soil_water_file_is_parsed_within_the_parameter_file_bounds(tmp_path, capsys, text, must_say):
     run = _roots(tmp_path)
     soil = tmp_path / "soil.toml"
