@@ -70,3 +70,13 @@ def test_render_option_errors_name_the_option_and_come_before_reading(tmp_path, 
         line = _one_error_line(capsys)
         assert code == 2 and must_say in line and "allowed" in line, line
     assert not (tmp_path / "r.png").exists()
+
+
+def test_core_replicates_without_stand_placed_cores_is_refused(tmp_path, capsys):
+    # `--core 0,0,5,30 --core-replicates 2` sampled one core and said nothing of the replicates asked for.
+    run = _field_run(tmp_path)
+    code = main(["sample", str(run), "--core", "0,0,5,30", "--core-replicates", "2",
+                 "--out-dir", str(tmp_path / "out")])
+    line = _one_error_line(capsys)
+    assert code == 2 and "--core-replicates 2" in line and "--core-grid" in line and "allowed" in line
+    assert not (tmp_path / "out").exists()

@@ -243,6 +243,9 @@ def _replicated(system, cores: list, replicates: int, seed) -> list:
     from ..sampling.columns import table_metadata
     from ..sampling.stand_positions import POSITION_KINDS, replicate_plants
 
+    if not any(core.placement in POSITION_KINDS for core in cores):  # it used to be ignored without a word
+        raise SamplingError(f"--core-replicates {replicates}: no core is placed relative to the stand (allowed: "
+                            "with --core-grid or cores at a position kind: " + ", ".join(POSITION_KINDS) + ")")
     meta = table_metadata(system)
     out, seen = [], set()
     for core in cores:
