@@ -29,3 +29,21 @@ def test_a_folder_for_a_capture_input_is_named_as_a_folder(tmp_path, capsys, key
     assert err.startswith(f"error: {study}: ") and err.count("\n") == 1
     assert f"measure.capture.{key}" in err and "is a folder" in err and "does not exist" not in err
     assert not (tmp_path / "out").exists()
+
+
+def test_every_study_option_has_a_help_text():
+    # `rootsim study sensitivity --help` listed --method, --workers, --scheduler and --resume with no words at all.
+    import argparse
+
+    from rootsim.cli import build_parser
+
+    def subparsers(parser):
+        for action in parser._actions:
+            if isinstance(action, argparse._SubParsersAction):
+                yield from action.choices.items()
+
+    study = dict(subparsers(build_parser()))["study"]
+    for name, parser in subparsers(study):
+        for action in parser._actions:
+            if action.option_strings and action.dest != "help":
+                assert action.help, f"study {name} {action.option_strings[0]}"
