@@ -173,3 +173,17 @@ def test_soil_water_file_is_parsed_within_the_parameter_file_bounds(tmp_path, ca
     line = _one_error_line(capsys)
     assert code == 2 and str(soil) in line and must_say in line
     assert not (tmp_path / "out").exists()
+
+
+def test_roots_without_a_stand_layout_get_a_message_about_capture(tmp_path, capsys):
+    # A measured system with no stand metadata was told to "pass --area-cm2 A or --box ... on the command line",
+    # options that `rootsim capture` does not have.
+    top = np.arange(0.0, 5.0)
+    p0 = np.column_stack([np.zeros_like(top), np.zeros_like(top), -top])
+    lines_system(p0, p0 - np.array([0.0, 0.0, 1.0]), metadata={}).write(tmp_path / "run" / "segments.parquet")
+    code = main(["capture", str(tmp_path / "run"), "--soil-water", str(SOIL),
+                 "--weather", str(_weather(tmp_path, GOOD)), "--out", str(tmp_path / "out"), "--no-figures"])
+    line = _one_error_line(capsys)
+    assert code == 2 and str(tmp_path / "run") in line and "ground area" in line and "allowed" in line
+    assert "--area-cm2" not in line and "--box" not in line
+    assert not (tmp_path / "out").exists()

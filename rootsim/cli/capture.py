@@ -159,6 +159,12 @@ def run(args: argparse.Namespace) -> int:
     if args.grow is not None:
         return _run_coupled(args, setup, weather)
     system = RootSystem.read(args.dir)
+    from ..analysis.inputs import ground_area_from_metadata, system_metadata
+
+    if ground_area_from_metadata(system_metadata(system)) is None:  # (the profile's message names options of
+        raise CaptureError(f"{args.dir}: no stand layout, so no ground area to turn root length per soil "  # analyze)
+                           "cell into uptake in mm (allowed: roots grown by 'rootsim grow', or a table whose "
+                           "metadata has stand.ground_area_cm2)")
     from ..capture.season3d import season_for_system
 
     result = season_for_system(system, setup, weather, cell_cm=args.container_cell_cm)
