@@ -187,3 +187,24 @@ def test_roots_without_a_stand_layout_get_a_message_about_capture(tmp_path, caps
     assert code == 2 and str(tmp_path / "run") in line and "ground area" in line and "allowed" in line
     assert "--area-cm2" not in line and "--box" not in line
     assert not (tmp_path / "out").exists()
+
+
+def test_spreadsheet_exports_of_the_weather_table(tmp_path, capsys):
+    # A table saved with ';' between values was reported as "neither 'day' nor 'date' is present"; rows of empty
+    # cells a spreadsheet leaves at the end (",,,") stopped the run at "nan is not a whole day"; a capitalised
+    # "Day" header was not shown back to the user.
+    run = _roots(tmp_path)
+    cases = [("day;mean_air_temperature_c;rain_mm;potential_transpiration_mm\n0;15;1;2\n1;15;1;2\n", 2, "';'"),
+             (GOOD + ",,,\n,,,\n", 0, None),
+             ("Day,mean_air_temperature_c,rain_mm,potential_transpiration_mm\n0,15,1,2\n1,15,1,2\n", 2, "found: Day")]
+    for i, (text, expected, must_say) in enumerate(cases):
+        weather = _weather(tmp_path, text, name=f"w{i}.csv")
+        code = main(["capture", str(run), "--soil-water", str(SOIL), "--weather", str(weather),
+                     "--out", str(tmp_path / f"out{i}"), "--no-figures"])
+        assert code == expected, capsys.readouterr().err
+        if expected:
+            line = _one_error_line(capsys)
+            assert must_say in line and str(weather) in line and "allowed" in line
+        else:
+            capsys.readouterr()
+            assert len(pd.read_csv(tmp_path / f"out{i}" / "capture_daily.csv")) == 3

@@ -144,6 +144,11 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
     import pandas as pd
 
     frame = frame.rename(columns=lambda c: str(c).strip())
+    if len(frame.columns) == 1 and ";" in str(frame.columns[0]):
+        raise _fail(source, "columns", "values are separated by ';'", "comma-separated values (CSV)")
+    empty = frame.isna().all(axis=1).to_numpy()
+    if empty.size and empty[-1]:  # rows of empty cells a spreadsheet leaves at the end (",,,") are no days
+        frame = frame.iloc[: len(empty) - int(np.argmin(empty[::-1])) if not empty.all() else 0]
     if len(frame) == 0:
         raise _fail(source, "rows", "the table has no rows", "one row per day")
     if len(frame) > MAX_WEATHER_DAYS:
@@ -164,7 +169,9 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
                         "ISO dates such as 2031-05-04")
         day = ((dates - dates.iloc[0]).dt.days).to_numpy(dtype=np.int64)
     else:
-        raise _fail(source, "columns", "neither 'day' nor 'date' is present", "a 'day' or a 'date' column")
+        found = ", ".join(str(c) for c in frame.columns[:8])
+        raise _fail(source, "columns", f"neither 'day' nor 'date' is present (found: {found})",
+                    "a 'day' or a 'date' column, lower case")
     steps = np.diff(day)
     if steps.size and (steps != 1).any():
         backward = np.flatnonzero(steps <= 0)  # an unsorted or repeated day is named first: it also opens gaps
