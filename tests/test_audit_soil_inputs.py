@@ -153,3 +153,14 @@ def test_soil_help_gives_units_of_each_size():
     for action in soil._actions:
         if action.dest in ("voxel_cm", "depth_cm", "step_cm"):
             assert "cm" in action.help, action.dest
+
+
+def test_depth_table_with_trailing_empty_spreadsheet_rows_reads_its_rows(tmp_path):
+    # ",," rows at the end (as spreadsheets save them) stopped the run at "row 4: missing or non-numeric value".
+    from rootsim.soil.build import soil_fields_from_spec
+    from rootsim.spec import load_spec
+
+    (tmp_path / "water.csv").write_text("depth_cm,value\n0,0.20\n40,0.30\n,\n,\n")
+    fields = soil_fields_from_spec(load_spec(_spec(tmp_path, 'depth_table_file = "water.csv"')))
+    water = fields.values("volumetric_water_content", np.zeros(3), np.zeros(3), np.array([0.0, -10.0, -40.0]))
+    assert np.allclose(water, [0.20, 0.225, 0.30], atol=1e-12)   # linear between the two rows (by hand)

@@ -161,6 +161,9 @@ def read_depth_table(path: Path, field: str):
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise RootsimError(f"{path}: cannot read as CSV ({' '.join(str(exc).split())[:100]})") from None
     frame = frame.rename(columns=lambda c: str(c).strip())
+    empty = frame.isna().all(axis=1).to_numpy()
+    if empty.size and empty[-1]:  # rows of empty cells a spreadsheet leaves at the end (",,") are no depths
+        frame = frame.iloc[: len(empty) - int(np.argmin(empty[::-1])) if not empty.all() else 0]
     value_column = field if field in frame.columns else "value"
     if "depth_cm" not in frame.columns or value_column not in frame.columns:
         raise RootsimError(f"{path}: columns are {', '.join(frame.columns)} "
