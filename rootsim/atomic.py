@@ -10,7 +10,37 @@ from typing import Iterator
 
 from .errors import RootsimError
 
-__all__ = ["atomic_path", "atomic_paths", "atomic_write_text", "ensure_output_dir"]
+__all__ = ["atomic_path", "atomic_paths", "atomic_write_text", "check_output_location", "ensure_output_dir"]
+
+
+def check_output_location(target: str | os.PathLike, *, folder: bool = False) -> None:
+    """Raise a one-line :class:`RootsimError` now if ``target`` could not be written later; create nothing.
+
+    Lets a command refuse an output path before it spends time computing (and before it commits any other
+    output): a part of the path that exists but is a file, a folder given where a file is written (or a file
+    where a folder is), or a nearest existing folder that is not writable.
+
+    Parameters
+    ----------
+    target : path-like
+        A file to be written, or (``folder=True``) an output folder.
+    folder : bool, keyword-only
+        ``target`` is a folder.
+    """
+    target = Path(target)
+    if folder and target.exists() and not target.is_dir():
+        raise RootsimError(f"{target}: is a file, not a folder (allowed: a new or existing folder)")
+    if not folder and target.is_dir():
+        raise RootsimError(f"{target}: is a folder (allowed: a file name)")
+    start = target if folder else (target.parent if str(target.parent) else Path("."))
+    for part in (start, *start.parents):
+        if part.exists():
+            if not part.is_dir():
+                raise RootsimError(f"{part}: is a file, not a folder, so cannot write {target} "
+                                   "(allowed: a path through folders)")
+            if not os.access(part, os.W_OK | os.X_OK):
+                raise RootsimError(f"{part}: folder is not writable, so cannot write {target}")
+            return
 
 
 def ensure_output_dir(path: str | os.PathLike) -> Path:
@@ -19,6 +49,10 @@ def ensure_output_dir(path: str | os.PathLike) -> Path:
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
+        try:
+            check_output_location(out, folder=True)
+        except RootsimError as why:  # names the part of the path that is a file, if any
+            raise RootsimError(f"{out}: cannot create output directory ({why.cli_message()})") from None
         raise RootsimError(f"{out}: cannot create output directory ({exc.strerror or exc})") from None
     if not os.access(out, os.W_OK):
         raise RootsimError(f"{out}: output directory is not writable")
@@ -43,6 +77,7 @@ def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
         tmp_path = parent / temporary_name(target.name, "part" + target.suffix)
         fd = os.open(tmp_path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)  # usual permissions (umask applies)
     except OSError as exc:
+        check_output_location(target)  # names the part of the path that is a file, if any
         raise RootsimError(f"{target}: cannot write ({exc.strerror or exc})") from None
     os.close(fd)
     try:

@@ -38,7 +38,6 @@ from __future__ import annotations
 
 import math
 import os
-import tomllib
 from dataclasses import dataclass, fields
 from pathlib import Path
 
@@ -207,12 +206,24 @@ def soil_water_from_mapping(data: dict, *, source: str = "<soil>") -> SoilWaterS
 
 def read_soil_water_file(path: str | os.PathLike) -> SoilWaterSetup:
     """Read and validate a soil-water TOML file (one-line :class:`CaptureError` on any problem)."""
+    from ..errors import SpecError
+    from ..limits import MAX_TOML_BYTES
+    from ..toml_input import parse_toml_text
+
     path = Path(path)
     try:
+        size = path.stat().st_size
+        if size > MAX_TOML_BYTES:  # bounded like parameter files: size, nesting, key parts, number length
+            raise CaptureError(f"{path}: the file has {size:,} bytes (allowed: at most {MAX_TOML_BYTES:,} bytes)")
         with open(path, "rb") as handle:
-            data = tomllib.load(handle)
+            text = handle.read().decode("utf-8")
+        data = parse_toml_text(text, source=str(path))
     except FileNotFoundError:
         raise CaptureError(f"{path}: file not found") from None
-    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+    except IsADirectoryError:
+        raise CaptureError(f"{path}: is a folder (allowed: a soil-water TOML file)") from None
+    except (OSError, UnicodeDecodeError) as exc:
         raise CaptureError(f"{path}: cannot read as TOML ({' '.join(str(exc).split())[:120]})") from None
+    except SpecError as exc:
+        raise CaptureError(" ".join(exc.cli_message().split())[:300]) from None
     return soil_water_from_mapping(data, source=str(path))

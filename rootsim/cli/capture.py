@@ -16,7 +16,8 @@ Run a season of soil water (Richards equation, van Genuchten-Mualem horizons; a 
 under a field stand, a 3D voxel column with no-flow walls for a pot or rhizobox run) under a root system,
 with root water uptake distributed by the root length in each soil cell on each day (Feddes et al. 1978
 stress reduction) and, when the soil-water file has [evaporation], soil evaporation by FAO-56's two
-stages. Inputs: a soil-water TOML file and a daily weather CSV (day = days since sowing; rain_mm,
+stages. Inputs: a soil-water TOML file and a daily weather CSV (day = days since sowing;
+mean_air_temperature_c, or min_air_temperature_c and max_air_temperature_c, in every table; rain_mm,
 irrigation_mm, potential_transpiration_mm or reference_evapotranspiration_mm). Two ways to run:
 
   rootsim capture RESULT_DIR ...      one-way: under the grown roots of RESULT_DIR/segments.parquet
@@ -96,6 +97,27 @@ def _check_mode(args) -> None:
                                           ("--seed", args.seed), ("--overwrite", args.overwrite)) if value]
         if given:
             raise CaptureError(f"capture: {given[0]} applies only with --grow (allowed: --grow SPEC.toml)")
+    _check_sizes(args)
+
+
+def _check_sizes(args) -> None:
+    """Sizes in cm given on the command line: finite and > 0, before any work is done."""
+    import math
+
+    from ..capture.errors import CaptureError
+
+    for option, value in (("--container-cell-cm", args.container_cell_cm),
+                          ("--phosphorus-radius-cm", args.phosphorus_radius_cm),
+                          ("--phosphorus-voxel-cm", args.phosphorus_voxel_cm)):
+        if value is not None and not (math.isfinite(value) and value > 0):
+            raise CaptureError(f"capture: {option} {value:g} (allowed: a number of cm > 0)")
+    if args.phosphorus_voxel_cm is not None:
+        if args.phosphorus_radius_cm is None:
+            raise CaptureError("capture: --phosphorus-voxel-cm applies only with --phosphorus-radius-cm "
+                               "(allowed: --phosphorus-radius-cm R --phosphorus-voxel-cm V, V <= R, cm)")
+        if args.phosphorus_voxel_cm > args.phosphorus_radius_cm:
+            raise CaptureError(f"capture: --phosphorus-voxel-cm {args.phosphorus_voxel_cm:g} is larger than "
+                               f"--phosphorus-radius-cm {args.phosphorus_radius_cm:g} (allowed: V <= R, cm)")
 
 
 def _write_outputs(path_of, result, traits, setup, phosphorus, *, figures: bool) -> None:
@@ -126,11 +148,23 @@ def run(args: argparse.Namespace) -> int:
     _check_mode(args)
     if args.vtk is not None and Path(args.vtk).suffix.lower() != ".vti":
         raise CaptureError(f"--vtk {args.vtk}: the soil state is written as VTK image data (allowed: a .vti file)")
+    from ..atomic import check_output_location
+
+    if args.vtk is not None:
+        check_output_location(args.vtk)  # before any output is written or committed
+    if args.grow is None:
+        check_output_location(args.out if args.out is not None else args.dir, folder=True)
     setup = read_soil_water_file(args.soil_water)
     weather = read_weather_table(args.weather)
     if args.grow is not None:
         return _run_coupled(args, setup, weather)
     system = RootSystem.read(args.dir)
+    from ..analysis.inputs import ground_area_from_metadata, system_metadata
+
+    if ground_area_from_metadata(system_metadata(system)) is None:  # (the profile's message names options of
+        raise CaptureError(f"{args.dir}: no stand layout, so no ground area to turn root length per soil "  # analyze)
+                           "cell into uptake in mm (allowed: roots grown by 'rootsim grow', or a table whose "
+                           "metadata has stand.ground_area_cm2)")
     from ..capture.season3d import season_for_system
 
     result = season_for_system(system, setup, weather, cell_cm=args.container_cell_cm)

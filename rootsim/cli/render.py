@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 from ..errors import RootsimError
 
@@ -76,6 +77,15 @@ def run(args: argparse.Namespace) -> int:
         raise RootsimError(f"--png {args.png}: the file name must end in .png")
     if args.soil_spec is not None and args.soil_field is None:
         raise RootsimError("--soil-spec needs --soil-field NAME (the field to draw)")
+    if not (args.tube_scale > 0 and args.tube_scale < float("inf")):  # also refuses nan
+        raise RootsimError(f"--tube-scale {args.tube_scale:g}: tube scale not allowed (allowed: a number > 0; "
+                           "1 = the true radius)")
+    if args.soil_field is not None and args.view == "top":
+        raise RootsimError(f"--soil-field {args.soil_field} with --view top: the field is drawn as a vertical slice, "
+                           "which cannot be seen from the top (allowed views: side, iso)")
+    from ..atomic import check_output_location
+
+    check_output_location(args.png)  # before the table is read and the picture drawn
     with stage(f"reading {args.dir}"):
         system = RootSystem.read(args.dir)
     soil_fields = _soil_fields(args, system) if args.soil_field is not None else None
@@ -103,6 +113,9 @@ def _soil_fields(args: argparse.Namespace, system):
     if not spec_path:
         raise RootsimError(f"--soil-field {args.soil_field}: {args.dir} records no parameter file "
                            "(allowed: give one with --soil-spec SPEC.toml)")
+    if args.soil_spec is None and not Path(spec_path).is_file():
+        raise RootsimError(f"--soil-field {args.soil_field}: {args.dir} was grown from {spec_path}, not found from "
+                           "here (moved, or relative to another folder) (allowed: give it with --soil-spec SPEC.toml)")
     fields = soil_fields_from_spec(load_spec(spec_path))
     try:
         fields.index(args.soil_field)

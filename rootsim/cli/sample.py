@@ -172,6 +172,8 @@ def _requests(args):
                           args.detection_limit_cm)
     if args.core_replicates is not None and args.core_replicates < 1:
         raise SamplingError(f"--core-replicates must be >= 1, got {args.core_replicates}")
+    if args.seed is not None and args.seed < 0:
+        raise SamplingError(f"--seed {args.seed} (allowed: a whole number >= 0)")
     grid_cm = args.projection_grid_cm
     if grid_cm is not None and not grid_cm > 0:
         raise SamplingError(f"--projection-grid-cm must be > 0 cm, got {grid_cm:g}")
@@ -241,6 +243,9 @@ def _replicated(system, cores: list, replicates: int, seed) -> list:
     from ..sampling.columns import table_metadata
     from ..sampling.stand_positions import POSITION_KINDS, replicate_plants
 
+    if not any(core.placement in POSITION_KINDS for core in cores):  # it used to be ignored without a word
+        raise SamplingError(f"--core-replicates {replicates}: no core is placed relative to the stand (allowed: "
+                            "with --core-grid or cores at a position kind: " + ", ".join(POSITION_KINDS) + ")")
     meta = table_metadata(system)
     out, seen = [], set()
     for core in cores:

@@ -20,13 +20,17 @@ examples:
 """
 
 
+#: Most depths the printout shows (a page of numbers is for reading; use --vti for fine grids).
+MAX_PRINTED_DEPTHS = 10_000
+
+
 def register(parser) -> None:
     parser.add_argument("spec", metavar="SPEC", help="parameter file (.toml)")
     parser.add_argument("--vti", metavar="FILE.vti", help="write the soil fields as VTK image data")
-    parser.add_argument("--voxel-cm", type=float, default=2.0, metavar="V", help="grid spacing for --vti (default 2)")
-    parser.add_argument("--depth-cm", type=float, metavar="D", help="deepest depth shown and written (default: "
+    parser.add_argument("--voxel-cm", type=float, default=2.0, metavar="V", help="grid spacing for --vti, cm (default 2)")
+    parser.add_argument("--depth-cm", type=float, metavar="D", help="deepest depth shown and written, cm (default: "
                         "the container, else the deepest layer or biopore, at least 100)")
-    parser.add_argument("--step-cm", type=float, default=10.0, metavar="S", help="depth step of the printout")
+    parser.add_argument("--step-cm", type=float, default=10.0, metavar="S", help="depth step of the printout, cm")
 
 
 def run(args) -> int:
@@ -41,8 +45,16 @@ def run(args) -> int:
     for option, value in (("--depth-cm", args.depth_cm), ("--step-cm", args.step_cm), ("--voxel-cm", args.voxel_cm)):
         if value is not None and not (math.isfinite(value) and value > 0):  # also refuses nan and inf
             raise RootsimError(f"{option} {value:g}: not allowed (allowed: a finite number of cm > 0)")
+    from ..limits import MAX_EXTENT_CM
+
+    if args.depth_cm is not None and args.depth_cm > MAX_EXTENT_CM:
+        raise RootsimError(f"--depth-cm {args.depth_cm:g}: deeper than any soil (allowed: at most {MAX_EXTENT_CM:g} cm)")
     spec = load_spec(args.spec)
     bounds = soil_bounds_cm(spec, depth_cm=args.depth_cm)
+    rows = -bounds[4] / args.step_cm
+    if rows > MAX_PRINTED_DEPTHS:
+        raise RootsimError(f"--step-cm {args.step_cm:g} over {-bounds[4]:g} cm prints {rows:.3g} depths (allowed: at "
+                           f"most {MAX_PRINTED_DEPTHS:,}; a larger --step-cm or a smaller --depth-cm)")
     fields = soil_fields_from_spec(spec)
     biopores = biopores_from_spec(spec)
     if args.vti:

@@ -53,14 +53,15 @@ def register(parser) -> None:
     sen_p = sub.add_parser("sensitivity", help="global sensitivity (Morris or Sobol') of a trait",
                            description="Global sensitivity of traits to the factor ranges of a study file (SALib).")
     sen_p.add_argument("study", metavar="STUDY", help="study file whose factors have range = [low, high]")
-    sen_p.add_argument("--method", choices=("morris", "sobol"), default="morris")
+    sen_p.add_argument("--method", choices=("morris", "sobol"), default="morris",
+                       help="Morris elementary effects (screening) or Sobol' first and total indices")
     sen_p.add_argument("--trait", action="append", required=True, metavar="NAME", help="trait (column of runs.parquet)")
     sen_p.add_argument("--samples", type=int, default=8, metavar="N",
                        help="Morris trajectories, or Sobol' base samples (a power of 2) (default 8)")
     sen_p.add_argument("--out", required=True, metavar="DIR", help="folder for the runs and the results")
-    sen_p.add_argument("--workers", type=int, default=1, metavar="N")
-    sen_p.add_argument("--scheduler", metavar="ADDRESS")
-    sen_p.add_argument("--resume", action="store_true")
+    sen_p.add_argument("--workers", type=int, default=1, metavar="N", help="worker processes (default 1: serial)")
+    sen_p.add_argument("--scheduler", metavar="ADDRESS", help="run on an existing Dask scheduler (tcp://host:8786)")
+    sen_p.add_argument("--resume", action="store_true", help="finish an analysis started in --out")
     sen_p.set_defaults(handler=_sensitivity)
 
 

@@ -91,6 +91,12 @@ def polyline_arrays(system, *, deferred: bool = False, point_arrays=None) -> dic
         connector = None
     if connector is not None:
         makers["is_connector"] = (np.uint8, gathered("is_connector", np.uint8))
+    columns = getattr(system, "columns", None)
+    columns = set(columns) if columns is not None else set(system.keys()) if hasattr(system, "keys") else set()
+    if "in_biopore" in columns:  # grown in a soil with biopores: 1 where the segment lies in a pore
+        makers["in_biopore"] = (np.uint8, gathered("in_biopore", np.uint8))
+    if "death_day" in columns:  # kept dead roots: the day the root died (+inf while alive)
+        makers["death_day"] = (np.float64, gathered("death_day", np.float64))
     if point_arrays is not None:
         wanted = set(point_arrays)
         makers = {name: maker for name, maker in makers.items() if name in wanted}

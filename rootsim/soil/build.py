@@ -54,23 +54,34 @@ def _check_range(values: np.ndarray, name: str, key: str, what: str) -> None:
         raise _Problem(key, f"{what} holds {shown:g}, outside the range of {name}", f"{low:g} to {high:g}")
 
 
-def read_grid_file(path: Path, *, array: str | None = None):
+def read_grid_file(path: Path, *, array: str | None = None, field: str | None = None):
     """Read a grid file: ``.npy`` -> (values, None) or ``.vti`` -> (values [x, y, z], (origin, spacing, at)).
+
+    A ``.vti`` holding several arrays gives the one named ``array``, else the one named ``field`` (the soil
+    field being read, as ``rootsim soil --vti`` names them); with several arrays and neither, it is an error.
 
     Raises
     ------
     RootsimError
-        Missing or unreadable file, not 3D, NaN or infinite values, too large.
+        Missing or unreadable file, a folder, not 3D or empty, NaN or infinite values, too large, an ambiguous
+        ``.vti``.
     """
+    if path.is_dir():
+        raise RootsimError(f"{path}: is a folder (allowed: a .npy or .vti grid file)")
     if not path.is_file():
         raise RootsimError(f"{path}: file not found")
     if path.suffix.lower() == ".npy":
+        with open(path, "rb") as handle:
+            magic = handle.read(6)
+        if magic != b"\x93NUMPY":
+            raise RootsimError(f"{path}: not a .npy array file (allowed: a 3D array saved by numpy.save)")
         try:
             values = np.load(path, allow_pickle=False, mmap_mode="r")
         except (OSError, ValueError) as exc:
             raise RootsimError(f"{path}: cannot read as .npy ({' '.join(str(exc).split())[:100]})") from None
-        if values.ndim != 3:
-            raise RootsimError(f"{path}: grid has shape {values.shape} (allowed: a 3D array, axes x, y, depth)")
+        if values.ndim != 3 or 0 in values.shape:
+            raise RootsimError(f"{path}: grid has shape {values.shape} (allowed: a 3D array, axes x, y, depth, "
+                               "at least one value along each)")
         if values.size > MAX_GRID_VALUES:
             raise RootsimError(f"{path}: grid has {values.size:,} values (allowed: at most {MAX_GRID_VALUES:,})")
         if not np.issubdtype(values.dtype, np.number) or np.issubdtype(values.dtype, np.complexfloating):
@@ -78,7 +89,7 @@ def read_grid_file(path: Path, *, array: str | None = None):
         values = np.asarray(values, dtype=np.float64)
         _check_finite(values, path)
         return values, None
-    return _read_vti(path, array)
+    return _read_vti(path, array, field)
 
 
 def _check_finite(values: np.ndarray, path) -> None:
@@ -89,7 +100,7 @@ def _check_finite(values: np.ndarray, path) -> None:
                            "(allowed: finite numbers everywhere)")
 
 
-def _read_vti(path: Path, array: str | None):
+def _read_vti(path: Path, array: str | None, field: str | None = None):
     import vtk
     from vtk.util.numpy_support import vtk_to_numpy
 
@@ -101,6 +112,13 @@ def _read_vti(path: Path, array: str | None):
     image = reader.GetOutput()
     dims = image.GetDimensions()
     found = None
+    names = [data.GetArrayName(i) for data in (image.GetPointData(), image.GetCellData())
+             for i in range(data.GetNumberOfArrays())]
+    if array is None and len(names) > 1:
+        if field not in names:
+            raise RootsimError(f"{path}: holds {len(names)} arrays ({', '.join(repr(n) for n in names)}) and "
+                               f"none is named {field!r} (allowed: name one with grid.array = \"NAME\")")
+        array = field
     for data, at in ((image.GetPointData(), "nodes"), (image.GetCellData(), "cells")):
         for i in range(data.GetNumberOfArrays()):
             name = data.GetArrayName(i)
@@ -134,6 +152,8 @@ def read_depth_table(path: Path, field: str):
     """
     import pandas as pd
 
+    if path.is_dir():
+        raise RootsimError(f"{path}: is a folder (allowed: a CSV file with columns depth_cm and value)")
     if not path.is_file():
         raise RootsimError(f"{path}: file not found")
     try:
@@ -141,6 +161,9 @@ def read_depth_table(path: Path, field: str):
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise RootsimError(f"{path}: cannot read as CSV ({' '.join(str(exc).split())[:100]})") from None
     frame = frame.rename(columns=lambda c: str(c).strip())
+    empty = frame.isna().all(axis=1).to_numpy()
+    if empty.size and empty[-1]:  # rows of empty cells a spreadsheet leaves at the end (",,") are no depths
+        frame = frame.iloc[: len(empty) - int(np.argmin(empty[::-1])) if not empty.all() else 0]
     value_column = field if field in frame.columns else "value"
     if "depth_cm" not in frame.columns or value_column not in frame.columns:
         raise RootsimError(f"{path}: columns are {', '.join(frame.columns)} "
@@ -153,6 +176,10 @@ def read_depth_table(path: Path, field: str):
     if bad.any():
         raise RootsimError(f"{path}: row {int(np.flatnonzero(bad)[0]) + 2}: missing or non-numeric value "
                            "(allowed: numbers in every row)")
+    if depth.min() < 0:
+        row = int(np.flatnonzero(depth < 0)[0]) + 2
+        raise RootsimError(f"{path}: row {row}: depth_cm {depth[row - 2]:g} is negative (allowed: depths >= 0 cm "
+                           "below the surface, strictly increasing)")
     if np.any(np.diff(depth) <= 0) or depth[0] < 0:
         row = int(np.flatnonzero(np.diff(depth) <= 0)[0]) + 3 if np.any(np.diff(depth) <= 0) else 2
         raise RootsimError(f"{path}: row {row}: depth_cm not increasing (allowed: depths >= 0, strictly increasing)")
@@ -162,7 +189,7 @@ def read_depth_table(path: Path, field: str):
 def _grid_source_from_spec(spec, name: str, grid, key: str):
     path = _resolve(spec, grid.file)
     try:
-        values, header = read_grid_file(path, array=grid.array)
+        values, header = read_grid_file(path, array=grid.array, field=name)
     except RootsimError as exc:
         raise _Problem(f"{key}.file", exc.cli_message()) from None
     _check_range(values, name, f"{key}.file", str(path))

@@ -119,6 +119,13 @@ def _fail(source: str, where: str, problem: str, allowed: str) -> WeatherError:
     return WeatherError(f"{source}: {where}: {problem} (allowed: {allowed})")
 
 
+def _shown(value) -> str:
+    """A cell of the table as the user wrote it: plain numbers and text, not numpy reprs."""
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        return f"{float(value):g}"
+    return repr(str(value))
+
+
 def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
     """Validate a :class:`pandas.DataFrame` in the weather layout and return a :class:`WeatherTable`.
 
@@ -137,6 +144,11 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
     import pandas as pd
 
     frame = frame.rename(columns=lambda c: str(c).strip())
+    if len(frame.columns) == 1 and ";" in str(frame.columns[0]):
+        raise _fail(source, "columns", "values are separated by ';'", "comma-separated values (CSV)")
+    empty = frame.isna().all(axis=1).to_numpy()
+    if empty.size and empty[-1]:  # rows of empty cells a spreadsheet leaves at the end (",,,") are no days
+        frame = frame.iloc[: len(empty) - int(np.argmin(empty[::-1])) if not empty.all() else 0]
     if len(frame) == 0:
         raise _fail(source, "rows", "the table has no rows", "one row per day")
     if len(frame) > MAX_WEATHER_DAYS:
@@ -146,21 +158,24 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
         bad = ~np.isfinite(raw) | (raw != np.round(raw)) | (np.abs(raw) > 1e9)
         if bad.any():
             row = int(np.flatnonzero(bad)[0])
-            raise _fail(source, f"row {row + 2}, column day", f"{frame['day'].iloc[row]!r} is not a whole day",
+            raise _fail(source, f"row {row + 2}, column day", f"{_shown(frame['day'].iloc[row])} is not a whole day",
                         "integer days since sowing")
         day = raw.astype(np.int64)
     elif "date" in frame.columns:
         dates = pd.to_datetime(frame["date"], errors="coerce", format="ISO8601")
         if dates.isna().any():
             row = int(np.flatnonzero(dates.isna().to_numpy())[0])
-            raise _fail(source, f"row {row + 2}, column date", f"{frame['date'].iloc[row]!r} is not a date",
+            raise _fail(source, f"row {row + 2}, column date", f"{_shown(frame['date'].iloc[row])} is not a date",
                         "ISO dates such as 2031-05-04")
         day = ((dates - dates.iloc[0]).dt.days).to_numpy(dtype=np.int64)
     else:
-        raise _fail(source, "columns", "neither 'day' nor 'date' is present", "a 'day' or a 'date' column")
+        found = ", ".join(str(c) for c in frame.columns[:8])
+        raise _fail(source, "columns", f"neither 'day' nor 'date' is present (found: {found})",
+                    "a 'day' or a 'date' column, lower case")
     steps = np.diff(day)
     if steps.size and (steps != 1).any():
-        row = int(np.flatnonzero(steps != 1)[0]) + 1
+        backward = np.flatnonzero(steps <= 0)  # an unsorted or repeated day is named first: it also opens gaps
+        row = int(backward[0] if backward.size else np.flatnonzero(steps != 1)[0]) + 1
         if steps[row - 1] <= 0:
             problem = f"day {day[row]} follows day {day[row - 1]} (unsorted or repeated)"
         else:
@@ -176,7 +191,7 @@ def weather_table_from_frame(frame, *, source: str = "<table>") -> WeatherTable:
         bad |= (values < low) | (values > high)
         if bad.any():
             row = int(np.flatnonzero(bad)[0])
-            raise _fail(source, f"row {row + 2}, column {name}", f"{frame[name].iloc[row]!r} is missing or out of range",
+            raise _fail(source, f"row {row + 2}, column {name}", f"{_shown(frame[name].iloc[row])} is missing or out of range",
                         f"numbers from {low:g} to {high:g}")
         columns[name] = values
     if "mean_air_temperature_c" not in columns:
@@ -207,6 +222,8 @@ def read_weather_table(path: str | os.PathLike) -> WeatherTable:
 
     path = Path(path)
     source = str(path)
+    if path.is_dir():
+        raise WeatherError(f"{source}: is a folder (allowed: a daily weather CSV file)")
     try:
         if path.stat().st_size > 50_000_000:
             raise _fail(source, "file", "larger than 50 MB", "a daily table")

@@ -90,6 +90,8 @@ def load_study_capture(capture, root: Path, source: str) -> StudyCapture:
         name = getattr(capture, key)
         path = root / name
         where = f"measure.capture.{key}"
+        if path.is_dir():
+            raise SpecError(source, where, f"{name!r} is a folder", "a file, its path relative to the study file")
         if not path.is_file():
             raise SpecError(source, where, f"file {name!r} does not exist",
                             "a path relative to the study file")
