@@ -124,11 +124,11 @@ class _VoxelColumn:
     """The 3D voxel column of a pot or rhizobox: each day's new segments cut at the voxel planes, grid fields."""
 
     def __init__(self, setup: SoilWaterSetup, weather, *, grid, days: np.ndarray, kind: str, supply_share=None):
-        from .season3d import VoxelWaterSeason, _active_index, voxel_node_layout
+        from .season3d import VoxelWaterSeason, _nearest_soil_cell, voxel_node_layout
 
         self.grid, self.kind = grid, kind
         self.season = VoxelWaterSeason(setup, weather, grid=grid, days=days, supply_share=supply_share)
-        self.index = _active_index(grid)
+        self.index = _nearest_soil_cell(grid)
         self.gather, self.origin, self.spacing = voxel_node_layout(grid)
         self.length_per_voxel = np.zeros(grid.n_active)
         self.daily_length = []
@@ -201,7 +201,7 @@ def _segments_since(out, first_row: int):
 
 def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = True, last_day: int | None = None,
                        progress: bool | None = None, container_cell_cm: float | None = None,
-                       supply_share=None) -> dict:
+                       supply_share=None, column: str = "auto") -> dict:
     """Grow ``spec``'s stand and run the soil-water season together, day by day (module docstring).
 
     Parameters
@@ -226,6 +226,9 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     supply_share : callable, optional
         Pot or rhizobox: ``supply_share(x_cm, y_cm)`` shares each day's rain and irrigation over the surface
         (:func:`rootsim.capture.season3d.surface_supply_weights`); default: evenly.
+    column : {"auto", "layers"}, keyword-only
+        ``"auto"``: the 3D voxel column in a pot or rhizobox, else the 1D layered column; ``"layers"``: the 1D
+        column whatever the container (over the container's area; to compare the two).
 
     Returns
     -------
@@ -256,23 +259,26 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         from ..soil.thermal import cumulative_effective_days, on_calendar, thermal_run, weather_table_for_spec
 
         spec, clock = thermal_run(calendar_spec, weather_table_for_spec(calendar_spec))
+    if column not in ("auto", "layers"):
+        raise CaptureError(f"soil column {column!r} (allowed: auto, layers)")
     kind = calendar_spec.container.kind
-    if kind in ("pot", "rhizobox"):
+    voxels = column == "auto" and kind in ("pot", "rhizobox")
+    if voxels:
         from .season3d import voxel_grid_for
 
         grid = voxel_grid_for(setup, calendar_spec.container, cell_cm=container_cell_cm)
-        column = _VoxelColumn(setup, weather, grid=grid, days=days, kind=kind, supply_share=supply_share)
-        replace = column.initial_sources() if couple else None
+        water = _VoxelColumn(setup, weather, grid=grid, days=days, kind=kind, supply_share=supply_share)
+        replace = water.initial_sources() if couple else None
     else:
         if supply_share is not None:
-            raise CaptureError("supply share: the surface can be watered unevenly only in a pot or rhizobox "
-                               f"(the spec's container is {kind!r}; allowed: no supply share for a field)")
+            raise CaptureError("supply share: the surface can be watered unevenly only in the 3D column of a pot "
+                               f"or rhizobox (container {kind!r}, column {column!r}; allowed: no supply share)")
         replace = _LayeredColumn.initial_sources(setup) if couple else None
     inputs = growth_inputs(spec, replace_fields=replace)
-    if kind not in ("pot", "rhizobox"):
-        column = _LayeredColumn(setup, weather, area=_ground_area(inputs), days=days)
+    if not voxels:
+        water = _LayeredColumn(setup, weather, area=_ground_area(inputs), days=days)
     if couple and inputs.fields.names:
-        column.bind(inputs.fields)
+        water.bind(inputs.fields)
     duration = float(calendar_spec.run.duration_days)  # calendar days
     budget = int(spec.run.max_segments)
     checkpoints = np.asarray([d for d in days if d <= duration + 1e-9], dtype=np.float64)
@@ -280,7 +286,7 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         checkpoints = clock["unit"] * cumulative_effective_days(clock["daily"], checkpoints)
     stops = [np.zeros(3) for _ in range(inputs.n_plants)]
     plants_running = [plant_steps(inputs, k, segment_limit=budget, root_limit=budget, stop_out=stops[k],
-                                  checkpoint_days=checkpoints, **column.step_arguments())
+                                  checkpoint_days=checkpoints, **water.step_arguments())
                       for k in range(inputs.n_plants)]
     finished: list = [None] * inputs.n_plants
     segments_now = np.zeros(inputs.n_plants, dtype=np.int64)
@@ -289,7 +295,7 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         """Plant ``k`` to its next checkpoint, or to the end."""
         out = next(plants_running[k], None)
         if out is not None:
-            column.collect(out, int(segments_now[k]))
+            water.collect(out, int(segments_now[k]))
             segments_now[k] = out[4]
             if out[8] == STATUS_CHECKPOINT:
                 return
@@ -310,12 +316,12 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
                 for k in range(inputs.n_plants):  # growth ended before this day: finish it
                     while plants_running[k] is not None:
                         advance(k, duration)
-            column.advance_day(j)
+            water.advance_day(j)
             bar.update(1)
     for k in range(inputs.n_plants):  # the rest of the run after the last day of the season
         while plants_running[k] is not None:
             advance(k, duration)
-    result = column.result()
+    result = water.result()
     system = root_system(inputs, finished)
     result["system"] = system if clock is None else on_calendar(system, calendar_spec, clock)
     result["traits"].update({"coupled": bool(couple), "growth_days": duration})

@@ -40,18 +40,38 @@ def _active_index(grid: VoxelGrid) -> np.ndarray:
     return index
 
 
+def _nearest_soil_cell(grid: VoxelGrid) -> np.ndarray:
+    """Active index of every box cell, a cell outside the soil (a corner of a pot's box) taking that of the nearest
+    soil cell of its layer (Euclidean distance transform, :func:`scipy.ndimage.distance_transform_edt`),
+    shape ``grid.shape``."""
+    from scipy.ndimage import distance_transform_edt
+
+    index = _active_index(grid)
+    near_i, near_j = distance_transform_edt(~grid.active[:, :, 0], return_distances=False, return_indices=True)
+    return index[near_i, near_j, :]
+
+
 def _pieces_on_grid(p0: np.ndarray, p1: np.ndarray, length: np.ndarray, grid: VoxelGrid, index: np.ndarray):
     """Segments cut exactly at the voxel planes: (segment of each piece, active cell, piece length in cm) of the
-    pieces inside active cells (:func:`rootsim.analysis.voxels.grid_crossing_pieces`)."""
+    pieces inside the box (:func:`rootsim.analysis.voxels.grid_crossing_pieces`); a piece on the box's far
+    planes (a root sliding along a wall, or on the bottom) belongs to the cell inside, and ``index`` maps box
+    cells to active cells (-1: not counted)."""
     n = len(length)
     dx, dy, dz = grid.cell_cm
     origin = np.array([grid.origin_cm[0], grid.origin_cm[1], 0.0])
     owner, t0, t1 = grid_crossing_pieces(p0, p1, np.zeros(n), np.ones(n), origin, np.array([dx, dy, dz]))
     mid = p0[owner] + (0.5 * (t0 + t1))[:, None] * (p1[owner] - p0[owner])
-    i = np.floor((mid[:, 0] - origin[0]) / dx).astype(np.int64)
-    j = np.floor((mid[:, 1] - origin[1]) / dy).astype(np.int64)
-    k = np.floor(-mid[:, 2] / dz).astype(np.int64)
     nx, ny, nz = grid.shape
+    tolerance = 1e-9
+    u = (mid[:, 0] - origin[0]) / dx
+    v = (mid[:, 1] - origin[1]) / dy
+    w = -mid[:, 2] / dz
+    i = np.floor(u).astype(np.int64)
+    j = np.floor(v).astype(np.int64)
+    k = np.floor(w).astype(np.int64)
+    i[(i == nx) & (u <= nx + tolerance)] = nx - 1  # on the far wall: the cell inside
+    j[(j == ny) & (v <= ny + tolerance)] = ny - 1
+    k[(k == nz) & (w <= nz + tolerance)] = nz - 1
     inside = (i >= 0) & (i < nx) & (j >= 0) & (j < ny) & (k >= 0) & (k < nz)
     cell = np.full(owner.size, -1, dtype=np.int64)
     cell[inside] = index[i[inside], j[inside], k[inside]]
@@ -71,11 +91,12 @@ def voxel_root_length(p0: np.ndarray, p1: np.ndarray, length: np.ndarray, grid: 
         Segment lengths, cm.
     grid : VoxelGrid
     index : ndarray, optional
-        The grid's active index per box cell (computed when not given).
+        Active index per box cell (default: :func:`_nearest_soil_cell`, so that a piece in a box cell outside the
+        soil, next to a pot's round wall, counts in the nearest soil voxel of its layer).
 
-    Pieces outside the active cells (outside the container's soil) are not counted.
+    Pieces outside the box are not counted.
     """
-    index = _active_index(grid) if index is None else index
+    index = _nearest_soil_cell(grid) if index is None else index
     _owner, cell, piece = _pieces_on_grid(np.asarray(p0, dtype=np.float64).reshape(-1, 3),
                                           np.asarray(p1, dtype=np.float64).reshape(-1, 3),
                                           np.asarray(length, dtype=np.float64), grid, index)
@@ -87,13 +108,14 @@ def root_length_by_day_on_grid(system, grid: VoxelGrid, *, first_day: int, n_day
 
     Row j holds the segments with ``birth_day <= first_day + j`` and, with a ``death_day`` column,
     ``death_day > first_day + j`` (as :func:`rootsim.capture.uptake.root_length_by_day`), cut exactly at the
-    voxel planes; pieces outside the active cells are not counted.
+    voxel planes (:func:`voxel_root_length`: a piece next to a pot's round wall counts in the nearest soil voxel
+    of its layer, one on a wall or the bottom in the cell inside); pieces outside the box are not counted.
     """
     p0 = np.column_stack([float_column(system, c) for c in ("x0", "y0", "z0")])
     p1 = np.column_stack([float_column(system, c) for c in ("x1", "y1", "z1")])
     length = float_column(system, "length_cm")
     birth = float_column(system, "birth_day")
-    owner, cell, piece = _pieces_on_grid(p0, p1, length, grid, _active_index(grid))
+    owner, cell, piece = _pieces_on_grid(p0, p1, length, grid, _nearest_soil_cell(grid))
     n_active = grid.n_active
 
     def grouped(day):
@@ -126,15 +148,9 @@ def voxel_node_layout(grid: VoxelGrid) -> tuple[np.ndarray, tuple, tuple]:
     origin_cm, spacing_cm : 3-tuples of float
         Position of node (0, 0, 0) (the deepest voxel centre at the low x, y corner) and the node spacing, cm.
     """
-    from scipy.ndimage import distance_transform_edt
-
-    index = _active_index(grid)
     nx, ny, nz = grid.shape
     dx, dy, dz = grid.cell_cm
-    soil = grid.active[:, :, 0]
-    near_i, near_j = distance_transform_edt(~soil, return_distances=False, return_indices=True)
-    filled = index[near_i, near_j, :]
-    gather = np.ascontiguousarray(filled[:, :, ::-1])
+    gather = np.ascontiguousarray(_nearest_soil_cell(grid)[:, :, ::-1])
     origin = (grid.origin_cm[0] + 0.5 * dx, grid.origin_cm[1] + 0.5 * dy, -(nz - 0.5) * dz)
     return gather, origin, (float(dx), float(dy), float(dz))
 
