@@ -239,7 +239,8 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         ``"3d_voxels_rhizobox"``). A pot or rhizobox adds ``grid`` (the
         :class:`~rootsim.capture.richards3d.VoxelGrid`), ``voxel_root_length_cm`` (shape (n_days, n_active): the
         root length in each soil voxel each day), ``voxel_water_content`` and ``voxel_pressure_head_cm`` (shape
-        (n_active,), at the end of the season).
+        (n_active,), at the end of the season). ``soil_fields``: the compiled
+        :class:`~rootsim.soil.fields.SoilFields` the roots read (coupled: holding the last day's water).
 
     Raises
     ------
@@ -325,4 +326,5 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     system = root_system(inputs, finished)
     result["system"] = system if clock is None else on_calendar(system, calendar_spec, clock)
     result["traits"].update({"coupled": bool(couple), "growth_days": duration})
+    result["soil_fields"] = inputs.fields
     return result
