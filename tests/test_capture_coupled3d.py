@@ -234,7 +234,7 @@ def test_uncoupled_pot_grows_grow_bytes_and_runs_the_one_way_voxel_season():
 def test_a_pot_side_kept_wet_grows_more_roots_there_through_hydrotropism(pot_wet_plus_x):
     # Irrigation on one half of the pot only: the watered half stays wetter, the water gradient points to it and
     # roots turning toward wetter soil (field_tropism) put most of their length there. The same seed watered on
-    # the other half mirrors it. Measured over seeds 1-10, both halves: the wet half holds 72-80 % of the length.
+    # the other half mirrors it. Measured over seeds 1-10, both halves: the wet half holds 73-81 % of the length.
     def half_share(result):
         system = result["system"]
         x = 0.5 * (np.asarray(system["x0"]) + np.asarray(system["x1"]))
