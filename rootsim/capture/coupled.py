@@ -49,6 +49,8 @@ __all__ = ["run_coupled_season", "COUPLED_FIELDS", "KPA_PER_CM_OF_WATER"]
 
 #: Soil fields a coupled run takes from the soil-water column.
 COUPLED_FIELDS = ("volumetric_water_content", "matric_potential_kpa")
+#: Most values (days x soil voxels) of the per-voxel root length kept for every day of a 3D coupled season.
+_MAX_VOXEL_HISTORY_VALUES = 20_000_000
 #: 1 cm of water head in kPa (rho_w g = 1000 kg/m3 x 9.80665 m/s2 x 0.01 m; common practice).
 KPA_PER_CM_OF_WATER = 0.0980665
 
@@ -131,6 +133,7 @@ class _VoxelColumn:
         self.index = _nearest_soil_cell(grid)
         self.gather, self.origin, self.spacing = voxel_node_layout(grid)
         self.length_per_voxel = np.zeros(grid.n_active)
+        self.keep_days = days.size * grid.n_active <= _MAX_VOXEL_HISTORY_VALUES
         self.daily_length = []
         self.views = {}
 
@@ -159,19 +162,22 @@ class _VoxelColumn:
             self.length_per_voxel += voxel_root_length(p0, p1, length, self.grid, index=self.index)
 
     def advance_day(self, j: int) -> None:
-        self.daily_length.append(self.length_per_voxel.copy())
-        self.season.advance_day(j, self.daily_length[-1])
+        today = self.length_per_voxel.copy()
+        if self.keep_days:
+            self.daily_length.append(today)
+        self.season.advance_day(j, today)
         if "volumetric_water_content" in self.views:
             self.views["volumetric_water_content"][...] = self.season.water_content[self.gather]
         if "matric_potential_kpa" in self.views:
             self.views["matric_potential_kpa"][...] = (KPA_PER_CM_OF_WATER * self.season.head)[self.gather]
 
     def result(self) -> dict:
-        n_active = self.grid.n_active
-        return {**self.season.result(), "column": f"3d_voxels_{self.kind}",
-                "voxel_root_length_cm": np.asarray(self.daily_length).reshape(-1, n_active),
-                "voxel_water_content": self.season.water_content,
-                "voxel_pressure_head_cm": self.season.head.copy()}
+        out = {**self.season.result(), "column": f"3d_voxels_{self.kind}",
+               "voxel_water_content": self.season.water_content,
+               "voxel_pressure_head_cm": self.season.head.copy()}
+        if self.keep_days:
+            out["voxel_root_length_cm"] = np.asarray(self.daily_length).reshape(-1, self.grid.n_active)
+        return out
 
 
 def _segments_since(out, first_row: int):
@@ -237,10 +243,11 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
         ``daily``, ``layers``, ``traits`` (as :func:`rootsim.capture.run_water_season`; ``traits`` add
         ``coupled`` and ``growth_days``) and ``column`` (``"1d_layers"``, ``"3d_voxels_pot"`` or
         ``"3d_voxels_rhizobox"``). A pot or rhizobox adds ``grid`` (the
-        :class:`~rootsim.capture.richards3d.VoxelGrid`), ``voxel_root_length_cm`` (shape (n_days, n_active): the
-        root length in each soil voxel each day), ``voxel_water_content`` and ``voxel_pressure_head_cm`` (shape
-        (n_active,), at the end of the season). ``soil_fields``: the compiled
-        :class:`~rootsim.soil.fields.SoilFields` the roots read (coupled: holding the last day's water).
+        :class:`~rootsim.capture.richards3d.VoxelGrid`), ``voxel_water_content`` and ``voxel_pressure_head_cm``
+        (shape (n_active,), at the end of the season) and, when days x voxels are at most 20 million,
+        ``voxel_root_length_cm`` (shape (n_days, n_active): the root length in each soil voxel each day).
+        ``soil_fields``: the compiled :class:`~rootsim.soil.fields.SoilFields` the roots read (coupled: holding
+        the last day's water).
 
     Raises
     ------

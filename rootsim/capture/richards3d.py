@@ -13,7 +13,8 @@ no flow (container walls). Per active cell, volume V = dx dy dz::
 
 with the interface conductivity K_f the arithmetic mean of the two cells (as in 1D). Each Picard iteration is one
 sparse linear solve (``scipy.sparse``, SuperLU). Top: rain and irrigation enter every active surface cell as a flux
-(cm/day over its top face, the same everywhere or given per surface cell; ponding is not modelled in 3D: the supply should not exceed what the surface takes).
+(cm/day over its top face, the same everywhere or given per surface cell; ponding is not modelled in
+3D: the supply should not exceed what the surface takes).
 Bottom: ``free_drainage`` (unit gradient, Q = K(h) A_z out of every active bottom cell; a pot with drainage holes)
 or ``no_flow`` (a closed container). With one column of cells (or a laterally uniform state) the scheme is the
 1D scheme cell for cell, which the tests check.

@@ -303,7 +303,7 @@ class VoxelWaterSeason:
         self.root_rows.append(self._per_layer(root_length))
 
     def result(self) -> dict:
-        """``daily``, ``layers``, ``traits`` and ``grid`` of the days run so far (see :func:`run_voxel_water_season`)."""
+        """``daily``, ``layers``, ``traits`` and ``grid`` of the days run so far (:func:`run_voxel_water_season`)."""
         n_days, n_layers, setup, area = len(self.rows), self.n_layers, self.setup, self.area
         days = self.days[:n_days]
         daily = pd.DataFrame(self.rows, columns=["day", "rain_mm", "irrigation_mm", "potential_transpiration_mm",
