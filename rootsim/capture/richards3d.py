@@ -172,6 +172,8 @@ class VoxelStep:
     face_flow_cm3_per_day: np.ndarray | None = None
     #: Water leaving each bottom cell across the bottom, cm³/day (None if not converged).
     bottom_flow_cm3_per_day: np.ndarray | None = None
+    #: The sink applied in the step, cm³ water / cm³ soil / day (None if not converged).
+    sink_per_day: np.ndarray | None = None
 
 
 def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, soil, supply_cm_per_day: float,
@@ -255,7 +257,7 @@ def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, so
         net_in[bottom_cells] -= drain
         balance = (theta_new - theta_old) * storage - net_in + sink_per_day * volume
         if change < head_tolerance_cm and float(np.abs(balance).max()) * dt_days / top_area < water_tolerance_cm:
-            return VoxelStep(h, theta_new, infiltration, float(drain.sum()), it, True, flow, drain)
+            return VoxelStep(h, theta_new, infiltration, float(drain.sum()), it, True, flow, drain, sink_per_day)
     return VoxelStep(head_cm, theta_old, 0.0, 0.0, max_iterations, False)
 
 

@@ -9,6 +9,8 @@ of each voxel's share of the demand (potential transpiration per unit surface x 
 length, as in 1D), so roots on one side of a pot dry that side. Outputs have the 1D season's form: a daily table
 (mm over the container's surface), a layers table (per depth layer: mean water content and head, uptake and root
 length summed over the layer) and the same traits, so figures, the soil-state VTK and studies read them alike.
+With ``[evaporation]`` in the soil-water file the top voxels evaporate by FAO-56's two stages as the 1D column's
+top cells do (the same demand per unit surface, spread over the evaporating layer of every soil column of voxels).
 Nitrate moves in lockstep with the water (:func:`rootsim.capture.nitrate3d.voxel_nitrate_step` on each accepted
 step's face and bottom flows; fertilizer enters the surface cells at the start of its day, as in 1D), filling the
 1D season's daily nitrate columns (kg N/ha over the container's surface) and per-layer nitrate columns.
@@ -25,7 +27,9 @@ from .errors import CaptureError
 from .nitrate import KG_PER_HA_TO_MG_PER_CM2
 from .nitrate3d import voxel_nitrate_step
 from .richards3d import VoxelGrid, _faces, advance_voxel_water, container_grid, soil_on_grid
-from .season import add_nitrate_columns, capture_traits, potential_transpiration_mm, season_days
+from .evaporation import depletion_after_day, evaporation_weights
+from .season import (add_nitrate_columns, capture_traits, evaporation_demand_cm, potential_transpiration_mm,
+                     reference_evapotranspiration_for_evaporation_mm, season_days)
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
@@ -235,6 +239,18 @@ class VoxelWaterSeason:
         self.initial_mass = float(self.mass.sum())
         self.rows, self.theta_rows, self.head_rows, self.uptake_rows, self.root_rows = [], [], [], [], []
         self.nitrate_rows, self.nitrate_cells, self.nitrate_uptake_cells = [], [], []
+        self.evaporation = setup.evaporation
+        if self.evaporation is not None:  # FAO-56 two-stage soil evaporation from the top voxels, as in 1D
+            self.reference = reference_evapotranspiration_for_evaporation_mm(weather, setup)[:n_days]
+            self.cover = (weather.column("crop_cover_fraction")[:n_days] if weather.has("crop_cover_fraction")
+                          else np.full(n_days, self.evaporation.crop_cover_fraction))
+            if not (np.all(self.cover >= 0.0) and np.all(self.cover < 1.0)):
+                raise CaptureError(f"{weather.source}: crop_cover_fraction: a value outside [0, 1) "
+                                   "(allowed: 0 <= fraction < 1)")
+            self.depletion = self.evaporation.initial_depletion_mm
+            self.weights = evaporation_weights(cell_cm=setup.cell_cm, n_cells=self.n_layers,
+                                               layer_cm=self.evaporation.evaporating_layer_cm)[self.layer]
+            self.evaporation_rows = []
 
     def _per_layer(self, values):
         return np.bincount(self.layer, weights=values, minlength=self.n_layers)
@@ -259,6 +275,22 @@ class VoxelWaterSeason:
             cap = feddes.max_uptake_cm3_per_cm_root_per_day
             return out if cap is None else np.minimum(out, cap * root_length / volume)
 
+        evaporating = self.evaporation is not None
+        if evaporating:
+            reduction, demand_cm = evaporation_demand_cm(self.evaporation, self.depletion,
+                                                         crop_coefficient=self.setup.crop_coefficient,
+                                                         cover_fraction=float(self.cover[d]),
+                                                         reference_mm=float(self.reference[d]))
+            evaporation_sink = demand_cm * self.weights / grid.cell_cm[2]
+            requested = {"evaporation": evaporation_sink, "total": None}
+            evaporated = np.zeros(self.layer.size)
+            root_sink = sink
+
+            def sink(h, root_sink=root_sink):
+                total_sink = root_sink(h) + evaporation_sink
+                requested["total"] = total_sink
+                return total_sink
+
         self.mass[self.surface_cells] += self.fertilizer[d] * KG_PER_HA_TO_MG_PER_CM2 * self.top_area
         nitrate_before = float(self.mass.sum())
         day_n = {"mass": self.mass, "uptake": np.zeros(self.mass.size), "leached": 0.0}
@@ -271,6 +303,12 @@ class VoxelWaterSeason:
                 parameters=nitrate, _geometry=geometry)
             day_n["uptake"] += taken
             day_n["leached"] += leached
+            if evaporating:  # the evaporation share of the sink actually applied (after the wilting floor)
+                total_sink = requested["total"]
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    part = np.where(total_sink > 0, requested["evaporation"]
+                                    / np.where(total_sink > 0, total_sink, 1.0), 0.0)
+                evaporated[:] += part * step.sink_per_day * volume * step_dt
 
         head = self.head
         before = float(soil.water_content(head).sum()) * volume
@@ -294,13 +332,21 @@ class VoxelWaterSeason:
         after = float(theta.sum()) * volume
         error = (after - before) - (totals.infiltration_cm3 - totals.drainage_cm3 - totals.uptake_cm3)
         to_mm = 10.0 / area
+        transpiration_cm3 = totals.uptake_cm3 - float(evaporated.sum()) if evaporating else totals.uptake_cm3
         self.rows.append((int(self.days[d]), self.rain[d], self.irrigation[d], potential[d],
-                          to_mm * totals.uptake_cm3, to_mm * totals.infiltration_cm3, 0.0,
+                          to_mm * transpiration_cm3, to_mm * totals.infiltration_cm3, 0.0,
                           to_mm * totals.drainage_cm3, to_mm * after, to_mm * error, total, totals.steps))
         self.theta_rows.append(self._per_layer(theta) / self.cells_per_layer)
         self.head_rows.append(self._per_layer(head) / self.cells_per_layer)
-        self.uptake_rows.append(to_mm * self._per_layer(uptake))
+        self.uptake_rows.append(to_mm * self._per_layer(uptake - evaporated if evaporating else uptake))
         self.root_rows.append(self._per_layer(root_length))
+        if evaporating:
+            evaporation_mm = to_mm * float(evaporated.sum())
+            self.evaporation_rows.append((float(self.reference[d]), float(self.cover[d]), reduction,
+                                          10 * demand_cm, evaporation_mm, self.depletion))
+            self.depletion = depletion_after_day(self.depletion, infiltration_mm=to_mm * totals.infiltration_cm3,
+                                                 evaporation_mm=evaporation_mm, cover_fraction=float(self.cover[d]),
+                                                 total_mm=self.evaporation.total_evaporable_water_mm)
 
     def result(self) -> dict:
         """``daily``, ``layers``, ``traits`` and ``grid`` of the days run so far (:func:`run_voxel_water_season`)."""
@@ -313,7 +359,12 @@ class VoxelWaterSeason:
         nitrate_frame = pd.DataFrame(self.nitrate_rows, columns=[
             "nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha",
             "nitrate_storage_kg_n_per_ha", "nitrate_balance_error_kg_n_per_ha"])
-        daily = pd.concat([daily, nitrate_frame], axis=1)
+        frames = [daily, nitrate_frame]
+        if self.evaporation is not None:
+            frames.append(pd.DataFrame(self.evaporation_rows, columns=[
+                "reference_evapotranspiration_mm", "crop_cover_fraction", "evaporation_reduction_coefficient",
+                "soil_evaporation_demand_mm", "soil_evaporation_mm", "evaporable_water_depletion_mm"]))
+        daily = pd.concat(frames, axis=1)
         daily.attrs["initial_nitrate_kg_n_per_ha"] = self.initial_mass / (KG_PER_HA_TO_MG_PER_CM2 * area)
         top = np.arange(n_layers) * setup.cell_cm
         layers = pd.DataFrame({
@@ -353,7 +404,8 @@ def run_voxel_water_season(system, setup: SoilWaterSetup, weather, container, *,
     -------
     dict
         ``daily``, ``layers`` and ``traits`` as :func:`rootsim.capture.season.run_water_season` (with its nitrate
-        columns; no soil-evaporation columns) and ``grid`` (the :class:`VoxelGrid`).
+        columns, and its soil-evaporation columns when the soil file has ``[evaporation]``) and ``grid`` (the
+        :class:`VoxelGrid`).
     """
     grid = voxel_grid_for(setup, container, cell_cm=cell_cm)
     days = season_days(weather, last_day=last_day)
