@@ -13,7 +13,8 @@ no flow (container walls). Per active cell, volume V = dx dy dz::
 
 with the interface conductivity K_f the arithmetic mean of the two cells (as in 1D). Each Picard iteration is one
 sparse linear solve (``scipy.sparse``, SuperLU). Top: rain and irrigation enter every active surface cell as a flux
-(cm/day over its top face; ponding is not modelled in 3D: the supply should not exceed what the surface takes).
+(cm/day over its top face, the same everywhere or given per surface cell; ponding is not modelled in
+3D: the supply should not exceed what the surface takes).
 Bottom: ``free_drainage`` (unit gradient, Q = K(h) A_z out of every active bottom cell; a pot with drainage holes)
 or ``no_flow`` (a closed container). With one column of cells (or a laterally uniform state) the scheme is the
 1D scheme cell for cell, which the tests check.
@@ -171,6 +172,8 @@ class VoxelStep:
     face_flow_cm3_per_day: np.ndarray | None = None
     #: Water leaving each bottom cell across the bottom, cm³/day (None if not converged).
     bottom_flow_cm3_per_day: np.ndarray | None = None
+    #: The sink applied in the step, cm³ water / cm³ soil / day (None if not converged).
+    sink_per_day: np.ndarray | None = None
 
 
 def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, soil, supply_cm_per_day: float,
@@ -184,8 +187,9 @@ def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, so
         Pressure head of the active cells (C order of the box), cm.
     soil : VanGenuchtenMualem
         Properties per active cell (:func:`soil_on_grid`).
-    supply_cm_per_day : float
-        Rain + irrigation per unit surface area, cm/day.
+    supply_cm_per_day : float or ndarray, shape (n_surface,)
+        Rain + irrigation per unit surface area, cm/day: one value for every surface cell, or one per surface
+        cell (in the order of ``_faces(grid)[1]``; a side of a pot watered more than the other).
     sink_per_day : ndarray, shape (n_active,)
         Root water uptake, cm³ water / cm³ soil / day.
     bottom : {"free_drainage", "no_flow"}
@@ -207,7 +211,15 @@ def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, so
     a, b = faces.first, faces.second
     rows = np.concatenate([a, b, a, b])
     cols = np.concatenate([a, b, b, a])
-    supply = float(supply_cm_per_day) * top_area
+    uniform = np.ndim(supply_cm_per_day) == 0
+    if uniform:
+        supply = float(supply_cm_per_day) * top_area
+    else:
+        supply = np.asarray(supply_cm_per_day, dtype=np.float64) * top_area
+        if supply.shape != surface.shape:
+            raise CaptureError(f"surface supply: {supply.size} values for {surface.size} surface cells "
+                               "(allowed: one per surface cell, or one for all)")
+    infiltration = supply * surface.size if uniform else float(supply.sum())
     for it in range(1, max_iterations + 1):
         theta_m = soil.water_content(h)
         cap = np.maximum(soil.capacity(h), _CAPACITY_FLOOR_PER_CM)
@@ -245,7 +257,7 @@ def voxel_water_step(head_cm: np.ndarray, dt_days: float, *, grid: VoxelGrid, so
         net_in[bottom_cells] -= drain
         balance = (theta_new - theta_old) * storage - net_in + sink_per_day * volume
         if change < head_tolerance_cm and float(np.abs(balance).max()) * dt_days / top_area < water_tolerance_cm:
-            return VoxelStep(h, theta_new, supply * surface.size, float(drain.sum()), it, True, flow, drain)
+            return VoxelStep(h, theta_new, infiltration, float(drain.sum()), it, True, flow, drain, sink_per_day)
     return VoxelStep(head_cm, theta_old, 0.0, 0.0, max_iterations, False)
 
 

@@ -25,7 +25,7 @@ from .soil_file import SoilWaterSetup
 from .uptake import root_length_by_day, uptake_sink
 
 __all__ = ["run_water_season", "potential_transpiration_mm", "capture_traits", "WaterSeason", "season_days",
-           "reference_evapotranspiration_for_evaporation_mm"]
+           "reference_evapotranspiration_for_evaporation_mm", "evaporation_demand_cm"]
 
 
 def potential_transpiration_mm(weather, *, crop_coefficient: float, latitude_deg: float | None = None,
@@ -77,6 +77,19 @@ def reference_evapotranspiration_for_evaporation_mm(weather, setup: SoilWaterSet
     raise CaptureError(f"{setup.source}: evaporation: needs reference ET (allowed: a weather column "
                        "reference_evapotranspiration_mm, air temperatures with latitude_deg and first_day_of_year, or "
                        "potential_transpiration_mm with transpiration.crop_coefficient > 0)")
+
+
+def evaporation_demand_cm(parameters, depletion_mm: float, *, crop_coefficient: float, cover_fraction: float,
+                          reference_mm: float) -> tuple:
+    """(K_r, soil evaporation demand in cm/day) of one day by FAO-56's two stages (Allen et al. 1998, ch. 7;
+    :mod:`rootsim.capture.evaporation`): ``parameters`` the soil file's ``[evaporation]``, ``depletion_mm`` the
+    evaporable water already gone, ``reference_mm`` the day's reference ET."""
+    reduction = float(evaporation_reduction(depletion_mm, readily_mm=parameters.readily_evaporable_water_mm,
+                                            total_mm=parameters.total_evaporable_water_mm))
+    coefficient = float(evaporation_coefficient(reduction, basal_crop_coefficient=crop_coefficient,
+                                                maximum_crop_coefficient=parameters.maximum_crop_coefficient,
+                                                cover_fraction=cover_fraction))
+    return reduction, max(coefficient, 0.0) * reference_mm / 10.0
 
 
 def _hargreaves(weather, setup):
@@ -142,13 +155,8 @@ class WaterSeason:
 
     def _evaporation_demand_cm(self, j: int) -> tuple:
         """(K_r, demand in cm/day) of day ``j`` (FAO-56, :mod:`rootsim.capture.evaporation`)."""
-        p = self.evaporation
-        reduction = float(evaporation_reduction(self.depletion, readily_mm=p.readily_evaporable_water_mm,
-                                                total_mm=p.total_evaporable_water_mm))
-        coefficient = float(evaporation_coefficient(reduction, basal_crop_coefficient=self.setup.crop_coefficient,
-                                                    maximum_crop_coefficient=p.maximum_crop_coefficient,
-                                                    cover_fraction=float(self.cover[j])))
-        return reduction, max(coefficient, 0.0) * float(self.reference[j]) / 10.0
+        return evaporation_demand_cm(self.evaporation, self.depletion, crop_coefficient=self.setup.crop_coefficient,
+                                     cover_fraction=float(self.cover[j]), reference_mm=float(self.reference[j]))
 
     def advance_day(self, j: int, root_length: np.ndarray) -> None:
         """Advance the column over day ``j`` with ``root_length`` (cm per cell over the ground area)."""

@@ -27,9 +27,12 @@ irrigation_mm, potential_transpiration_mm or reference_evapotranspiration_mm). T
                                       each day the column's water content and matric potential become the
                                       soil fields volumetric_water_content / matric_potential_kpa the roots
                                       respond to (a Busscher pedotransfer resistance rises as the soil dries,
-                                      a field_tropism toward water follows it). NEW_DIR gets segments.parquet
-                                      and summary.json too, all committed at once (like `rootsim grow`).
-                                      --no-coupling grows the roots in the spec's own soil instead.
+                                      a field_tropism toward water follows it). In a pot or rhizobox the
+                                      column is the 3D voxel column: each day's new roots are cut at the
+                                      voxel planes and the roots read the water of their own voxels.
+                                      NEW_DIR gets segments.parquet and summary.json too, all committed at
+                                      once (like `rootsim grow`). --no-coupling grows the roots in the
+                                      spec's own soil instead.
 
 Files written:
 
@@ -76,8 +79,8 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="also write the soil state by depth and day as VTK image data (.vti)")
     parser.add_argument("--no-figures", action="store_true", help="skip the PNG figures")
     parser.add_argument("--container-cell-cm", metavar="C", type=float, default=None,
-                        help="horizontal voxel edge of the 3D column used for a pot or rhizobox run, cm (default: "
-                             "the soil file's cell_cm)")
+                        help="horizontal voxel edge of the 3D column used for a pot or rhizobox run (also with "
+                             "--grow), cm (default: the soil file's cell_cm)")
 
 
 def _check_mode(args) -> None:
@@ -229,14 +232,14 @@ def _run_coupled(args, setup, weather) -> int:
     out = check_new_result_folder(args.out, overwrite=args.overwrite)  # fail early, create nothing
     coupled = not args.no_coupling
     with stage(f"growing {spec.name} with the soil water ({'coupled' if coupled else 'not coupled'})"):
-        result = run_coupled_season(spec, setup, weather, couple=coupled)
+        result = run_coupled_season(spec, setup, weather, couple=coupled, container_cell_cm=args.container_cell_cm)
     system = result["system"]
     phosphorus = _phosphorus(args, system, result)
     facts = {"spec_name": spec.name, "spec_file": str(args.grow), "duration_days": spec.run.duration_days,
              "time_step_days": spec.run.time_step_days, "seed": spec.run.seed, "coupled": coupled,
              "soil_water_file": str(args.soil_water), "weather_file": str(args.weather)}
     traits = dict(result["traits"], soil_water_file=str(args.soil_water), weather_file=str(args.weather),
-                  source=str(args.grow))
+                  source=str(args.grow), soil_column=result["column"])
     summary = system.summary()
     summary["stand_layout"] = layout_from_metadata(system.metadata)
     names = ["segments.parquet", "summary.json"] + _output_names(args, phosphorus)

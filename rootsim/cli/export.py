@@ -74,8 +74,10 @@ def _plan(args) -> list[tuple[str, Path, str, dict]]:
         options: dict = {}
         if option == "--mesh":
             options = {"sides": args.mesh_sides, "merge_short_cm": args.merge_short_cm}
-        elif option == "--rsml" and args.rsml_user is not None:
-            options = {"user": args.rsml_user}
+        elif option == "--rsml":  # the file is written under a temporary name: its key is the final name's
+            options = {"file_key": path.stem}
+            if args.rsml_user is not None:
+                options["user"] = args.rsml_user
         elif option == "--rld-grid":
             if args.voxel_cm is None:
                 raise RootsimError("--rld-grid needs --voxel-cm V (voxel edge length in cm, e.g. 2)")

@@ -122,7 +122,17 @@ def _root_tree(system, segment_order, segment_offsets):
     return np.where(has_parent, parent_poly, -1), branch_index
 
 
-def _metadata_xml(path: Path, resolution: float, user: str) -> str:
+def _file_key(path: Path) -> str:
+    """The name a file is known by: the stem of ``path``, or of the final file when ``path`` is a temporary
+    name of :func:`rootsim.result_folder.temporary_name` (``.NAME.rootsim-HOST-PID-TOKEN.KIND``)."""
+    name = path.name
+    marker = name.rfind(".rootsim-")
+    if name.startswith(".") and marker > 1:
+        return Path(name[1:marker]).stem
+    return path.stem
+
+
+def _metadata_xml(file_key: str, resolution: float, user: str) -> str:
     stamp = datetime.datetime.now(datetime.timezone.utc).replace(microsecond=0).isoformat()
     return (
         "  <metadata>\n"
@@ -132,7 +142,7 @@ def _metadata_xml(path: Path, resolution: float, user: str) -> str:
         f"    <last-modified>{stamp}</last-modified>\n"
         "    <software>rootsim</software>\n"
         f"    <user>{escape(user)}</user>\n"
-        f"    <file-key>{escape(_xml_text(path.stem))}</file-key>\n"
+        f"    <file-key>{escape(file_key)}</file-key>\n"
         "    <property-definitions>\n"
         "      <property-definition><label>branch-segment-index</label><type>integer</type>"
         "<default>-1</default></property-definition>\n"
@@ -150,7 +160,8 @@ def _scene_properties_xml(system) -> str:
             "</segment-table-metadata></properties>\n")
 
 
-def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user: str = "unknown") -> Path:
+def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user: str = "unknown",
+               file_key: str | None = None) -> Path:
     """Write the root system as RSML (one ``<plant>`` per plant, laterals nested), atomically.
 
     Parameters
@@ -163,6 +174,10 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
         (1 = plain cm).
     user : str
         Value of the mandatory ``<metadata><user>`` (who made the file).
+    file_key : str, optional
+        Value of ``<metadata><file-key>`` (the name the file is known by); default: the stem of ``path``, or
+        of the final file when ``path`` is a temporary name (:func:`rootsim.result_folder.temporary_name`) that
+        a caller renames afterwards, so a temporary name never reaches the file.
 
     Returns
     -------
@@ -176,6 +191,7 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
     if not np.isfinite(resolution) or resolution <= 0:
         raise FormatError(f"{path}: RSML resolution must be a number > 0")
     user = " ".join(_xml_text(user).split()) or "unknown"
+    file_key = _xml_text(_file_key(path) if file_key is None else file_key)
     segment_order, segment_offsets = polyline_segments(system)
     parent_poly, branch_index = _root_tree(system, segment_order, segment_offsets)
     first = segment_order[segment_offsets[:-1]]
@@ -251,7 +267,7 @@ def write_rsml(system, path: str | os.PathLike, *, resolution: float = 1.0, user
 
     with atomic_path(path) as tmp, open(tmp, "w", encoding="utf-8") as fh:
         fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<rsml>\n')
-        fh.write(_metadata_xml(path, resolution, user))
+        fh.write(_metadata_xml(file_key, resolution, user))
         fh.write("  <scene>\n")
         if plant_ids:
             fh.write(_scene_properties_xml(system))

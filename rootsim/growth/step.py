@@ -161,6 +161,16 @@ def _stopped(stop_out, float_chunks, parent_chunks, root_chunks, chunk_counts, n
 
 
 @njit(**JIT)
+def _counts_so_far(chunk_counts, chunk_used):
+    """Rows used in each chunk so far (the current chunk's ``chunk_used`` last), int64, shape (n_chunks,)."""
+    counts = np.empty(len(chunk_counts) + 1, dtype=np.int64)
+    for c in range(len(chunk_counts)):
+        counts[c] = chunk_counts[c]
+    counts[len(chunk_counts)] = chunk_used
+    return counts
+
+
+@njit(**JIT)
 def chunk_item(chunks, index):
     """Chunk ``index`` of a list returned by :func:`grow_plant` (a compiled, cached accessor: reading numba's
     typed lists from Python would compile helpers anew in every process)."""
@@ -451,7 +461,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     checkpoint_days : ndarray, shape (n_checkpoints,)
         Increasing times (days): before the first step that starts at or after a checkpoint (steps of
         ``step_days`` from day 0), the generator yields a checkpoint item (status ``STATUS_CHECKPOINT``,
-        ``status_count`` the checkpoint's number, ``status_day`` the time reached, empty root tables);
+        ``status_count`` the checkpoint's number, ``status_day`` the time reached, the rows used so far in
+        each chunk as ``chunk_counts``, empty root tables);
         checkpoints after the start of the last step are not yielded (the final item comes instead).
     length_cell_cm : float
         Thickness of the cells of ``length_per_cell`` (depth ``[k, k + 1) * length_cell_cm``).
@@ -548,7 +559,8 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
             t0 = duration
             t1 = duration
         while k < n_steps and checkpoint < checkpoint_days.size and checkpoint_days[checkpoint] <= t0 + 1e-9:
-            yield (float_chunks, parent_chunks, root_chunks, np.zeros(0, dtype=np.int64), n_seg, rootf[:0].copy(),
+            yield (float_chunks, parent_chunks, root_chunks, _counts_so_far(chunk_counts, chunk_used), n_seg,
+                   rootf[:0].copy(),
                    rooti[:0].copy(), np.zeros(0, dtype=np.bool_), STATUS_CHECKPOINT, checkpoint, t0, pore_chunks)
             checkpoint += 1
         k += 1
