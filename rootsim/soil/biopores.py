@@ -168,7 +168,8 @@ def _compile(top: np.ndarray, bottom: np.ndarray, radius: np.ndarray) -> Compile
     if n:
         origin = lo.min(axis=0)
         extent = hi.max(axis=0) - origin
-        size = max(float(np.sqrt(extent[0] * extent[1] / n)), float(2 * radius.max()), 1e-6)
+        # about 16 bins per pore: most bins are empty, so most look-ups end at the bin (no candidate to test)
+        size = max(float(np.sqrt(extent[0] * extent[1] / (16 * n))), float(2 * radius.max()), 1e-6)
         shape = np.maximum(np.ceil(extent / size).astype(np.int64), 1)
         shape = np.minimum(shape, 4096)
         size = max(size, float(extent.max() / 4096) * (1 + 1e-9))
