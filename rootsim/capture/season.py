@@ -25,7 +25,7 @@ from .soil_file import SoilWaterSetup
 from .uptake import root_length_by_day, uptake_sink
 
 __all__ = ["run_water_season", "potential_transpiration_mm", "capture_traits", "WaterSeason", "season_days",
-           "reference_evapotranspiration_for_evaporation_mm", "evaporation_demand_cm"]
+           "reference_evapotranspiration_for_evaporation_mm", "evaporation_forcing", "evaporation_demand_cm"]
 
 
 def potential_transpiration_mm(weather, *, crop_coefficient: float, latitude_deg: float | None = None,
@@ -77,6 +77,20 @@ def reference_evapotranspiration_for_evaporation_mm(weather, setup: SoilWaterSet
     raise CaptureError(f"{setup.source}: evaporation: needs reference ET (allowed: a weather column "
                        "reference_evapotranspiration_mm, air temperatures with latitude_deg and first_day_of_year, or "
                        "potential_transpiration_mm with transpiration.crop_coefficient > 0)")
+
+
+def evaporation_forcing(weather, setup: SoilWaterSetup, n_days: int) -> tuple:
+    """(reference ET in mm, crop cover fraction) per day of the season for soil evaporation: reference ET by
+    :func:`reference_evapotranspiration_for_evaporation_mm`, cover from the weather column
+    ``crop_cover_fraction`` or the soil file's ``[evaporation] crop_cover_fraction``. A one-line
+    :class:`CaptureError` for a cover outside [0, 1)."""
+    reference = reference_evapotranspiration_for_evaporation_mm(weather, setup)[:n_days]
+    cover = (weather.column("crop_cover_fraction")[:n_days] if weather.has("crop_cover_fraction")
+             else np.full(n_days, setup.evaporation.crop_cover_fraction))
+    if not (np.all(cover >= 0.0) and np.all(cover < 1.0)):
+        raise CaptureError(f"{weather.source}: crop_cover_fraction: a value outside [0, 1) "
+                           "(allowed: 0 <= fraction < 1)")
+    return reference, cover
 
 
 def evaporation_demand_cm(parameters, depletion_mm: float, *, crop_coefficient: float, cover_fraction: float,
@@ -135,12 +149,7 @@ class WaterSeason:
         self.initial_nitrate = float(self.mass.sum())
         self.evaporation = setup.evaporation
         if self.evaporation is not None:
-            self.reference = reference_evapotranspiration_for_evaporation_mm(weather, setup)[:n_days]
-            self.cover = (weather.column("crop_cover_fraction")[:n_days] if weather.has("crop_cover_fraction")
-                          else np.full(n_days, self.evaporation.crop_cover_fraction))
-            if not (np.all(self.cover >= 0.0) and np.all(self.cover < 1.0)):
-                raise CaptureError(f"{weather.source}: crop_cover_fraction: a value outside [0, 1) "
-                                   "(allowed: 0 <= fraction < 1)")
+            self.reference, self.cover = evaporation_forcing(weather, setup, n_days)
             self.depletion = self.evaporation.initial_depletion_mm
             self.weights = evaporation_weights(cell_cm=cell, n_cells=setup.n_cells,
                                                layer_cm=self.evaporation.evaporating_layer_cm)

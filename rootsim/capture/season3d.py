@@ -28,8 +28,8 @@ from .nitrate import KG_PER_HA_TO_MG_PER_CM2
 from .nitrate3d import voxel_nitrate_step
 from .richards3d import VoxelGrid, _faces, advance_voxel_water, container_grid, soil_on_grid
 from .evaporation import depletion_after_day, evaporation_weights
-from .season import (add_nitrate_columns, capture_traits, evaporation_demand_cm, potential_transpiration_mm,
-                     reference_evapotranspiration_for_evaporation_mm, season_days)
+from .season import (add_nitrate_columns, capture_traits, evaporation_demand_cm, evaporation_forcing,
+                     potential_transpiration_mm, season_days)
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
@@ -241,12 +241,7 @@ class VoxelWaterSeason:
         self.nitrate_rows, self.nitrate_cells, self.nitrate_uptake_cells = [], [], []
         self.evaporation = setup.evaporation
         if self.evaporation is not None:  # FAO-56 two-stage soil evaporation from the top voxels, as in 1D
-            self.reference = reference_evapotranspiration_for_evaporation_mm(weather, setup)[:n_days]
-            self.cover = (weather.column("crop_cover_fraction")[:n_days] if weather.has("crop_cover_fraction")
-                          else np.full(n_days, self.evaporation.crop_cover_fraction))
-            if not (np.all(self.cover >= 0.0) and np.all(self.cover < 1.0)):
-                raise CaptureError(f"{weather.source}: crop_cover_fraction: a value outside [0, 1) "
-                                   "(allowed: 0 <= fraction < 1)")
+            self.reference, self.cover = evaporation_forcing(weather, setup, n_days)
             self.depletion = self.evaporation.initial_depletion_mm
             self.weights = evaporation_weights(cell_cm=setup.cell_cm, n_cells=self.n_layers,
                                                layer_cm=self.evaporation.evaporating_layer_cm)[self.layer]
