@@ -7,6 +7,8 @@ branching) so that a test switches on only the process it checks.
 
 from __future__ import annotations
 
+import hashlib
+
 import numpy as np
 import pandas as pd
 
@@ -119,3 +121,15 @@ def insertion_angles_deg(df: pd.DataFrame, firsts: pd.DataFrame) -> np.ndarray:
     p = firsts[["parent_dx", "parent_dy", "parent_dz"]].to_numpy()
     cross = np.linalg.norm(np.cross(d, p), axis=1)
     return np.degrees(np.arctan2(cross, np.sum(d * p, axis=1)))
+
+
+def column_digests(system) -> dict:
+    """SHA-256 of every column's bytes of a system's segment table (categorical columns by their codes): equal
+    digests mean byte-identical tables."""
+    frame = system.to_dataframe()
+    out = {}
+    for name in frame.columns:
+        column = frame[name]
+        values = column.cat.codes.to_numpy() if isinstance(column.dtype, pd.CategoricalDtype) else column.to_numpy()
+        out[name] = hashlib.sha256(np.ascontiguousarray(values).tobytes()).hexdigest()
+    return out

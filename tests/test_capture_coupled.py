@@ -5,7 +5,6 @@ determinism and command-line errors."""
 from __future__ import annotations
 
 import copy
-import hashlib
 import json
 from pathlib import Path
 
@@ -13,6 +12,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from growth_specs import column_digests
 from rootsim import grow
 from rootsim.capture.coupled import KPA_PER_CM_OF_WATER, run_coupled_season
 from rootsim.capture.season import run_water_season
@@ -56,16 +56,6 @@ def _depth_centre(system) -> float:
     return float((depth * length).sum() / length.sum())
 
 
-def _table_bytes(system) -> dict:
-    frame = system.to_dataframe()
-    out = {}
-    for name in frame.columns:
-        column = frame[name]
-        values = column.cat.codes.to_numpy() if isinstance(column.dtype, pd.CategoricalDtype) else column.to_numpy()
-        out[name] = hashlib.sha256(np.ascontiguousarray(values).tobytes()).hexdigest()
-    return out
-
-
 @pytest.fixture(scope="module")
 def setup():
     return read_soil_water_file(SOIL)
@@ -91,7 +81,7 @@ def test_uncoupled_run_grows_the_same_bytes_as_grow_and_the_same_season_as_the_o
     result = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=20, progress=False)
     grown = grow(spec, progress=False)
     # the resumable (paused every day) growth gives grow()'s table byte for byte
-    assert _table_bytes(result["system"]) == _table_bytes(grown)
+    assert column_digests(result["system"]) == column_digests(grown)
     assert result["system"].metadata == grown.metadata
     # the root length per cell counted inside the compiled step as segments are made equals the exact clipping
     # of the final table by birth day (rootsim.analysis.profile.depth_layer_lengths, an independent path), so the
@@ -162,7 +152,7 @@ def test_drying_topsoil_pushes_roots_down_through_busscher_resistance(dry_couple
     control = _spec(edit=constant_resistance)
     dry_control = run_coupled_season(control, setup, dry_weather, last_day=DAYS, progress=False)["system"]
     wet_control = run_coupled_season(control, setup, _wet_weather(), last_day=DAYS, progress=False)["system"]
-    assert _table_bytes(dry_control) == _table_bytes(wet_control)
+    assert column_digests(dry_control) == column_digests(wet_control)
 
 
 def test_hydrotropism_follows_the_column_water_toward_depth(setup, dry_weather):
@@ -210,7 +200,7 @@ def test_thermal_clock_pauses_at_each_calendar_day(setup, dry_weather):
     result = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=15, progress=False)
     grown = grow(spec, progress=False)
     assert grown.metadata["development"]["clock"] == "thermal"
-    assert _table_bytes(result["system"]) == _table_bytes(grown)
+    assert column_digests(result["system"]) == column_digests(grown)
     roots = result["layers"]["root_length_cm"].to_numpy().reshape(-1, setup.n_cells)
     assert np.all(np.diff(roots.sum(axis=1)) >= 0)
     expected = depth_layer_lengths(-np.asarray(grown["z0"]), -np.asarray(grown["z1"]), np.asarray(grown["length_cm"]),
@@ -223,7 +213,7 @@ def test_thermal_clock_pauses_at_each_calendar_day(setup, dry_weather):
 
 def test_same_inputs_give_the_same_bytes(dry_coupled, setup, dry_weather):
     again = run_coupled_season(_spec(), setup, dry_weather, couple=True, last_day=DAYS, progress=False)
-    assert _table_bytes(again["system"]) == _table_bytes(dry_coupled["system"])
+    assert column_digests(again["system"]) == column_digests(dry_coupled["system"])
     pd.testing.assert_frame_equal(again["daily"], dry_coupled["daily"], check_exact=True)
 
 
@@ -233,8 +223,8 @@ def test_growth_longer_than_the_season_and_season_longer_than_growth(setup, dry_
     spec = _spec(days=12, clock="calendar")
     short_season = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=5, progress=False)
     long_season = run_coupled_season(spec, setup, dry_weather, couple=False, last_day=20, progress=False)
-    grown = _table_bytes(grow(spec, progress=False))
-    assert _table_bytes(short_season["system"]) == grown == _table_bytes(long_season["system"])
+    grown = column_digests(grow(spec, progress=False))
+    assert column_digests(short_season["system"]) == grown == column_digests(long_season["system"])
     roots = long_season["daily"]["root_length_cm"].to_numpy()
     assert np.all(roots[13:] == roots[13])  # no growth after the run's 12 days
 

@@ -6,7 +6,6 @@ against grow() and the one-way season, a side of a pot kept wet, and the command
 from __future__ import annotations
 
 import copy
-import hashlib
 import json
 import tomllib
 from pathlib import Path
@@ -15,6 +14,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from growth_specs import column_digests
 from rootsim import grow
 from rootsim.capture.coupled import KPA_PER_CM_OF_WATER, run_coupled_season
 from rootsim.capture.errors import CaptureError
@@ -31,16 +31,6 @@ POT = ROOT / "params" / "pot_nutrient_patch.toml"
 LOAM = ROOT / "params" / "capture" / "soil_water_loam.toml"
 DRYING = ROOT / "params" / "capture" / "weather_drying_season.csv"
 POT_DAYS = 21
-
-
-def _table_bytes(system) -> dict:
-    frame = system.to_dataframe()
-    out = {}
-    for name in frame.columns:
-        column = frame[name]
-        values = column.cat.codes.to_numpy() if isinstance(column.dtype, pd.CategoricalDtype) else column.to_numpy()
-        out[name] = hashlib.sha256(np.ascontiguousarray(values).tobytes()).hexdigest()
-    return out
 
 
 def _soil(depth_cm: float, *, head_cm: float = -80.0, deep_below_cm: float = 20.0):
@@ -252,7 +242,7 @@ def test_uncoupled_pot_grows_grow_bytes_and_runs_the_one_way_voxel_season():
     spec, setup, weather = _pot_spec(0.2), _soil(40.0, head_cm=-300.0), _pot_weather()
     result = _pot_run(0.2, _plus_x_wet, couple=False)
     grown = grow(spec, progress=False)
-    assert _table_bytes(result["system"]) == _table_bytes(grown)
+    assert column_digests(result["system"]) == column_digests(grown)
     one_way = run_voxel_water_season(grown, setup, weather, spec.container, cell_cm=4.0, last_day=POT_DAYS,
                                      supply_share=_plus_x_wet)
     for column in ("actual_transpiration_mm", "drainage_mm", "soil_water_storage_mm", "root_length_cm",
@@ -278,7 +268,7 @@ def test_a_pot_side_kept_wet_grows_more_roots_there_through_hydrotropism(pot_wet
     theta = pot_wet_plus_x["voxel_water_content"]
     assert theta[x > 0].mean() > theta[x < 0].mean()
     # control: without the tropism the roots do not read the water, so the two watering plans grow the same bytes
-    assert _table_bytes(_pot_run(0.0, _plus_x_wet)["system"]) == _table_bytes(_pot_run(0.0, _minus_x_wet)["system"])
+    assert column_digests(_pot_run(0.0, _plus_x_wet)["system"]) == column_digests(_pot_run(0.0, _minus_x_wet)["system"])
 
 
 def test_supply_share_and_column_errors():

@@ -62,6 +62,19 @@ def potential_transpiration_mm(weather, *, crop_coefficient: float, latitude_deg
     return crop_coefficient * reference
 
 
+#: Columns of the daily table of a season (water, then nitrate, then soil evaporation when it is modelled); the 1D
+#: and the 3D columns write the same.
+DAILY_WATER_COLUMNS = ["day", "rain_mm", "irrigation_mm", "potential_transpiration_mm", "actual_transpiration_mm",
+                       "infiltration_mm", "runoff_mm", "drainage_mm", "soil_water_storage_mm",
+                       "water_balance_error_mm", "root_length_cm", "solver_steps"]
+DAILY_NITRATE_COLUMNS = ["nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha",
+                         "nitrate_leached_kg_n_per_ha", "nitrate_storage_kg_n_per_ha",
+                         "nitrate_balance_error_kg_n_per_ha"]
+DAILY_EVAPORATION_COLUMNS = ["reference_evapotranspiration_mm", "crop_cover_fraction",
+                             "evaporation_reduction_coefficient", "soil_evaporation_demand_mm", "soil_evaporation_mm",
+                             "evaporable_water_depletion_mm"]
+
+
 def reference_evapotranspiration_for_evaporation_mm(weather, setup: SoilWaterSetup) -> np.ndarray:
     """Daily reference ET (mm) that drives soil evaporation: the weather column
     ``reference_evapotranspiration_mm``; else Hargreaves & Samani (FAO-56 eq. 52) from air temperatures; else
@@ -253,16 +266,9 @@ class WaterSeason:
         n_days = len(self.rows)
         days = self.days[:n_days]
         n_cells, cell = self.setup.n_cells, self.setup.cell_cm
-        daily = pd.DataFrame(self.rows, columns=["day", "rain_mm", "irrigation_mm", "potential_transpiration_mm",
-                                                 "actual_transpiration_mm", "infiltration_mm", "runoff_mm",
-                                                 "drainage_mm", "soil_water_storage_mm", "water_balance_error_mm",
-                                                 "root_length_cm", "solver_steps"])
-        nitrate_frame = pd.DataFrame(self.nitrate_rows, columns=[
-            "nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha",
-            "nitrate_storage_kg_n_per_ha", "nitrate_balance_error_kg_n_per_ha"])
-        evaporation_frame = pd.DataFrame(self.evaporation_rows, columns=[
-            "reference_evapotranspiration_mm", "crop_cover_fraction", "evaporation_reduction_coefficient",
-            "soil_evaporation_demand_mm", "soil_evaporation_mm", "evaporable_water_depletion_mm"])
+        daily = pd.DataFrame(self.rows, columns=DAILY_WATER_COLUMNS)
+        nitrate_frame = pd.DataFrame(self.nitrate_rows, columns=DAILY_NITRATE_COLUMNS)
+        evaporation_frame = pd.DataFrame(self.evaporation_rows, columns=DAILY_EVAPORATION_COLUMNS)
         daily = pd.concat([daily, nitrate_frame, evaporation_frame], axis=1)
         daily.attrs["initial_nitrate_kg_n_per_ha"] = self.initial_nitrate / KG_PER_HA_TO_MG_PER_CM2
         top = np.arange(n_cells) * cell

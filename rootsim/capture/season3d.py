@@ -28,8 +28,9 @@ from .nitrate import KG_PER_HA_TO_MG_PER_CM2
 from .nitrate3d import voxel_nitrate_step
 from .richards3d import VoxelGrid, _faces, advance_voxel_water, container_grid, soil_on_grid
 from .evaporation import depletion_after_day, evaporation_weights
-from .season import (add_nitrate_columns, capture_traits, evaporation_demand_cm, evaporation_forcing,
-                     potential_transpiration_mm, season_days)
+from .season import (DAILY_EVAPORATION_COLUMNS, DAILY_NITRATE_COLUMNS, DAILY_WATER_COLUMNS, add_nitrate_columns,
+                     capture_traits, evaporation_demand_cm, evaporation_forcing, potential_transpiration_mm,
+                     season_days)
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
@@ -347,18 +348,11 @@ class VoxelWaterSeason:
         """``daily``, ``layers``, ``traits`` and ``grid`` of the days run so far (:func:`run_voxel_water_season`)."""
         n_days, n_layers, setup, area = len(self.rows), self.n_layers, self.setup, self.area
         days = self.days[:n_days]
-        daily = pd.DataFrame(self.rows, columns=["day", "rain_mm", "irrigation_mm", "potential_transpiration_mm",
-                                                 "actual_transpiration_mm", "infiltration_mm", "runoff_mm",
-                                                 "drainage_mm", "soil_water_storage_mm", "water_balance_error_mm",
-                                                 "root_length_cm", "solver_steps"])
-        nitrate_frame = pd.DataFrame(self.nitrate_rows, columns=[
-            "nitrate_fertilizer_kg_n_per_ha", "nitrate_uptake_kg_n_per_ha", "nitrate_leached_kg_n_per_ha",
-            "nitrate_storage_kg_n_per_ha", "nitrate_balance_error_kg_n_per_ha"])
+        daily = pd.DataFrame(self.rows, columns=DAILY_WATER_COLUMNS)
+        nitrate_frame = pd.DataFrame(self.nitrate_rows, columns=DAILY_NITRATE_COLUMNS)
         frames = [daily, nitrate_frame]
         if self.evaporation is not None:
-            frames.append(pd.DataFrame(self.evaporation_rows, columns=[
-                "reference_evapotranspiration_mm", "crop_cover_fraction", "evaporation_reduction_coefficient",
-                "soil_evaporation_demand_mm", "soil_evaporation_mm", "evaporable_water_depletion_mm"]))
+            frames.append(pd.DataFrame(self.evaporation_rows, columns=DAILY_EVAPORATION_COLUMNS))
         daily = pd.concat(frames, axis=1)
         daily.attrs["initial_nitrate_kg_n_per_ha"] = self.initial_mass / (KG_PER_HA_TO_MG_PER_CM2 * area)
         top = np.arange(n_layers) * setup.cell_cm
