@@ -25,7 +25,8 @@ from .soil_file import SoilWaterSetup
 from .uptake import root_length_by_day, uptake_sink
 
 __all__ = ["run_water_season", "potential_transpiration_mm", "capture_traits", "WaterSeason", "season_days",
-           "reference_evapotranspiration_for_evaporation_mm", "evaporation_forcing", "evaporation_demand_cm"]
+           "reference_evapotranspiration_for_evaporation_mm", "evaporation_forcing", "water_forcing",
+           "evaporation_demand_cm"]
 
 
 def potential_transpiration_mm(weather, *, crop_coefficient: float, latitude_deg: float | None = None,
@@ -92,6 +93,17 @@ def reference_evapotranspiration_for_evaporation_mm(weather, setup: SoilWaterSet
                        "potential_transpiration_mm with transpiration.crop_coefficient > 0)")
 
 
+def water_forcing(weather, setup: SoilWaterSetup, n_days: int) -> tuple:
+    """(rain, irrigation, potential transpiration) in mm per day of the season from the weather table
+    (rain and irrigation 0 where the table has no column; :func:`potential_transpiration_mm`)."""
+    rain = weather.column("rain_mm", default=0.0)[:n_days]
+    irrigation = weather.column("irrigation_mm", default=0.0)[:n_days]
+    potential = potential_transpiration_mm(weather, crop_coefficient=setup.crop_coefficient,
+                                           latitude_deg=setup.latitude_deg, first_day_of_year=setup.first_day_of_year,
+                                           soil_source=setup.source)[:n_days]
+    return rain, irrigation, potential
+
+
 def evaporation_forcing(weather, setup: SoilWaterSetup, n_days: int) -> tuple:
     """(reference ET in mm, crop cover fraction) per day of the season for soil evaporation: reference ET by
     :func:`reference_evapotranspiration_for_evaporation_mm`, cover from the weather column
@@ -148,12 +160,7 @@ class WaterSeason:
         self.area = float(ground_area_cm2)
         self.days = days
         n_days = days.size
-        self.rain = weather.column("rain_mm", default=0.0)[:n_days]
-        self.irrigation = weather.column("irrigation_mm", default=0.0)[:n_days]
-        self.potential = potential_transpiration_mm(weather, crop_coefficient=setup.crop_coefficient,
-                                                    latitude_deg=setup.latitude_deg,
-                                                    first_day_of_year=setup.first_day_of_year,
-                                                    soil_source=setup.source)[:n_days]
+        self.rain, self.irrigation, self.potential = water_forcing(weather, setup, n_days)
         self.head = setup.initial_head_cm.astype(np.float64).copy()
         self.dt = 0.05
         self.fertilizer = weather.column("nitrate_fertilizer_kg_n_per_ha", default=0.0)[:n_days]

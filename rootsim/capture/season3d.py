@@ -29,8 +29,7 @@ from .nitrate3d import voxel_nitrate_step
 from .richards3d import VoxelGrid, _faces, advance_voxel_water, container_grid, soil_on_grid
 from .evaporation import depletion_after_day, evaporation_weights
 from .season import (DAILY_EVAPORATION_COLUMNS, DAILY_NITRATE_COLUMNS, DAILY_WATER_COLUMNS, add_nitrate_columns,
-                     capture_traits, evaporation_demand_cm, evaporation_forcing, potential_transpiration_mm,
-                     season_days)
+                     capture_traits, evaporation_demand_cm, evaporation_forcing, season_days, water_forcing)
 from .soil_file import SoilWaterSetup
 from .uptake import feddes_reduction
 
@@ -219,12 +218,7 @@ class VoxelWaterSeason:
         self.soil = soil_on_grid(setup.soil, grid)
         self.layer = grid.layer_of_active()
         self.n_layers = grid.shape[2]
-        self.rain = weather.column("rain_mm", default=0.0)[:n_days]
-        self.irrigation = weather.column("irrigation_mm", default=0.0)[:n_days]
-        self.potential = potential_transpiration_mm(weather, crop_coefficient=setup.crop_coefficient,
-                                                    latitude_deg=setup.latitude_deg,
-                                                    first_day_of_year=setup.first_day_of_year,
-                                                    soil_source=setup.source)[:n_days]
+        self.rain, self.irrigation, self.potential = water_forcing(weather, setup, n_days)
         self.area = grid.surface_area_cm2()
         self.volume = grid.cell_volume_cm3
         self.head = np.asarray(setup.initial_head_cm, dtype=np.float64)[self.layer]
