@@ -118,3 +118,21 @@ def test_field_labels_name_the_unit():
     assert field_label("volumetric_water_content") == "volumetric water content (cm³/cm³)"
     assert field_label("nitrate_mg_per_kg") == "nitrate (mg/kg)"
     assert field_label("soil_temperature_c") == "soil temperature (°C)"
+
+
+def test_a_run_grown_from_a_relative_path_renders_its_soil_from_another_folder(tmp_path, capsys, monkeypatch):
+    # The run records its parameter file as an absolute path, so `render --soil-field` finds it from any folder
+    # (it used to record the path as typed, relative to where `grow` ran).
+    work = tmp_path / "work"
+    work.mkdir()
+    spec = work / "pan.toml"
+    spec.write_text(f'based_on = "{PAN_SPEC.as_posix()}"\n[run]\nduration_days = 3\n', encoding="utf-8")
+    monkeypatch.chdir(work)
+    code, _, err = run_cli(["grow", "pan.toml", "--out", "run", "--quiet"], capsys)
+    assert code == 0, err
+    monkeypatch.chdir(tmp_path)
+    assert RootSystem.read(work / "run").metadata["spec_file"] == str(spec.resolve())
+    code, _, err = run_cli(["render", work / "run", "--png", tmp_path / "pan.png", "--view", "side", "--size",
+                            "160x120", "--soil-field", "penetration_resistance_mpa"], capsys)
+    assert code == 0, err
+    assert (tmp_path / "pan.png").stat().st_size > 0

@@ -149,6 +149,16 @@ def _soil_inputs(spec: Spec, classes: ClassTable, *, replace_fields=None):
     return arguments, pores is not None, fields
 
 
+def _absolute_if_file(source):
+    """The spec's source as an absolute path when it names an existing file (so commands run later from another
+    folder, such as ``render --soil-field``, find it), else as given (``<bench>``, ``<dict>``, ...)."""
+    from pathlib import Path
+
+    if source and Path(str(source)).is_file():
+        return str(Path(str(source)).resolve())
+    return source
+
+
 def _metadata(spec: Spec, positions: np.ndarray, class_names: list[str]) -> dict:
     st = spec.stand
     c = spec.container
@@ -160,7 +170,7 @@ def _metadata(spec: Spec, positions: np.ndarray, class_names: list[str]) -> dict
         area = st.ground_area_cm2
     return {
         "spec_name": spec.name,
-        "spec_file": spec.source,
+        "spec_file": _absolute_if_file(spec.source),
         "run": {"duration_days": spec.run.duration_days, "time_step_days": spec.run.time_step_days,
                 "seed": spec.run.seed},
         "stand": {"n_plants": st.n_plants, "rows": st.rows, "plants_per_row": st.plants_per_row,
