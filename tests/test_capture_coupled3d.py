@@ -304,3 +304,22 @@ def test_cli_grow_in_a_pot_uses_the_3d_column(tmp_path, capsys):
     assert np.abs(daily["water_balance_error_mm"]).max() < 1e-6
     layers = pd.read_csv(out / "capture_layers.csv")
     assert len(layers) == len(daily) * 20  # 2 cm layers of the 40 cm pot
+
+
+def test_a_coupled_run_refuses_coarse_pot_cells_and_growth_past_the_season(tmp_path, capsys):
+    # A pot one cell across is a square column (400 instead of 314 cm² of surface for a 20 cm pot: the area of a
+    # circle, common practice), and roots growing past the weather table's last day would grow with no soil
+    # water: both are one-line errors, exit 2, nothing written.
+    from rootsim.cli import main
+
+    soil_file = tmp_path / "loam40.toml"
+    text = LOAM.read_text(encoding="utf-8").replace("depth_cm = 150.0", "depth_cm = 40.0")
+    soil_file.write_text(text.replace("deep_water_below_cm = 60.0", "deep_water_below_cm = 20.0"), encoding="utf-8")
+    for extra, words in ((["--days", "3", "--container-cell-cm", "1000"], "cells across"),
+                         (["--days", "400"], "past the end of the 61-day season")):
+        out = tmp_path / "out"
+        code = main(["capture", "--grow", str(POT), "--soil-water", str(soil_file), "--weather", str(DRYING),
+                     "--out", str(out), "--no-figures", *extra])
+        err = capsys.readouterr().err.strip().splitlines()
+        assert code == 2 and len(err) == 1 and err[0].startswith("error:") and words in err[0], err
+        assert not out.exists()

@@ -288,6 +288,11 @@ def run_coupled_season(spec, setup: SoilWaterSetup, weather, *, couple: bool = T
     if couple and inputs.fields.names:
         water.bind(inputs.fields)
     duration = float(calendar_spec.run.duration_days)  # calendar days
+    season_end = float(days[-1]) + 1.0 if days.size else 0.0
+    if couple and duration > season_end + 1e-9:
+        raise CaptureError(f"run.duration_days: the roots would grow {duration:g} days, past the end of the "
+                           f"{season_end:g}-day season of {weather.source} (allowed: at most {season_end:g} days "
+                           "in a coupled run; --days shortens the growth)")
     budget = int(spec.run.max_segments)
     checkpoints = np.asarray([d for d in days if d <= duration + 1e-9], dtype=np.float64)
     if clock is not None:  # the same days in the growth's time unit (nondecreasing; equal on days too cold to grow)

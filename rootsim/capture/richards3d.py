@@ -71,6 +71,11 @@ class VoxelGrid:
         return float(self.active[:, :, 0].sum() * self.cell_cm[0] * self.cell_cm[1])
 
 
+#: Fewest cells across a pot: with 4 the active cells cover the round surface to within 5 % (300 of 314 cm² for a
+#: 20 cm pot); with 1-3 they make the square around it (+27 %).
+MIN_POT_CELLS_ACROSS = 4
+
+
 def container_grid(container, *, cell_cm: float, layer_cm: float) -> VoxelGrid:
     """The voxel grid of a pot (cylinder of ``diameter_cm``) or rhizobox (``width_cm`` x ``thickness_cm``).
 
@@ -104,6 +109,11 @@ def container_grid(container, *, cell_cm: float, layer_cm: float) -> VoxelGrid:
     else:
         half_x, half_y = float(container.width_cm) / 2.0, float(container.thickness_cm) / 2.0
     nx, ny = max(int(np.ceil(2 * half_x / cell_cm - 1e-9)), 1), max(int(np.ceil(2 * half_y / cell_cm - 1e-9)), 1)
+    if kind == "pot" and nx < MIN_POT_CELLS_ACROSS:
+        raise CaptureError(f"container: cell_cm {cell_cm:g} leaves {nx} cell(s) across a pot of diameter "
+                           f"{2 * half_x:g} cm, whose round wall then becomes a square (allowed: at most "
+                           f"{2 * half_x / MIN_POT_CELLS_ACROSS:g} cm, {MIN_POT_CELLS_ACROSS} cells across; set by "
+                           "--container-cell-cm or the soil file's column.cell_cm)")
     if nx * ny * nz > MAX_ACTIVE_CELLS:
         raise CaptureError(f"container: {nx} x {ny} x {nz} cells (allowed: at most {MAX_ACTIVE_CELLS:,}; a "
                            "larger cell_cm or layer_cm)")
