@@ -81,6 +81,10 @@ def test_help_explains_the_table_columns(capsys):
     (["--tube", "0,0,0,30,5.6,0.2", "--tube-wall-growth", "2"], "wall growth fraction"),
     (["--wall", "0,-5,5,20,5", "--wall-scraped-cm", "-1"], "scraped layer"),
     (["--core", "0,0,4,30", "--core-washing-recovery", "1.5"], "washing recovery"),
+    (["--core", "0,0,4,30", "--core-washing-recovery", "1.5"], "--core-washing-recovery"),
+    (["--core", "0,0,4,30", "--core-break-ratio", "-1"], "--core-break-ratio"),
+    (["--core", "0,0,4,30", "--detection-limit-cm", "-0.1"], "--detection-limit-cm"),
+    (["--core", "0,0,4,30", "--core-fine-diameter-cm", "nan"], "--core-fine-diameter-cm"),
 ])
 def test_bad_options_are_one_error_line_and_nothing_written(stand, capsys, argv, fragment):
     assert main(["sample", str(stand), *argv]) == 2

@@ -269,12 +269,16 @@ def sample_cores(system: Any, *, cores: Iterable[Any], check_container: bool = T
 def _check_method_options(washing_recovery: float, fine_root_diameter_cm: float, core_break_ratio: float,
                           detection_limit_cm: float) -> None:
     if not 0.0 <= washing_recovery <= 1.0:
-        raise SamplingError(f"washing recovery must be from 0 to 1, got {washing_recovery:g}")
-    for name, value in (("fine root diameter", fine_root_diameter_cm), ("detection limit", detection_limit_cm)):
+        raise SamplingError(f"washing recovery (washing_recovery, --core-washing-recovery): {washing_recovery:g} "
+                            "(allowed: a fraction from 0 to 1)")
+    for name, keyword, option, value in (
+            ("fine root diameter", "fine_root_diameter_cm", "--core-fine-diameter-cm", fine_root_diameter_cm),
+            ("detection limit", "detection_limit_cm", "--detection-limit-cm", detection_limit_cm)):
         if not (math.isfinite(value) and value >= 0):
-            raise SamplingError(f"{name} must be >= 0 cm, got {value:g}")
+            raise SamplingError(f"{name} ({keyword}, {option}): {value:g} (allowed: a number >= 0, cm)")
     if not (math.isfinite(core_break_ratio) and core_break_ratio > 0):
-        raise SamplingError(f"core-break ratio must be > 0, got {core_break_ratio:g}")
+        raise SamplingError(f"core-break ratio (core_break_ratio, --core-break-ratio): {core_break_ratio:g} "
+                            "(allowed: a number > 0)")
 
 
 def _face_counts(a: np.ndarray, b: np.ndarray, visible: np.ndarray, core: Core, faces: np.ndarray) -> np.ndarray:
