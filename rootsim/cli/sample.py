@@ -291,11 +291,12 @@ def _print_cores(say, df, bias, out: Path, note: str) -> None:
         cells = [f"{top:g}-{bottom:g}", f"{part['rld_stand_cm_per_cm3'].iloc[0]:.3g}"]
         for kind in kinds:
             row = part[part["group"] == kind]
-            cells.append(_pm(row["rld_estimate_mean_cm_per_cm3"].iloc[0], row["rld_estimate_sd_cm_per_cm3"].iloc[0])
+            cells.append(_pm(row["rld_estimate_mean_cm_per_cm3"].iloc[0],
+                             row["rld_estimate_standard_deviation_cm_per_cm3"].iloc[0])
                          if len(row) else "-")
         for table in (part, broken[(broken["depth_top_cm"] == top) & (broken["depth_bottom_cm"] == bottom)]):
             row = table[table["group"] == overall]
-            cells.append(_pm(row["ratio_mean"].iloc[0], row["ratio_sd"].iloc[0]) if len(row) else "-")
+            cells.append(_pm(row["ratio_mean"].iloc[0], row["ratio_standard_deviation"].iloc[0]) if len(row) else "-")
         rows.append(cells)
     counts = ", ".join(f"{int(n_by_kind[k])} {k}" for k in kinds)
     _table(say, f"cores ({counts}{note}) -> {out / 'cores.csv'}",
@@ -322,7 +323,7 @@ def _print_summary(tables: dict, bias, out: Path) -> None:
         part = bias[bias["method"] == "wall"].set_index(["depth_top_cm", "depth_bottom_cm"])
         rows = [[f"{top:g}-{bottom:g}", f"{int(r['n'])}", f"{r['est']:.3g}", f"{r['slab']:.3g}",
                  f"{part.loc[(top, bottom), 'rld_stand_cm_per_cm3']:.3g}",
-                 _pm(part.loc[(top, bottom), "ratio_mean"], part.loc[(top, bottom), "ratio_sd"])]
+                 _pm(part.loc[(top, bottom), "ratio_mean"], part.loc[(top, bottom), "ratio_standard_deviation"])]
                 for (top, bottom), r in g.iterrows()]
         _table(say, f"wall ({df['wall_id'].nunique()} wall(s)) -> {out / 'wall.csv'}",
                ["depth cm", "counted", "estimate", "slab", "stand", "estimate / stand"], rows)
@@ -334,7 +335,7 @@ def _print_summary(tables: dict, bias, out: Path) -> None:
         shell = df.groupby(band)["rld_true_cm_per_cm3"].mean()
         rows = [[f"{r['depth_top_cm']:g}-{r['depth_bottom_cm']:g}", f"{int(r['units'])}",
                  f"{r['rld_estimate_mean_cm_per_cm3']:.3g}", f"{shell.loc[r['depth_top_cm']]:.3g}",
-                 f"{r['rld_stand_cm_per_cm3']:.3g}", _pm(r["ratio_mean"], r["ratio_sd"])]
+                 f"{r['rld_stand_cm_per_cm3']:.3g}", _pm(r["ratio_mean"], r["ratio_standard_deviation"])]
                 for _, r in part.iterrows()]
         _table(say, f"tube ({df['tube_id'].nunique()} tube(s)) -> {out / 'tube.csv'}",
                ["depth cm", "windows", "image", "shell", "stand", "image / stand"], rows)

@@ -8,7 +8,8 @@ cores of a placement, the cells of a wall row, and the windows of tubes in a dep
 Columns of :func:`bias_table`: ``method`` (``core_washed``, ``core_break``, ``wall``,
 ``tube_image``), ``group`` (a core placement or ``all``), ``depth_top_cm``,
 ``depth_bottom_cm``, ``units`` (cores, cells or windows), ``rld_estimate_mean_cm_per_cm3``,
-``rld_estimate_sd_cm_per_cm3``, ``rld_stand_cm_per_cm3``, ``ratio_mean`` and ``ratio_sd``
+``rld_estimate_standard_deviation_cm_per_cm3``, ``rld_stand_cm_per_cm3``, ``ratio_mean`` and
+``ratio_standard_deviation``
 (estimate ÷ stand RLD, mean and standard deviation over the units).
 """
 
@@ -25,7 +26,8 @@ __all__ = ["stand_rld", "bias_table", "BIAS_COLUMNS", "DEFAULT_TUBE_BAND_CM"]
 DEFAULT_TUBE_BAND_CM = 10.0
 _BLOCK = 1 << 16  # segments whose lengths are computed at a time
 BIAS_COLUMNS = ("method", "group", "depth_top_cm", "depth_bottom_cm", "units", "rld_estimate_mean_cm_per_cm3",
-                "rld_estimate_sd_cm_per_cm3", "rld_stand_cm_per_cm3", "ratio_mean", "ratio_sd")
+                "rld_estimate_standard_deviation_cm_per_cm3", "rld_stand_cm_per_cm3", "ratio_mean",
+                "ratio_standard_deviation")
 
 
 def stand_rld(system: Any, tops: np.ndarray, bottoms: np.ndarray) -> np.ndarray:
@@ -74,9 +76,10 @@ def _rows(method: str, group: str, keys, estimate, truth_of) -> list[dict]:
         ratio = values / truth if truth > 0 else np.full(values.size, np.nan)
         out.append({"method": method, "group": group, "depth_top_cm": float(top), "depth_bottom_cm": float(bottom),
                     "units": int(values.size), "rld_estimate_mean_cm_per_cm3": float(values.mean()),
-                    "rld_estimate_sd_cm_per_cm3": float(values.std(ddof=1)) if values.size > 1 else float("nan"),
+                    "rld_estimate_standard_deviation_cm_per_cm3":
+                        float(values.std(ddof=1)) if values.size > 1 else float("nan"),
                     "rld_stand_cm_per_cm3": truth, "ratio_mean": float(np.mean(ratio)),
-                    "ratio_sd": float(np.std(ratio, ddof=1)) if values.size > 1 else float("nan")})
+                    "ratio_standard_deviation": float(np.std(ratio, ddof=1)) if values.size > 1 else float("nan")})
     return out
 
 
