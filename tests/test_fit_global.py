@@ -212,11 +212,11 @@ def test_profile_interval_of_a_linear_model_is_the_exact_interval():
     observed = 2.0 + 0.5 * x + np.random.default_rng(11).normal(0.0, sd)
     low, span = np.array([-5.0, -1.0]), np.array([20.0, 4.0])
 
-    def simulate(units):
+    def predicted_means(units):
         theta = low + units * span
         return theta[:, :1] + theta[:, 1:] * x[None, :]
 
-    fit = fit_and_profile(simulate, observed, sd, dimension=2, seed=3, population=6, generations=8, grid=7)
+    fit = fit_and_profile(predicted_means, observed, sd, dimension=2, seed=3, population=6, generations=8, grid=7)
     design = np.column_stack([np.ones_like(x), x]) / sd[:, None]
     exact, *_ = np.linalg.lstsq(design, observed / sd, rcond=None)
     covariance = np.linalg.inv(design.T @ design)
@@ -253,13 +253,13 @@ def _exponential_fit_coverage(sets, *, weigh_simulation_noise):
         stand_noise = rng.normal(0.0, 1.0, (replicates, depth.size)) * stand_sd
         more_stands = rng.normal(0.0, 1.0, (8, depth.size)) * stand_sd
 
-        def simulate(units):
+        def predicted_means(units):
             return model(low + units * span) + stand_noise.mean(axis=0)
 
         def simulation_variance(unit):  # between-stand variance of 8 stands / replicates
             return more_stands.var(axis=0, ddof=1) / replicates
 
-        fit = fit_and_profile(simulate, observed, sd, dimension=2, seed=s, population=4, generations=4,
+        fit = fit_and_profile(predicted_means, observed, sd, dimension=2, seed=s, population=4, generations=4,
                               simulation_variance=simulation_variance if weigh_simulation_noise else None)
         unit_truth = (truth - low) / span
         covered += [lo <= unit_truth[k] <= hi for k, (lo, hi) in enumerate(fit.intervals)]

@@ -223,7 +223,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
             traits.append(runs.sort_values("replicate")[t.name].to_numpy(float))
         return np.column_stack([values, *traits]) if traits else values
 
-    def simulate(units):
+    def predicted_means(units):
         specs, results = grow_and_measure(units, replicates)
         rows = []
         for name, _ in specs:
@@ -243,7 +243,7 @@ def fit_global(spec, observed: pd.DataFrame, parameters: list[FitParameter], *, 
         raise RootsimError(f"--workers must be >= 1 (got {workers})")
     pool = open_runner(workers, scheduler)  # one pool / Dask connection for all batches, not one per batch
     try:
-        fit = fit_and_profile(simulate, observed_all, sd, dimension=len(parameters),
+        fit = fit_and_profile(predicted_means, observed_all, sd, dimension=len(parameters),
                               simulation_variance=simulation_variance if noise_stands >= 2 else None,
                               scaled=not weighted, seed=base, population=population, generations=generations,
                               grid=grid, on_stage=on_stage)

@@ -193,15 +193,15 @@ class ProfileFit:
     scale: float
 
 
-def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, simulation_variance=None,
+def fit_and_profile(predicted_means, observed, standard_deviation, *, dimension: int, simulation_variance=None,
                     scaled: bool = False, seed: int = 0, population: int = 6, generations: int = 6,
                     grid: int = 7, refinements: int = 3, on_stage=None) -> ProfileFit:
     """Minimise chi2 over the unit box and profile each parameter (see the module documentation).
 
     Parameters
     ----------
-    simulate : callable
-        ``simulate(units (m, p)) -> (m, n)`` simulated means; a row holding NaN marks a failed point (chi2 inf).
+    predicted_means : callable
+        ``predicted_means(units (m, p)) -> (m, n)`` simulated means; a row holding NaN marks a failed point (chi2 inf).
     observed, standard_deviation : array, shape (n,)
         Observations and their standard deviations (all 1 with ``scaled``).
     dimension : int
@@ -239,7 +239,7 @@ def fit_and_profile(simulate, observed, standard_deviation, *, dimension: int, s
 
     def evaluate(units, tags):
         units = np.clip(np.atleast_2d(np.asarray(units, float)), 0.0, 1.0)
-        values = np.asarray(simulate(units), float).reshape(len(units), observed.size)
+        values = np.asarray(predicted_means(units), float).reshape(len(units), observed.size)
         out = []
         for unit, sim, tag in zip(units, values, tags):
             stage, k = tag
