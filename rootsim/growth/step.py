@@ -91,6 +91,8 @@ TIP_NI = 8
 # none), biopore met (-1: none or not looked up).
 S_RESISTANCE, S_FACTOR, S_PROLIFERATION, S_PULL, S_GX, S_GY, S_GZ, S_PORE = range(8)
 TIP_SOIL_NF = 8
+#: Tips whose soil is looked up together (:func:`soil_for_tips`), ahead of the step's loop over them.
+TIP_BLOCK = 256
 # Roots: float fields (length now and one step ago, the last step's time and rate, ...).
 # (R_PENDING: the root's pending branch points, kept in this row that the tip loop touches anyway, so that lateral
 # activation skips a root with none without reading its queue)
@@ -269,19 +271,22 @@ def _set_root(rootf, rooti, tipf, tipi, r, j, cls, order, parent_root, parent_se
 @njit(**JIT_BORROW)
 def soil_for_tips(fields, shared, resistance_field, response_code, response_parameter_mpa, proliferation_field,
                   proliferation_half, proliferation_max, tropism_field, tropism_strength, pores, n_pores,
-                  pores_z_bottom, pores_z_top, tipf, tipi, n_tips, out):
-    """Every field and biopore look-up of a step's growing tips, written to ``out[j]`` (``S_*`` columns).
+                  pores_z_bottom, pores_z_top, tipf, tipi, start, stop, out):
+    """Every field and biopore look-up of the growing tips ``start <= j < stop``, written to ``out[j - start]``
+    (``S_*`` columns).
 
-    A tight loop of its own before the step's loop over tips: the look-ups of different tips are independent,
-    so the processor overlaps them (inside the long loop each waits for the previous tip's work). The look-ups
+    A tight loop of its own, run for a block of tips just before the step's loop reaches them: the look-ups of
+    different tips are independent, so the processor overlaps them (inside the long loop each waits for the
+    previous tip's work), and the block's rows are still in cache when the loop reads them. The look-ups
     are made at the tips' positions at the step's start, as the loop would make them; a biopore is looked up only
     for a tip outside every pore within the pores' depth range (elsewhere ``S_PORE`` is -1). Fields of one shared
     grid (``shared``, :func:`rootsim.soil.fields.shared_grid`) are read there, with the same numbers.
     """
     use_shared = shared.values.size > 0
-    for j in range(n_tips):
+    for j in range(start, stop):
         if tipi[j, T_DONE] != 0:
             continue
+        row = j - start
         cls = tipi[j, T_CLASS]
         x, y, z = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
         if use_shared:
@@ -292,28 +297,28 @@ def soil_for_tips(fields, shared, resistance_field, response_code, response_para
                                                         tropism_field[cls], x, y, z)
         if resistance_field < 0:
             resistance = 0.0
-        out[j, S_RESISTANCE] = resistance
-        out[j, S_FACTOR] = elongation_factor_kernel(resistance, response_code, response_parameter_mpa,
+        out[row, S_RESISTANCE] = resistance
+        out[row, S_FACTOR] = elongation_factor_kernel(resistance, response_code, response_parameter_mpa,
                                                     tipf[j, T_FELT])
         proliferation = 1.0
         if proliferation_field[cls] >= 0:
             level = max(level, 0.0)
             proliferation = 1.0 + (proliferation_max[cls] - 1.0) * level / (level + proliferation_half[cls])
-        out[j, S_PROLIFERATION] = proliferation
+        out[row, S_PROLIFERATION] = proliferation
         pull = 0.0
         if tropism_field[cls] >= 0:
             gnorm = math.sqrt(gx * gx + gy * gy + gz * gz)
             if gnorm > 0 and math.isfinite(gnorm):
                 gx, gy, gz = gx / gnorm, gy / gnorm, gz / gnorm
                 pull = tropism_strength[cls]
-        out[j, S_PULL] = pull
-        out[j, S_GX] = gx
-        out[j, S_GY] = gy
-        out[j, S_GZ] = gz
+        out[row, S_PULL] = pull
+        out[row, S_GX] = gx
+        out[row, S_GY] = gy
+        out[row, S_GZ] = gz
         met = -1
         if n_pores > 0 and tipi[j, T_PORE] < 0 and pores_z_bottom <= z <= pores_z_top:
             met = biopore_at(pores, x, y, z)
-        out[j, S_PORE] = met
+        out[row, S_PORE] = met
 
 
 @njit(**JIT_INLINE)
@@ -525,7 +530,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
     n_pend_rows = 0  # rows of the pool ever used
     free_row = -1  # first row of the free list
     stepped = np.empty(16, dtype=np.int64)  # roots whose tips stepped this step, in tip order
-    tip_soil = np.empty((16 if use_fields else 0, TIP_SOIL_NF))  # field look-ups of every tip, one step
+    tip_soil = np.empty((TIP_BLOCK if use_fields else 0, TIP_SOIL_NF))  # field look-ups of a block of tips
     params = np.empty(N_PARAMS)
     fallback = np.empty(3)
     n_events = event_day.size
@@ -617,12 +622,6 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         # variable reassigned inside a compiled loop costs reference counting on every pass).
         if stepped.size < n_tips:
             stepped = np.empty(max(2 * stepped.size, n_tips), dtype=np.int64)
-        if use_fields:  # every field and biopore look-up of the step's tips, in one tight loop before the step
-            if tip_soil.shape[0] < n_tips:
-                tip_soil = np.empty((max(2 * tip_soil.shape[0], n_tips), TIP_SOIL_NF))
-            soil_for_tips(fields, shared, resistance_field, response_code, response_parameter_mpa, proliferation_field,
-                          proliferation_half, proliferation_max, tropism_field, tropism_strength, pores, n_pores,
-                          pores_z_bottom, pores_z_top, tipf, tipi, n_tips, tip_soil)
         if chunk_used + n_tips > c_len.size:  # at most one segment per tip and step
             chunk_counts.append(chunk_used)
             size = max(_FIRST_CHUNK, n_seg // 8, 8 * n_tips)  # at most 1/8 + 1/8 of the rows spare
@@ -632,6 +631,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
         n_stepped = n_tips
         j = 0
         need_pending = 0
+        block_start = 0  # tips block_start <= j < block_end have their soil looked up in tip_soil
+        field_first = (k & 1) == 1  # the turn toward a field's gradient before the Brownian turn (odd steps)
+        block_end = 0
         while j < n_tips:
             if need_pending > 0:
                 capacity = min(pending_limit, max(2 * pendf.shape[0], n_pend + need_pending))
@@ -643,6 +645,14 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     stepped[j] = -1
                     j += 1
                     continue
+                if use_fields and j >= block_end:  # every field and biopore look-up of the next block of tips
+                    block_start = j
+                    block_end = min(j + TIP_BLOCK, n_tips)
+                    soil_for_tips(fields, shared, resistance_field, response_code, response_parameter_mpa,
+                                  proliferation_field, proliferation_half, proliferation_max, tropism_field,
+                                  tropism_strength, pores, n_pores, pores_z_bottom, pores_z_top, tipf, tipi,
+                                  block_start, block_end, tip_soil)
+                row = j - block_start
                 cls = tipi[j, T_CLASS]
                 sx, sy, sz = tipf[j, T_X], tipf[j, T_Y], tipf[j, T_Z]
                 dt = (t1 - t0) + tipf[j, T_CARRY]
@@ -659,7 +669,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     if n_pores > 0:
                         pore = tipi[j, T_PORE]
                         if pore < 0:
-                            met = int(tip_soil[j, S_PORE])
+                            met = int(tip_soil[row, S_PORE])
                             if met >= 0 and met != tipi[j, T_DECLINED]:
                                 if pore_entry_probability >= 1.0 or uniform_draw(bits) < pore_entry_probability:
                                     pore = met
@@ -671,11 +681,11 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                         rate = tipf[j, T_RATE] * elongation_factor_kernel(resistance, response_code,
                                                                           response_parameter_mpa, tipf[j, T_FELT])
                     else:
-                        resistance = tip_soil[j, S_RESISTANCE]
-                        rate = tipf[j, T_RATE] * tip_soil[j, S_FACTOR]
-                        field_pull = tip_soil[j, S_PULL]
-                        gx, gy, gz = tip_soil[j, S_GX], tip_soil[j, S_GY], tip_soil[j, S_GZ]
-                    proliferation = tip_soil[j, S_PROLIFERATION]
+                        resistance = tip_soil[row, S_RESISTANCE]
+                        rate = tipf[j, T_RATE] * tip_soil[row, S_FACTOR]
+                        field_pull = tip_soil[row, S_PULL]
+                        gx, gy, gz = tip_soil[row, S_GX], tip_soil[row, S_GY], tip_soil[row, S_GZ]
+                    proliferation = tip_soil[row, S_PROLIFERATION]
                     rate *= proliferation
                 else:
                     rate = tipf[j, T_RATE] * elongation_factor(soil_bottoms, soil_factor, sx, sy, sz)
@@ -694,7 +704,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 tipf[j, T_CARRY] = 0.0
                 # Headings live at segment midpoints (staggered): the stored heading is the direction of the last
                 # segment and is advanced over the arc from its middle to the middle of the new segment by Strang
-                # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half.
+                # splitting: half the tropic turn, the Brownian turn over the whole arc, the other half. The turn
+                # toward a field's gradient is made whole, before the Brownian turn in odd steps and after it in
+                # even ones (alternating Lie splitting: two steps compose as Strang's half, whole, half).
                 arc = tipf[j, T_HALF] + 0.5 * ds
                 strength, cos_phi, sin_phi = tipf[j, T_TROP], tipf[j, T_COSPHI], tipf[j, T_SINPHI]
                 exotropism, h0x, h0y, h0z = tipf[j, T_EXO], tipf[j, T_H0X], tipf[j, T_H0Y], tipf[j, T_H0Z]
@@ -703,9 +715,9 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 # tropism toward the gradient of a field: the sine law toward its direction at the step's start
                 field_shrink = 1.0
                 if field_pull > 0:
-                    field_shrink = math.exp(-field_pull * (0.5 * arc))
-                if field_pull > 0:
-                    hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
+                    field_shrink = math.exp(-field_pull * arc)
+                    if field_first:
+                        hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]
                 drawn = False
                 if sigma > 0:
@@ -719,7 +731,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                     else:
                         tau = tangent_variance_scalar(variance, log_x_table, ratio_table)
                     hx, hy, hz = brownian_turn(hx, hy, hz, fallback[0], fallback[1], fallback[2], tau)
-                if field_pull > 0:
+                if field_pull > 0 and not field_first:
                     hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 hx, hy, hz = _tropic_half_turn(hx, hy, hz, 0.5 * arc, strength, cos_phi, sin_phi, exotropism, h0x,
                                                h0y, h0z)

@@ -103,8 +103,8 @@ def toward_direction_turn(hx, hy, hz, tx, ty, tz, step_cm, strength_per_cm):
 
 @njit(**JIT_INLINE)
 def toward_by_factor(hx, hy, hz, tx, ty, tz, shrink):
-    """:func:`toward_direction_turn` with ``shrink = exp(-k s)`` given (so one ``exp`` can serve both halves of a
-    step's turn): tan(β/2) -> tan(β/2) * shrink.
+    """:func:`toward_direction_turn` with ``shrink = exp(-k s)`` given (computed once by the caller, which
+    knows the arc): tan(β/2) -> tan(β/2) * shrink.
 
     Computed in the stereographic projection from -t onto the plane through the origin normal to t, where the
     heading is ``w = p / q`` with ``p = h - (h·t) t``, ``q = 1 + h·t`` and ``|w| = tan(β/2)``: the turn is
