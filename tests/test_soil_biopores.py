@@ -39,6 +39,25 @@ def test_lookup_agrees_with_a_direct_distance_computation():
     assert 0.05 < (index >= 0).mean() < 0.95  # the check exercises both answers
 
 
+def test_points_at_the_sides_of_pores_are_found_as_by_a_direct_computation():
+    # Points just inside the sides of vertical pores lie on the faces of the pores' boxes, where the bin index
+    # (a product by the inverse bin size) is most likely to round across a bin face: every lookup must still
+    # equal the brute-force point-to-axis test (independent numpy computation).
+    pores = draw_biopores(seed=11, density_per_m2=2000, x_range_cm=(-30, 30), y_range_cm=(-20, 20), depth_top_cm=10,
+                          depth_bottom_cm=60, radius_cm=(0.2, 1.5), inclination_from_vertical_deg=(0, 0))
+    top, radius = pores.top_cm, pores.radius_cm
+    inward = 1 - 1e-12
+    sides = [(dx, dy) for dx, dy in ((1, 0), (-1, 0), (0, 1), (0, -1))]
+    pts = np.concatenate([np.stack([top[:, 0] + dx * radius * inward, top[:, 1] + dy * radius * inward,
+                                    np.full(len(top), -30.0)], axis=1) for dx, dy in sides])
+    index, _ = pores.lookup(*pts.T)
+    rel = pts[:, None, :2] - top[None, :, :2]
+    inside = np.einsum("pkc,pkc->pk", rel, rel) <= radius ** 2
+    expected = np.where(inside.any(axis=1), inside.argmax(axis=1), -1)
+    np.testing.assert_array_equal(index, expected)
+    assert (index >= 0).all()
+
+
 def test_drawn_counts_are_poisson_with_the_density_times_area():
     # Poisson count with mean density * area (common practice); 0.5 m^2 at 200 per m^2 -> mean 100, s.d. 10
     counts = [draw_biopores(seed=s, density_per_m2=200, x_range_cm=(0, 100), y_range_cm=(0, 50), depth_top_cm=10,

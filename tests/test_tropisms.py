@@ -64,3 +64,17 @@ def test_brownian_turn_has_the_spherical_brownian_mean_cosine_and_no_preferred_d
             ortho /= np.linalg.norm(ortho)
             along = ortho @ out
             assert abs(along.mean()) < 4.5 * along.std() / np.sqrt(n)
+
+
+def test_shrink_factor_is_exp_to_the_last_bit_or_one_ulp():
+    # exp(-x) (analytic): the inline series below its limit and math.exp above it agree with numpy's exp to
+    # within one unit in the last place, on both sides of the limit and at 0.
+    from rootsim.growth.tropisms import SHRINK_SERIES_LIMIT, shrink_factor
+
+    x = np.concatenate([[0.0, 1e-300, 1e-12, SHRINK_SERIES_LIMIT * (1 - 1e-15), SHRINK_SERIES_LIMIT],
+                        np.random.default_rng(4).uniform(0, 2 * SHRINK_SERIES_LIMIT, 20000),
+                        np.geomspace(1e-9, 50, 2000)])
+    got = np.array([shrink_factor(v) for v in x])
+    expected = np.exp(-x)
+    assert np.all(np.abs(got - expected) <= np.spacing(expected)), np.max(np.abs(got - expected) / np.spacing(expected))
+    assert shrink_factor(0.0) == 1.0

@@ -46,6 +46,7 @@ from .tropisms import (
     sine_law_turn,
     tangent_variance_scalar,
     tangent_variance_series,
+    shrink_factor,
     toward_by_factor,
     toward_direction_turn,
 )
@@ -715,7 +716,7 @@ def grow_plant(rng, seed_x, seed_y, seed_z, event_day, event_class, event_count,
                 # tropism toward the gradient of a field: the sine law toward its direction at the step's start
                 field_shrink = 1.0
                 if field_pull > 0:
-                    field_shrink = math.exp(-field_pull * arc)
+                    field_shrink = shrink_factor(field_pull * arc)
                     if field_first:
                         hx, hy, hz = toward_by_factor(hx, hy, hz, gx, gy, gz, field_shrink)
                 sigma = tipf[j, T_SIGMA]

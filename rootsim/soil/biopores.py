@@ -41,8 +41,8 @@ class CompiledBiopores(NamedTuple):
     axis : ndarray, shape (n, 3)
         Unit axis pointing from the top down the channel.
     length_cm, radius_cm : ndarray, shape (n,)
-    bin_float : ndarray, shape (3,)
-        x and y of the bin grid's low corner, bin size (cm).
+    bin_float : ndarray, shape (4,)
+        x and y of the bin grid's low corner, bin size (cm) and its inverse (1/cm).
     bin_int : ndarray of int64, shape (2,)
         Bins along x and y.
     bin_first : ndarray of int64, shape (n_bins + 1,)
@@ -175,8 +175,10 @@ def _compile(top: np.ndarray, bottom: np.ndarray, radius: np.ndarray) -> Compile
         size = max(size, float(extent.max() / 4096) * (1 + 1e-9))
     else:
         origin, size, shape = np.zeros(2), 1.0, np.ones(2, np.int64)
-    i0 = np.clip(np.floor((lo - origin) / size).astype(np.int64), 0, shape - 1)
-    i1 = np.clip(np.floor((hi - origin) / size).astype(np.int64), 0, shape - 1)
+    # look-ups scale by 1 / size (a product): a pore also goes into a neighbouring bin when its box ends within
+    # a millionth of a bin of the shared face, so the product's rounding can never pick a bin without it
+    i0 = np.clip(np.floor((lo - origin) / size - 1e-6).astype(np.int64), 0, shape - 1)
+    i1 = np.clip(np.floor((hi - origin) / size + 1e-6).astype(np.int64), 0, shape - 1)
     counts_x = i1[:, 0] - i0[:, 0] + 1
     counts_y = i1[:, 1] - i0[:, 1] + 1
     per_pore = counts_x * counts_y
@@ -191,7 +193,7 @@ def _compile(top: np.ndarray, bottom: np.ndarray, radius: np.ndarray) -> Compile
     return CompiledBiopores(
         top=np.ascontiguousarray(top, np.float64), axis=np.ascontiguousarray(axis, np.float64),
         length_cm=np.ascontiguousarray(length), radius_cm=np.ascontiguousarray(radius),
-        bin_float=np.array([origin[0], origin[1], size], np.float64), bin_int=shape.astype(np.int64),
+        bin_float=np.array([origin[0], origin[1], size, 1.0 / size], np.float64), bin_int=shape.astype(np.int64),
         bin_first=np.cumsum(first).astype(np.int64), bin_items=owner[order].astype(np.int64))
 
 
@@ -205,8 +207,8 @@ def biopore_at(compiled, x, y, z):
     b = compiled
     if b.radius_cm.size == 0:
         return -1
-    i = int(math.floor((x - b.bin_float[0]) / b.bin_float[2]))
-    j = int(math.floor((y - b.bin_float[1]) / b.bin_float[2]))
+    i = int(math.floor((x - b.bin_float[0]) * b.bin_float[3]))
+    j = int(math.floor((y - b.bin_float[1]) * b.bin_float[3]))
     if i < 0 or j < 0 or i >= b.bin_int[0] or j >= b.bin_int[1]:
         return -1
     cell = i * b.bin_int[1] + j
