@@ -43,10 +43,10 @@ from .tropisms import (
     combined_sine_law_scalar,
     heading_from_angles_scalar,
     lateral_heading_scalar,
+    shrink_factor,
     sine_law_turn,
     tangent_variance_scalar,
     tangent_variance_series,
-    shrink_factor,
     toward_by_factor,
     toward_direction_turn,
 )
